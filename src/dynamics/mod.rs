@@ -1,0 +1,1 @@
+//! Prime movers, governors, loads and the swing equation (filled by the simulator work).

@@ -1,0 +1,459 @@
+//! The file formats as written by hand: serde types that mirror the YAML one to one.
+//!
+//! Only this module derives `Deserialize`. Doc comments here are the field reference: they become
+//! the descriptions in `nadir schema` and must agree with docs/files.md. Units are in field names.
+//! Nothing here is checked beyond its type; [`super::validate`] turns these into [`crate::model`].
+
+use schemars::JsonSchema;
+use serde::Deserialize;
+use std::collections::BTreeMap;
+
+// ---------------------------------------------------------------- plant file
+
+/// A plant file: what the plant is.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct PlantFile {
+    /// Name and nominal frequency.
+    pub plant: PlantHeader,
+    /// Bus section ids. When omitted the plant has one section called `main`.
+    #[serde(default)]
+    pub sections: Vec<String>,
+    /// Bus-tie breakers between sections.
+    #[serde(default)]
+    pub ties: Vec<RawTie>,
+    /// The utility connection, if the plant has one.
+    #[serde(default)]
+    pub utility: Option<RawUtility>,
+    /// Synchronous generators.
+    pub generators: Vec<RawGenerator>,
+    /// Plant loads.
+    pub loads: Vec<RawLoad>,
+    /// Plant modes. When omitted there is one, `normal`, with the values written above.
+    #[serde(default)]
+    pub operating_points: Vec<RawOperatingPoint>,
+    /// Acceptance criteria; each omitted value takes its documented default.
+    #[serde(default)]
+    pub criteria: RawCriteria,
+}
+
+/// Plant header.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct PlantHeader {
+    /// Free text shown in reports.
+    pub name: String,
+    /// Nominal frequency: 50 or 60.
+    pub nominal_hz: f64,
+}
+
+/// A bus-tie breaker.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawTie {
+    /// Breaker id, unique among all breakers (ties, generators and the utility breaker).
+    pub id: String,
+    /// The two section ids this breaker joins.
+    pub between: Vec<String>,
+    /// The tie is open in normal operation (default false).
+    #[serde(default)]
+    pub normally_open: bool,
+}
+
+/// The utility connection.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawUtility {
+    /// Id of the utility breaker as cases and armed stages name it (default `utility`).
+    #[serde(default)]
+    pub breaker: Option<String>,
+    /// Section the utility feeds.
+    pub section: String,
+    /// Import from the grid in MW (negative: export). Operating points may override it.
+    pub import_mw: f64,
+    /// Interface protection that opens the utility breaker.
+    #[serde(default)]
+    pub interface_trips: Vec<RawFrequencyTrip>,
+}
+
+/// A frequency protection element: exactly one of `below_hz`, `above_hz`, `rocof_hz_per_s`, plus `after_s`.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawFrequencyTrip {
+    /// Under-frequency setting, Hz.
+    #[serde(default)]
+    pub below_hz: Option<f64>,
+    /// Over-frequency setting, Hz.
+    #[serde(default)]
+    pub above_hz: Option<f64>,
+    /// Rate-of-change-of-frequency setting (magnitude), Hz/s.
+    #[serde(default)]
+    pub rocof_hz_per_s: Option<f64>,
+    /// Definite time delay, s.
+    pub after_s: f64,
+}
+
+/// An undervoltage element.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawUndervoltage {
+    /// Operates when the section voltage is below this, per unit of nominal.
+    pub below_pu: f64,
+    /// ... for longer than this, s.
+    pub after_s: f64,
+}
+
+/// A synchronous generator.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawGenerator {
+    /// Generator (and its breaker's) id.
+    pub id: String,
+    /// Section the machine is connected to.
+    pub section: String,
+    /// Rating, MVA.
+    pub rating_mva: f64,
+    /// Inertia constant H of turbine and generator on the machine's own rating, s (MW·s/MVA).
+    pub inertia_s: f64,
+    /// Dispatch, MW. Operating points may override it.
+    pub output_mw: f64,
+    /// Lowest stable output, MW (default 0).
+    #[serde(default)]
+    pub min_mw: f64,
+    /// Highest output, MW (default: the rating in MVA).
+    #[serde(default)]
+    pub max_mw: Option<f64>,
+    /// Prime mover and governor.
+    pub governor: RawGovernor,
+    /// The machine's own frequency and ROCOF protection.
+    #[serde(default)]
+    pub trips: Vec<RawFrequencyTrip>,
+    /// Voltage ride-through: the machine trips when the voltage stays below `below_pu` longer than `after_s`.
+    #[serde(default)]
+    pub undervoltage_trips: Vec<RawUndervoltage>,
+}
+
+/// Prime-mover model name.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, JsonSchema)]
+#[serde(rename_all = "kebab-case")]
+pub enum RawPrimeMover {
+    /// Non-reheat steam turbine (parameters: governor_s, turbine_s).
+    Steam,
+    /// Reheat steam turbine (governor_s, reheat_s, hp_fraction).
+    SteamReheat,
+    /// Hydro turbine (governor_s, water_start_s, transient_droop_pct, reset_s).
+    Hydro,
+    /// Gas turbine (governor_s, turbine_s, load_limit_mw).
+    GasTurbine,
+    /// Reciprocating engine (governor_s, ramp_mw_per_s).
+    Engine,
+    /// Fixed mechanical output, no governor action.
+    Fixed,
+}
+
+/// Prime mover and governor. Which parameters apply depends on `model`; the others are refused.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawGovernor {
+    /// steam, steam-reheat, hydro, gas-turbine, engine or fixed.
+    pub model: RawPrimeMover,
+    /// Permanent droop on the machine's rating, percent (required except for `fixed` and isochronous machines).
+    #[serde(default)]
+    pub droop_pct: Option<f64>,
+    /// Governor dead band, ± Hz around nominal (default 0).
+    #[serde(default)]
+    pub deadband_hz: Option<f64>,
+    /// Integral speed control (at most one machine per island; default false).
+    #[serde(default)]
+    pub isochronous: Option<bool>,
+    /// Governor (valve or fuel actuator) time constant, s.
+    #[serde(default)]
+    pub governor_s: Option<f64>,
+    /// Turbine (steam chest or combustor) time constant, s.
+    #[serde(default)]
+    pub turbine_s: Option<f64>,
+    /// Reheater time constant, s.
+    #[serde(default)]
+    pub reheat_s: Option<f64>,
+    /// Fraction of power from the high-pressure turbine, 0–1.
+    #[serde(default)]
+    pub hp_fraction: Option<f64>,
+    /// Water starting time Tw, s.
+    #[serde(default)]
+    pub water_start_s: Option<f64>,
+    /// Transient droop, percent.
+    #[serde(default)]
+    pub transient_droop_pct: Option<f64>,
+    /// Transient droop reset time, s.
+    #[serde(default)]
+    pub reset_s: Option<f64>,
+    /// Gas turbine load (temperature) limit, MW.
+    #[serde(default)]
+    pub load_limit_mw: Option<f64>,
+    /// Engine load-acceptance ramp limit, MW/s.
+    #[serde(default)]
+    pub ramp_mw_per_s: Option<f64>,
+}
+
+/// A plant load.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawLoad {
+    /// Load (feeder breaker) id.
+    pub id: String,
+    /// Free text, e.g. the process it serves.
+    #[serde(default)]
+    pub description: Option<String>,
+    /// Section the load is fed from.
+    pub section: String,
+    /// Demand at nominal frequency and voltage, MW.
+    pub p_mw: f64,
+    /// Importance rank, a whole number from 1: rank 1 is shed first, higher ranks later.
+    pub rank: u32,
+    /// The load must never be in a shedding stage (default false).
+    #[serde(default)]
+    pub never_shed: bool,
+    /// Frequency exponent k in P = P0·(f/f0)^k (default 1.0).
+    #[serde(default)]
+    pub freq_exp: Option<f64>,
+    /// Inertia constant of the motor and driven load on the load's MW, s (default: none).
+    #[serde(default)]
+    pub inertia_s: Option<f64>,
+    /// Undervoltage drop-out of the load's contactors or drives.
+    #[serde(default)]
+    pub undervoltage: Option<RawUndervoltage>,
+}
+
+/// A plant mode.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawOperatingPoint {
+    /// Operating point id.
+    pub id: String,
+    /// Free text.
+    #[serde(default)]
+    pub description: Option<String>,
+    /// Factor applied to every load's p_mw (default 1.0).
+    #[serde(default)]
+    pub load_scale: Option<f64>,
+    /// Per-load factor, replacing load_scale for the loads named.
+    #[serde(default)]
+    pub load_factors: BTreeMap<String, f64>,
+    /// Loads switched off in this mode.
+    #[serde(default)]
+    pub loads_off: Vec<String>,
+    /// Generator dispatch in MW, replacing output_mw for the machines named.
+    #[serde(default)]
+    pub dispatch: BTreeMap<String, f64>,
+    /// Generators not running in this mode.
+    #[serde(default)]
+    pub offline: Vec<String>,
+    /// Import from the utility in this mode, MW (default: the utility's import_mw).
+    #[serde(default)]
+    pub import_mw: Option<f64>,
+    /// Ties open in this mode (in addition to normally open ones).
+    #[serde(default)]
+    pub ties_open: Vec<String>,
+    /// Normally open ties closed in this mode.
+    #[serde(default)]
+    pub ties_closed: Vec<String>,
+}
+
+/// Acceptance criteria.
+#[derive(Debug, Clone, Default, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawCriteria {
+    /// Lowest frequency allowed at any time, Hz (default 0.95·f0).
+    #[serde(default)]
+    pub min_hz: Option<f64>,
+    /// Highest frequency allowed at any time, Hz (default 1.03·f0).
+    #[serde(default)]
+    pub max_hz: Option<f64>,
+    /// Frequency must recover above a level within a time.
+    #[serde(default)]
+    pub recover: Option<RawRecover>,
+    /// Largest |df/dt| allowed, measured over rocof_window_s, Hz/s (default 2.0).
+    #[serde(default)]
+    pub max_rocof_hz_per_s: Option<f64>,
+    /// Window for the ROCOF criterion, s (default 0.5).
+    #[serde(default)]
+    pub rocof_window_s: Option<f64>,
+    /// Frequency must stay in a band from a time on.
+    #[serde(default)]
+    pub settle: Option<RawSettle>,
+}
+
+/// Recovery criterion.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawRecover {
+    /// Level to recover above, Hz (default 0.99·f0).
+    pub above_hz: f64,
+    /// Time after the first event by which it must be reached and held, s (default 10).
+    pub within_s: f64,
+}
+
+/// Settling criterion.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawSettle {
+    /// From this time after the first event on... s (default 30).
+    pub within_s: f64,
+    /// ... frequency stays above this, Hz (default 0.99·f0) ...
+    pub low_hz: f64,
+    /// ... and below this, Hz (default 1.01·f0).
+    pub high_hz: f64,
+}
+
+// ---------------------------------------------------------------- cases file
+
+/// A cases file: what must be survived.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct CasesFile {
+    /// The disturbance cases.
+    pub cases: Vec<RawCase>,
+}
+
+/// How a case starts.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Deserialize, JsonSchema)]
+#[serde(rename_all = "kebab-case")]
+pub enum RawStart {
+    /// Joined to the utility (default).
+    #[default]
+    Connected,
+    /// Utility breaker already open; the machines carry the whole plant load.
+    Islanded,
+}
+
+/// One disturbance scenario.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawCase {
+    /// Case id.
+    pub id: String,
+    /// Free text.
+    #[serde(default)]
+    pub description: Option<String>,
+    /// connected (default) or islanded.
+    #[serde(default)]
+    pub start: RawStart,
+    /// Operating points this case applies to (default: all).
+    #[serde(default)]
+    pub only_at: Vec<String>,
+    /// Simulated time, s (default 30).
+    #[serde(default)]
+    pub duration_s: Option<f64>,
+    /// Weight of this case's shed in the design objective (default 1).
+    #[serde(default)]
+    pub weight: Option<f64>,
+    /// Timed actions.
+    pub events: Vec<RawEvent>,
+    /// Utility frequency while connected, for a grid-wide event: points joined by straight lines.
+    #[serde(default)]
+    pub utility_hz: Vec<RawProfilePoint>,
+}
+
+/// A point of the utility frequency profile.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawProfilePoint {
+    /// Time, s.
+    pub at_s: f64,
+    /// Frequency, Hz.
+    pub hz: f64,
+}
+
+/// A timed action: `at_s` plus exactly one of `open`, `trip`, `load_step`, `voltage_dip`.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawEvent {
+    /// Time of the action, s.
+    pub at_s: f64,
+    /// Open a breaker: the utility breaker or a bus tie, by id.
+    #[serde(default)]
+    pub open: Option<String>,
+    /// Trip a generator, by id.
+    #[serde(default)]
+    pub trip: Option<String>,
+    /// Add (or with negative MW remove) constant-power demand on a section.
+    #[serde(default)]
+    pub load_step: Option<RawLoadStep>,
+    /// A voltage dip on a section.
+    #[serde(default)]
+    pub voltage_dip: Option<RawVoltageDip>,
+}
+
+/// A load step.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawLoadStep {
+    /// Section id.
+    pub section: String,
+    /// Added demand, MW.
+    pub mw: f64,
+}
+
+/// A voltage dip.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawVoltageDip {
+    /// Section id.
+    pub section: String,
+    /// Remaining voltage during the dip, per unit (0 for a close-in three-phase fault).
+    pub remaining_pu: f64,
+    /// Duration, s.
+    pub duration_s: f64,
+}
+
+// ---------------------------------------------------------------- scheme file
+
+/// A scheme file: the shedding table.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct SchemeFile {
+    /// Name shown in reports.
+    #[serde(default)]
+    pub name: Option<String>,
+    /// Relay measurement (defaults: 0.04 s frequency lag, 0.1 s ROCOF window).
+    #[serde(default)]
+    pub measurement: Option<RawMeasurement>,
+    /// The stages.
+    pub stages: Vec<RawStage>,
+}
+
+/// Relay measurement.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawMeasurement {
+    /// First-order lag of the frequency estimate, s.
+    #[serde(default)]
+    pub frequency_lag_s: Option<f64>,
+    /// ROCOF measuring window, s.
+    #[serde(default)]
+    pub rocof_window_s: Option<f64>,
+}
+
+/// A stage: either `pickup_hz` (under-frequency) or `armed_by` (event-armed), not both.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawStage {
+    /// Stage id.
+    pub id: String,
+    /// Under-frequency pickup, Hz.
+    #[serde(default)]
+    pub pickup_hz: Option<f64>,
+    /// df/dt supervision: the stage operates only while frequency falls at least this fast, Hz/s.
+    #[serde(default)]
+    pub min_rocof_hz_per_s: Option<f64>,
+    /// Event-armed stage: the breaker (utility, tie or generator id) whose opening starts it.
+    #[serde(default)]
+    pub armed_by: Option<String>,
+    /// Intentional delay, s.
+    pub delay_s: f64,
+    /// Load breaker opening time, s (default 0.08).
+    #[serde(default)]
+    pub breaker_s: Option<f64>,
+    /// Load ids this stage opens.
+    pub sheds: Vec<String>,
+}

@@ -1,0 +1,17 @@
+//! Checked domain types: the plant, its operating points, the cases and the shedding scheme.
+//!
+//! Everything here has passed validation in [`crate::input`]: ids are resolved to indices into the
+//! plant's vectors, units are converted once, and no `Option` remains that validation could have
+//! settled. Code downstream never looks an id up by string and never re-checks a range.
+
+pub mod base;
+mod case;
+mod plant;
+mod scheme;
+
+pub use case::{Action, Case, CaseEvent, CaseSet, Start};
+pub use plant::{
+    Criteria, FrequencyTrip, Generator, Governor, Load, OperatingPoint, Plant, PrimeMover, Section,
+    Tie, UndervoltageTrip, Utility,
+};
+pub use scheme::{BreakerRef, Measurement, Scheme, Stage, StageTrigger};

@@ -1,0 +1,68 @@
+//! The shedding scheme: stages with their trigger, intentional delay, breaker time and loads.
+
+/// A breaker the plant has: the utility breaker, a bus tie, or a generator's own breaker.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum BreakerRef {
+    Utility,
+    Tie(usize),
+    Generator(usize),
+}
+
+/// A validated shedding table.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Scheme {
+    pub name: String,
+    pub measurement: Measurement,
+    pub stages: Vec<Stage>,
+}
+
+/// How the relays measure. Generator and interface protection use the same measurement.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Measurement {
+    /// First-order lag of the frequency measurement (a numerical relay's 3–6 cycle estimate).
+    pub frequency_lag_s: f64,
+    /// Window over which df/dt is measured.
+    pub rocof_window_s: f64,
+}
+
+impl Default for Measurement {
+    fn default() -> Self {
+        Measurement {
+            frequency_lag_s: 0.04,
+            rocof_window_s: 0.1,
+        }
+    }
+}
+
+/// One stage of the table.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Stage {
+    pub id: String,
+    pub trigger: StageTrigger,
+    /// Intentional delay after pickup (frequency stages) or after the breaker opens (armed stages).
+    pub delay_s: f64,
+    /// Time from the trip command to the load's breaker interrupting.
+    pub breaker_s: f64,
+    /// Loads (by index) this stage opens.
+    pub sheds: Vec<usize>,
+}
+
+/// What starts a stage.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum StageTrigger {
+    /// Under-frequency: picks up below `pickup_hz`; when `min_rocof_hz_per_s` is set, only while
+    /// frequency also falls at least that fast.
+    Frequency {
+        pickup_hz: f64,
+        min_rocof_hz_per_s: Option<f64>,
+    },
+    /// Event-armed: operates a fixed delay after the named breaker opens.
+    Breaker(BreakerRef),
+}
+
+impl Scheme {
+    /// Position of a stage by id.
+    pub fn stage_index(&self, id: &str) -> Option<usize> {
+        self.stages.iter().position(|s| s.id == id)
+    }
+}

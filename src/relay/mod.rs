@@ -1,0 +1,1 @@
+//! Relays: measurement, stages, generator and interface protection (filled by the simulator work).

@@ -1,0 +1,1 @@
+//! The simulation loop (filled by the simulator work).
