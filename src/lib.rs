@@ -18,6 +18,7 @@ pub mod error;
 pub mod input;
 pub mod model;
 pub mod relay;
+pub mod report;
 pub mod screening;
 pub mod sim;
 pub mod topology;
