@@ -22,5 +22,6 @@ pub mod report;
 pub mod screening;
 pub mod sim;
 pub mod topology;
+pub mod verify;
 
 pub use error::Error;

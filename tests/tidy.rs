@@ -20,7 +20,11 @@ fn rust_files(dir: &Path, out: &mut Vec<PathBuf>) {
 fn top_module(src: &Path, file: &Path) -> String {
     let rel = file.strip_prefix(src).expect("file under src");
     let first = rel.components().next().expect("non-empty path");
-    first.as_os_str().to_string_lossy().trim_end_matches(".rs").to_string()
+    first
+        .as_os_str()
+        .to_string_lossy()
+        .trim_end_matches(".rs")
+        .to_string()
 }
 
 fn architecture() -> String {
@@ -58,9 +62,17 @@ fn every_source_file_opens_with_a_module_doc() {
     rust_files(&src, &mut files);
     let missing: Vec<_> = files
         .iter()
-        .filter(|f| !fs::read_to_string(f).unwrap_or_default().trim_start().starts_with("//!"))
+        .filter(|f| {
+            !fs::read_to_string(f)
+                .unwrap_or_default()
+                .trim_start()
+                .starts_with("//!")
+        })
         .collect();
-    assert!(missing.is_empty(), "files without a //! module doc: {missing:?}");
+    assert!(
+        missing.is_empty(),
+        "files without a //! module doc: {missing:?}"
+    );
 }
 
 #[test]
@@ -82,13 +94,21 @@ fn every_module_is_in_the_architecture_map_and_imports_only_what_it_may() {
         let text = fs::read_to_string(file).unwrap_or_default();
         for line in text.lines() {
             let line = line.trim();
-            let Some(rest) = line.strip_prefix("use crate::").or_else(|| line.strip_prefix("pub use crate::"))
+            let Some(rest) = line
+                .strip_prefix("use crate::")
+                .or_else(|| line.strip_prefix("pub use crate::"))
             else {
                 continue;
             };
-            let target: String = rest.chars().take_while(|c| c.is_alphanumeric() || *c == '_').collect();
+            let target: String = rest
+                .chars()
+                .take_while(|c| c.is_alphanumeric() || *c == '_')
+                .collect();
             if target != module && !allowed.iter().any(|a| a == "*" || *a == target) {
-                problems.push(format!("{}: `{module}` may not use `{target}`", file.display()));
+                problems.push(format!(
+                    "{}: `{module}` may not use `{target}`",
+                    file.display()
+                ));
             }
         }
     }

@@ -54,12 +54,17 @@ const FREQ_BOTTOM: f64 = 410.0;
 const SHED_TOP: f64 = 450.0;
 const SHED_BOTTOM: f64 = 560.0;
 /// Trace colours, chosen to stay distinguishable for common colour-vision deficiencies.
-const PALETTE: [&str; 8] =
-    ["#1f5fa8", "#c0392b", "#2e8b57", "#8e44ad", "#d68910", "#17202a", "#148f9c", "#a04000"];
+const PALETTE: [&str; 8] = [
+    "#1f5fa8", "#c0392b", "#2e8b57", "#8e44ad", "#d68910", "#17202a", "#148f9c", "#a04000",
+];
 
 /// Render the plot as SVG text.
 pub fn render(plot: &FrequencyPlot) -> String {
-    let duration = if plot.duration_s.is_finite() && plot.duration_s > 0.0 { plot.duration_s } else { 1.0 };
+    let duration = if plot.duration_s.is_finite() && plot.duration_s > 0.0 {
+        plot.duration_s
+    } else {
+        1.0
+    };
     let (f_lo, f_hi) = frequency_range(plot);
     let shed_max = plot
         .series
@@ -68,7 +73,8 @@ pub fn render(plot: &FrequencyPlot) -> String {
         .fold(0.0_f64, f64::max)
         .max(1.0);
     let x = |t: f64| LEFT + (t.clamp(0.0, duration) / duration) * (WIDTH - LEFT - RIGHT);
-    let yf = |f: f64| FREQ_BOTTOM - (f.clamp(f_lo, f_hi) - f_lo) / (f_hi - f_lo) * (FREQ_BOTTOM - TOP);
+    let yf =
+        |f: f64| FREQ_BOTTOM - (f.clamp(f_lo, f_hi) - f_lo) / (f_hi - f_lo) * (FREQ_BOTTOM - TOP);
     let ys = |mw: f64| SHED_BOTTOM - (mw / (shed_max * 1.1)) * (SHED_BOTTOM - SHED_TOP);
 
     let mut s = String::new();
@@ -152,10 +158,16 @@ pub fn render(plot: &FrequencyPlot) -> String {
     for (i, series) in plot.series.iter().enumerate() {
         let colour = PALETTE[i % PALETTE.len()];
         let path = polyline(series.points.iter().map(|&(t, f)| (x(t), yf(f))));
-        let _ = write!(s, r#"<polyline fill="none" stroke="{colour}" stroke-width="1.8" points="{path}"/>"#);
+        let _ = write!(
+            s,
+            r#"<polyline fill="none" stroke="{colour}" stroke-width="1.8" points="{path}"/>"#
+        );
         let steps = step_points(&series.shed_mw, duration);
         let path = polyline(steps.iter().map(|&(t, mw)| (x(t), ys(mw))));
-        let _ = write!(s, r#"<polyline fill="none" stroke="{colour}" stroke-width="1.5" points="{path}"/>"#);
+        let _ = write!(
+            s,
+            r#"<polyline fill="none" stroke="{colour}" stroke-width="1.5" points="{path}"/>"#
+        );
         let ly = TOP + 14.0 + 16.0 * i as f64;
         let _ = write!(
             s,
@@ -261,12 +273,19 @@ fn polyline(points: impl Iterator<Item = (f64, f64)>) -> String {
 fn trim(v: f64) -> String {
     let s = format!("{v:.2}");
     let s = s.trim_end_matches('0').trim_end_matches('.');
-    if s == "-0" { "0".to_string() } else { s.to_string() }
+    if s == "-0" {
+        "0".to_string()
+    } else {
+        s.to_string()
+    }
 }
 
 /// Escape text for SVG element content.
 pub fn escape(text: &str) -> String {
-    text.replace('&', "&amp;").replace('<', "&lt;").replace('>', "&gt;").replace('"', "&quot;")
+    text.replace('&', "&amp;")
+        .replace('<', "&lt;")
+        .replace('>', "&gt;")
+        .replace('"', "&quot;")
 }
 
 #[cfg(test)]
@@ -284,8 +303,16 @@ mod tests {
                 shed_mw: vec![(0.8, 2.5)],
             }],
             levels: vec![
-                Level { label: "uf-1".into(), hz: 49.0, kind: LevelKind::Pickup },
-                Level { label: "min".into(), hz: 47.5, kind: LevelKind::Limit },
+                Level {
+                    label: "uf-1".into(),
+                    hz: 49.0,
+                    kind: LevelKind::Pickup,
+                },
+                Level {
+                    label: "min".into(),
+                    hz: 47.5,
+                    kind: LevelKind::Limit,
+                },
             ],
         }
     }
@@ -303,7 +330,10 @@ mod tests {
 
     #[test]
     fn ticks_are_round_and_cover_the_range() {
-        assert_eq!(ticks(0.0, 10.0, 10), (0..=10).map(f64::from).collect::<Vec<_>>());
+        assert_eq!(
+            ticks(0.0, 10.0, 10),
+            (0..=10).map(f64::from).collect::<Vec<_>>()
+        );
         let t = ticks(47.3, 50.1, 8);
         assert!(t.first().unwrap() >= &47.3 && t.last().unwrap() <= &50.1);
     }

@@ -37,12 +37,18 @@ pub fn write_atomic(path: &Path, bytes: &[u8], overwrite: Overwrite) -> Result<(
     if overwrite == Overwrite::Refuse && path.exists() {
         return Err(WriteError::Exists(path.to_path_buf()));
     }
-    let io = |source| WriteError::Io { path: path.to_path_buf(), source };
+    let io = |source| WriteError::Io {
+        path: path.to_path_buf(),
+        source,
+    };
     let dir = match path.parent() {
         Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
         _ => PathBuf::from("."),
     };
-    let name = path.file_name().map(|n| n.to_string_lossy().to_string()).unwrap_or_default();
+    let name = path
+        .file_name()
+        .map(|n| n.to_string_lossy().to_string())
+        .unwrap_or_default();
     let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
     let result = (|| {
         let mut file = fs::File::create(&tmp)?;
@@ -90,7 +96,10 @@ mod tests {
     fn no_temporary_file_is_left_behind() {
         let dir = scratch("clean");
         write_atomic(&dir.join("a.csv"), b"1,2\n", Overwrite::Allow).unwrap();
-        let names: Vec<_> = fs::read_dir(&dir).unwrap().map(|e| e.unwrap().file_name()).collect();
+        let names: Vec<_> = fs::read_dir(&dir)
+            .unwrap()
+            .map(|e| e.unwrap().file_name())
+            .collect();
         assert_eq!(names.len(), 1, "{names:?}");
     }
 }
