@@ -4,3 +4,4 @@
 //! A failed criterion or a broken rule is a value in the result, never an error.
 
 pub mod audit;
+pub mod criteria;
