@@ -5,3 +5,4 @@
 
 pub mod audit;
 pub mod criteria;
+pub mod diff;
