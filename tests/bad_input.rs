@@ -781,3 +781,36 @@ fn load_functions_report_io_and_size_limit() {
     let p = load_plant(&dir().join("base_plant.yaml")).unwrap();
     assert_eq!(p.generators.len(), 2);
 }
+
+#[test]
+fn cases_islanded_start_needs_a_generator_in_every_island() {
+    // North is fed by the utility alone at `north-gen-out`: fine connected, dead once islanded.
+    let plant_text = "\
+plant: { name: t, nominal_hz: 50 }
+sections: [north, south]
+ties: [ { id: tie, between: [north, south], normally_open: true } ]
+utility: { section: north, import_mw: 1 }
+generators:
+  - { id: gn, section: north, rating_mva: 5, inertia_s: 3, output_mw: 2, governor: { model: steam, droop_pct: 5 } }
+  - { id: gs, section: south, rating_mva: 5, inertia_s: 3, output_mw: 2, governor: { model: steam, droop_pct: 5 } }
+loads:
+  - { id: ln, section: north, p_mw: 3, rank: 1 }
+  - { id: ls, section: south, p_mw: 2, rank: 1 }
+operating_points:
+  - id: all-running
+  - id: north-gen-out
+    offline: [gn]
+    import_mw: 3
+";
+    let plant = parse_plant(plant_text, "p.yaml").unwrap();
+    let cases = "cases:\n  - id: c\n    start: islanded\n    events: [ { at_s: 0, trip: gs } ]\n";
+    let d = parse_cases(cases, "c.yaml", &plant).unwrap_err();
+    assert_eq!(d.len(), 1, "{d:?}");
+    assert_eq!((d[0].path.as_str(), d[0].line), ("cases[0].start", Some(3)));
+    assert!(d[0].message.contains(
+        "starts islanded, but at operating point `north-gen-out` section(s) `north` carry 3 MW of load with no generator online"
+    ));
+    // Limited to the point that can run islanded, the same case is accepted.
+    let only = "cases:\n  - id: c\n    start: islanded\n    only_at: [all-running]\n    events: [ { at_s: 0, trip: gs } ]\n";
+    assert!(parse_cases(only, "c.yaml", &plant).is_ok());
+}
