@@ -167,10 +167,17 @@ pub fn integrate(
     solver
         .integrate_with_continuous_output_model(&mut dense)
         .map_err(|e| e.to_string())?;
-    let (times, states) = solver.results().get();
+    // With continuous output the solver stores step ends only; the start point goes first.
+    let (t_steps, y_steps) = solver.results().get();
+    let mut times = Vec::with_capacity(t_steps.len() + 1);
+    let mut states = Vec::with_capacity(t_steps.len() + 1);
+    times.push(t0);
+    states.push(y0.clone());
+    times.extend_from_slice(t_steps);
+    states.extend(y_steps.iter().cloned());
     Ok(Segment {
-        times: times.clone(),
-        states: states.clone(),
+        times,
+        states,
         dense,
         guard_hit: hit.get(),
     })

@@ -304,7 +304,7 @@ pub(crate) fn command_step_response(
     let n = m.n_states();
     let mut x = vec![0.0; n];
     m.init(p0_mw, lim, &mut x);
-    let h = 1e-4;
+    let h: f64 = 1e-4;
     let mut t = 0.0;
     let mut out = Vec::new();
     let f = |x: &[f64]| {
