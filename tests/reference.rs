@@ -117,6 +117,7 @@ fn anderson_mirheydar_sfr_step() {
         let expect = 50.0 * (1.0 + sfr.delta_omega(-0.1, *t));
         worst = worst.max((f - expect).abs());
     }
+    eprintln!("SFR: nadir {:.6} vs {f_nadir:.6} Hz, t {:.5} vs {tz:.5} s, final {:.6} vs {f_ss}, trajectory max error {worst:.2e} Hz", run.nadir_hz, run.nadir_at_s, run.final_hz);
     assert!(worst < 2e-4, "largest trajectory error {worst} Hz");
 }
 
@@ -170,6 +171,7 @@ fn saadat_12_1_isolated_station() {
     );
     let tr = run.trace.as_ref().expect("trace");
     let rocof0 = (tr.section_hz[0][1] - tr.section_hz[0][0]) / (tr.t_s[1] - tr.t_s[0]);
+    eprintln!("Saadat 12.1: final {:.6} vs {ss:.6}, nadir {:.6} vs {nadir:.6} at {:.4} s, rocof0 {rocof0:.5}", run.final_hz, run.nadir_hz, run.nadir_at_s);
     assert!((rocof0 + 1.2).abs() < 1.2e-3, "initial rocof {rocof0}");
 }
 
@@ -298,6 +300,7 @@ fn stage_opens_loads_at_computed_instant() {
     };
     let pick = at(&|k| matches!(k, EventKind::StagePickup { .. })).expect("pickup");
     let open = at(&|k| matches!(k, EventKind::LoadsOpened { .. })).expect("opened");
+    eprintln!("relay timing: pickup {pick:.7} vs {t_pick:.7}, open {open:.7}");
     assert!((pick - t_pick).abs() < 1e-3, "pickup {pick} vs {t_pick}");
     assert!(
         (open - (t_pick + 0.15)).abs() < 1e-3,

@@ -45,7 +45,6 @@ impl PrimeMoverDynamics for GasTurbine {
 #[cfg(test)]
 mod tests {
     use super::super::{command_step_response, Governor};
-    use super::*;
     use crate::model::{Generator, Governor as GovSpec, PrimeMover};
 
     #[test]
