@@ -1,0 +1,389 @@
+//! Text to raw types: YAML syntax, then every top-level field and every list item deserialized on
+//! its own so that type errors in different items are all reported, not only the first.
+//!
+//! Owns the [`Reader`] (file name, locator and the growing list of diagnostics) and the wording of
+//! serde's type errors. It must not check meaning (ranges, ids); that is [`super::validate`].
+
+use super::locate::{FieldPath, Locator, Seg};
+use super::Diagnostic;
+use serde::de::DeserializeOwned;
+use serde_yaml::{Mapping, Value};
+
+/// A list item that either deserialized or did not; a broken one keeps its `id` when it had one,
+/// so that references to it are not reported as unknown as well.
+#[derive(Debug, Clone)]
+pub enum Slot<T> {
+    Ok(T),
+    Broken(Option<String>),
+}
+
+/// Collects diagnostics for one file and knows where each field path is written.
+pub struct Reader {
+    file: String,
+    locator: Locator,
+    pub diagnostics: Vec<Diagnostic>,
+}
+
+/// Whether a diagnostic points at a key (unknown or misplaced field) or at a value.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum At {
+    Key,
+    Value,
+}
+
+impl Reader {
+    /// Parses the YAML syntax; a syntax error is the one diagnostic of the file.
+    pub fn open(text: &str, file: &str) -> Result<(Reader, Mapping), Vec<Diagnostic>> {
+        let value: Value = match serde_yaml::from_str(text) {
+            Ok(v) => v,
+            Err(e) => {
+                let (line, column) = match e.location() {
+                    Some(l) => (Some(l.line()), Some(l.column())),
+                    None => (None, None),
+                };
+                return Err(vec![Diagnostic {
+                    file: file.to_string(),
+                    line,
+                    column,
+                    path: String::new(),
+                    message: format!("the file is not valid yaml: {e}"),
+                    help: Some(
+                        "fix the yaml syntax near the place shown; check indentation, colons, \
+                         brackets and quotes"
+                            .to_string(),
+                    ),
+                }]);
+            }
+        };
+        let reader = Reader {
+            file: file.to_string(),
+            locator: Locator::new(text),
+            diagnostics: Vec::new(),
+        };
+        match value {
+            Value::Mapping(m) => Ok((reader, m)),
+            Value::Null => Err(vec![reader.make(
+                &FieldPath::root(),
+                At::Value,
+                "the file is empty".to_string(),
+                Some("write the file's top-level fields; `nadir schema` lists them".to_string()),
+            )]),
+            other => Err(vec![reader.make(
+                &FieldPath::root(),
+                At::Value,
+                format!(
+                    "the file holds {}, expected a mapping of top-level fields",
+                    describe(&other)
+                ),
+                Some("write the file's top-level fields as `name: value` lines".to_string()),
+            )]),
+        }
+    }
+
+    fn make(&self, path: &FieldPath, at: At, message: String, help: Option<String>) -> Diagnostic {
+        let place = match at {
+            At::Key => self.locator.key(path),
+            At::Value => self.locator.value(path),
+        };
+        Diagnostic {
+            file: self.file.clone(),
+            line: place.map(|p| p.0),
+            column: place.map(|p| p.1),
+            path: path.to_string(),
+            message,
+            help,
+        }
+    }
+
+    /// Records a mistake in the value at `path`.
+    pub fn error(&mut self, path: &FieldPath, message: String, help: impl Into<Option<String>>) {
+        let d = self.make(path, At::Value, message, help.into());
+        self.diagnostics.push(d);
+    }
+
+    /// Records a mistake in the key that ends `path`.
+    pub fn error_at_key(
+        &mut self,
+        path: &FieldPath,
+        message: String,
+        help: impl Into<Option<String>>,
+    ) {
+        let d = self.make(path, At::Key, message, help.into());
+        self.diagnostics.push(d);
+    }
+
+    /// The 1-based line where `path` is written, for messages that name a first place.
+    pub fn line_of(&self, path: &FieldPath) -> Option<usize> {
+        self.locator.value(path).map(|p| p.0)
+    }
+
+    /// Refuses top-level keys that the file format does not have.
+    pub fn check_top_keys(&mut self, map: &Mapping, allowed: &[&str]) {
+        for key in map.keys() {
+            match key.as_str() {
+                Some(k) if allowed.contains(&k) => {}
+                Some(k) => {
+                    let path = FieldPath::root().key(k);
+                    let msg = format!(
+                        "unknown field `{k}`, expected one of {}",
+                        quoted_list(allowed)
+                    );
+                    let help = unknown_field_help(k, allowed);
+                    self.error_at_key(&path, msg, help);
+                }
+                None => self.error(
+                    &FieldPath::root(),
+                    format!(
+                        "a top-level key must be a name, found {}; expected one of {}",
+                        describe(key),
+                        quoted_list(allowed)
+                    ),
+                    None,
+                ),
+            }
+        }
+    }
+
+    /// A required top-level field, deserialized as a whole.
+    pub fn required<T: DeserializeOwned>(&mut self, map: &Mapping, key: &str) -> Option<T> {
+        match map.get(key) {
+            Some(v) => self.value(v, &FieldPath::root().key(key)),
+            None => {
+                self.error(
+                    &FieldPath::root().key(key),
+                    format!("missing field `{key}`"),
+                    format!("add the top-level field `{key}`"),
+                );
+                None
+            }
+        }
+    }
+
+    /// An optional top-level field; `None` both when absent and when broken (the latter reported).
+    pub fn optional<T: DeserializeOwned>(&mut self, map: &Mapping, key: &str) -> Option<T> {
+        match map.get(key) {
+            None | Some(Value::Null) => None,
+            Some(v) => self.value(v, &FieldPath::root().key(key)),
+        }
+    }
+
+    /// A top-level list, each item on its own. `None` when absent (and reported if `required`) or
+    /// when the field is not a list at all.
+    pub fn list<T: DeserializeOwned>(
+        &mut self,
+        map: &Mapping,
+        key: &str,
+        required: bool,
+    ) -> Option<Vec<Slot<T>>> {
+        let path = FieldPath::root().key(key);
+        let seq = match map.get(key) {
+            None | Some(Value::Null) => {
+                if required {
+                    self.error(
+                        &path,
+                        format!("missing field `{key}`"),
+                        format!("add the top-level list `{key}`"),
+                    );
+                }
+                return None;
+            }
+            Some(Value::Sequence(s)) => s,
+            Some(other) => {
+                self.error(
+                    &path,
+                    format!("`{key}` is {}, expected a list", describe(other)),
+                    format!("write `{key}` as a list, one `- ` item per entry"),
+                );
+                return None;
+            }
+        };
+        let mut out = Vec::with_capacity(seq.len());
+        for (i, item) in seq.iter().enumerate() {
+            let item_path = path.index(i);
+            match self.value::<T>(item, &item_path) {
+                Some(t) => out.push(Slot::Ok(t)),
+                None => {
+                    let id = item
+                        .as_mapping()
+                        .and_then(|m| m.get("id"))
+                        .and_then(|v| v.as_str())
+                        .map(str::to_string);
+                    let id = id.or_else(|| item.as_str().map(str::to_string));
+                    out.push(Slot::Broken(id));
+                }
+            }
+        }
+        Some(out)
+    }
+
+    /// Deserializes one value, reporting serde's complaint with its full field path.
+    pub fn value<T: DeserializeOwned>(&mut self, v: &Value, base: &FieldPath) -> Option<T> {
+        match serde_path_to_error::deserialize::<_, T>(v.clone()) {
+            Ok(t) => Some(t),
+            Err(e) => {
+                let mut path = base.clone();
+                for seg in e.path().iter() {
+                    match seg {
+                        serde_path_to_error::Segment::Seq { index } => {
+                            path.0.push(Seg::Index(*index))
+                        }
+                        serde_path_to_error::Segment::Map { key }
+                        | serde_path_to_error::Segment::Enum { variant: key } => {
+                            path.0.push(Seg::Key(key.clone()))
+                        }
+                        serde_path_to_error::Segment::Unknown => {}
+                    }
+                }
+                let message = e.inner().to_string();
+                self.type_error(path, message);
+                None
+            }
+        }
+    }
+
+    fn type_error(&mut self, mut path: FieldPath, message: String) {
+        if let Some(name) = between_backticks(&message, "unknown field `") {
+            let allowed = backticked_after(&message, "expected one of ");
+            let allowed = if allowed.is_empty() {
+                backticked_after(&message, "expected ")
+            } else {
+                allowed
+            };
+            let allowed_refs: Vec<&str> = allowed.iter().map(String::as_str).collect();
+            push_once(&mut path, &name);
+            let help = unknown_field_help(&name, &allowed_refs);
+            self.error_at_key(&path, message, help);
+        } else if let Some(name) = between_backticks(&message, "missing field `") {
+            push_once(&mut path, &name);
+            self.error(&path, message, format!("add `{name}`; it has no default"));
+        } else if message.starts_with("unknown variant") {
+            self.error(
+                &path,
+                message,
+                "use one of the listed values, spelled exactly".to_string(),
+            );
+        } else if message.starts_with("invalid type") || message.starts_with("invalid value") {
+            let help = match message.rsplit_once("expected ") {
+                Some((_, want)) => format!("write {}", plain_expected(want)),
+                None => "write a value of the expected type".to_string(),
+            };
+            self.error(&path, message, help);
+        } else {
+            self.error(&path, message, None);
+        }
+    }
+}
+
+/// serde_path_to_error already ends the path with an unknown field's name; a missing field's
+/// name is not in the path. Appends the name only when it is not already there.
+fn push_once(path: &mut FieldPath, name: &str) {
+    if path.0.last() != Some(&Seg::Key(name.to_string())) {
+        path.0.push(Seg::Key(name.to_string()));
+    }
+}
+
+/// Makes serde's expectation readable for a user (`f64` → `a number`).
+fn plain_expected(want: &str) -> String {
+    match want.trim() {
+        "f64" => "a number, without units or quotes".to_string(),
+        "u32" => "a whole number from 0 up".to_string(),
+        "a boolean" => "true or false".to_string(),
+        "a string" => "a name (quote it if it looks like a number)".to_string(),
+        "a sequence" => "a list".to_string(),
+        other => other.to_string(),
+    }
+}
+
+/// A short description of a YAML value for messages.
+pub fn describe(v: &Value) -> String {
+    match v {
+        Value::Null => "empty".to_string(),
+        Value::Bool(b) => format!("the boolean {b}"),
+        Value::Number(n) => format!("the number {n}"),
+        Value::String(s) => format!("the text \"{s}\""),
+        Value::Sequence(_) => "a list".to_string(),
+        Value::Mapping(_) => "a mapping".to_string(),
+        Value::Tagged(t) => format!("a value tagged {}", t.tag),
+    }
+}
+
+fn between_backticks(message: &str, prefix: &str) -> Option<String> {
+    let rest = message.strip_prefix(prefix)?;
+    let end = rest.find('`')?;
+    Some(rest[..end].to_string())
+}
+
+fn backticked_after(message: &str, marker: &str) -> Vec<String> {
+    let Some(start) = message.find(marker) else {
+        return Vec::new();
+    };
+    message[start + marker.len()..]
+        .split('`')
+        .skip(1)
+        .step_by(2)
+        .map(str::to_string)
+        .collect()
+}
+
+/// `a`, `b`, `c` for messages.
+pub fn quoted_list<S: AsRef<str>>(items: &[S]) -> String {
+    items
+        .iter()
+        .map(|s| format!("`{}`", s.as_ref()))
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
+fn unknown_field_help(name: &str, allowed: &[&str]) -> String {
+    match super::validate::near_matches(name, allowed.iter().copied()).first() {
+        Some(m) => format!("did you mean `{m}`? otherwise remove `{name}`"),
+        None => format!("remove `{name}` or check its indentation"),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn syntax_error_is_one_diagnostic_with_a_place() {
+        let Err(d) = Reader::open("stages:\n  - id: \"open\n", "s.yaml") else {
+            panic!("expected a syntax error");
+        };
+        assert_eq!(d.len(), 1);
+        assert!(d[0].line.is_some());
+        assert!(d[0].message.starts_with("the file is not valid yaml"));
+    }
+
+    #[test]
+    fn type_errors_in_two_items_are_both_reported() {
+        let text = "stages:\n  - { id: a, delay_s: fast, sheds: [x] }\n  - { id: b, delay_s: 0.1, sheds: x }\n";
+        let (mut r, map) = Reader::open(text, "s.yaml").unwrap();
+        let items = r
+            .list::<crate::input::raw::RawStage>(&map, "stages", true)
+            .unwrap();
+        assert_eq!(items.len(), 2);
+        assert_eq!(r.diagnostics.len(), 2);
+        assert_eq!(r.diagnostics[0].path, "stages[0].delay_s");
+        assert_eq!(r.diagnostics[0].line, Some(2));
+        assert_eq!(r.diagnostics[1].path, "stages[1].sheds");
+        assert_eq!(r.diagnostics[1].line, Some(3));
+    }
+
+    #[test]
+    fn unknown_field_points_at_the_key_and_suggests() {
+        let text = "stages:\n  - id: a\n    dealy_s: 0.1\n    sheds: [x]\n";
+        let (mut r, map) = Reader::open(text, "s.yaml").unwrap();
+        r.list::<crate::input::raw::RawStage>(&map, "stages", true);
+        let d = &r.diagnostics[0];
+        assert_eq!(d.path, "stages[0].dealy_s");
+        assert_eq!((d.line, d.column), (Some(3), Some(5)));
+        assert!(d.message.contains("unknown field `dealy_s`"));
+        assert!(d.message.contains("`delay_s`"));
+        assert!(d
+            .help
+            .as_deref()
+            .unwrap()
+            .contains("did you mean `delay_s`"));
+    }
+}

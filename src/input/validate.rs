@@ -1,0 +1,2020 @@
+//! Raw types to model types: every check of meaning (ranges, ids, cross references, islands) and
+//! every default, collecting all diagnostics of a file before giving up.
+//!
+//! Owns the wording of validation messages. It must not read text or know YAML positions beyond
+//! asking the [`Reader`] to place a field path. A model value is built only when the file is
+//! structurally whole; checks that need the whole plant (islands, isochronous machines) run only
+//! then, so that one broken item never causes a cascade of follow-on messages.
+
+use super::defaults as d;
+use super::locate::{FieldPath, Seg};
+use super::raw::*;
+use super::read::{quoted_list, Reader, Slot};
+use crate::model::*;
+use crate::topology::{self, BreakerState, Island};
+use serde_yaml::Mapping;
+use std::collections::{BTreeMap, HashMap};
+
+// ---------------------------------------------------------------- shared helpers
+
+#[derive(Debug, Clone, Copy)]
+enum Lo {
+    Any,
+    Above(f64),
+    AtLeast(f64),
+}
+
+#[derive(Debug, Clone, Copy)]
+enum Hi {
+    Any,
+    Below(f64),
+    AtMost(f64),
+}
+
+fn field_name(path: &FieldPath) -> String {
+    match path.0.last() {
+        Some(Seg::Key(k)) => k.clone(),
+        _ => path.to_string(),
+    }
+}
+
+fn range_text(name: &str, lo: Lo, hi: Hi, unit: &str) -> String {
+    let mut s = String::new();
+    match lo {
+        Lo::Any => {}
+        Lo::Above(a) => s.push_str(&format!("{a} < ")),
+        Lo::AtLeast(a) => s.push_str(&format!("{a} ≤ ")),
+    }
+    s.push_str(name);
+    match hi {
+        Hi::Any => {}
+        Hi::Below(b) => s.push_str(&format!(" < {b}")),
+        Hi::AtMost(b) => s.push_str(&format!(" ≤ {b}")),
+    }
+    s.push_str(unit);
+    s
+}
+
+/// Checks one number against its allowed range; `unit` is written after values (" s", " Hz").
+/// Zero or negative values where a positive one is needed, values below a plausible floor and
+/// implausibly high values each get their own wording.
+fn num(r: &mut Reader, path: &FieldPath, v: f64, lo: Lo, hi: Hi, unit: &str) -> bool {
+    let name = field_name(path);
+    let allowed = format!("allowed: {}", range_text(&name, lo, hi, unit));
+    if !v.is_finite() {
+        r.error(
+            path,
+            format!("{name} is {v}, expected a finite number"),
+            allowed,
+        );
+        return false;
+    }
+    let low_bad = match lo {
+        Lo::Any => false,
+        Lo::Above(a) => v <= a,
+        Lo::AtLeast(a) => v < a,
+    };
+    if low_bad {
+        let msg = match lo {
+            Lo::Above(a) if a == 0.0 => format!("{name} must be greater than 0, got {v}{unit}"),
+            Lo::AtLeast(a) if a == 0.0 => format!("{name} must not be negative, got {v}{unit}"),
+            _ => format!("{name} {v}{unit} is implausibly low"),
+        };
+        r.error(path, msg, allowed);
+        return false;
+    }
+    let high_bad = match hi {
+        Hi::Any => false,
+        Hi::Below(b) => v >= b,
+        Hi::AtMost(b) => v > b,
+    };
+    if high_bad {
+        r.error(
+            path,
+            format!("{name} {v}{unit} is implausibly high"),
+            allowed,
+        );
+        return false;
+    }
+    true
+}
+
+/// Time delays and time constants: (0, 60] s unless said otherwise.
+fn time_constant(r: &mut Reader, path: &FieldPath, v: f64) -> bool {
+    num(r, path, v, Lo::Above(0.0), Hi::AtMost(60.0), " s")
+}
+
+/// Definite time delays, which may be zero (instantaneous).
+fn delay(r: &mut Reader, path: &FieldPath, v: f64) -> bool {
+    num(r, path, v, Lo::AtLeast(0.0), Hi::AtMost(60.0), " s")
+}
+
+/// Names close to `name`, closest first, at most three: for "did you mean" hints.
+pub fn near_matches<'a>(name: &str, candidates: impl Iterator<Item = &'a str>) -> Vec<&'a str> {
+    let lower = name.to_lowercase();
+    let mut scored: Vec<(usize, &str)> = candidates
+        .filter_map(|c| {
+            let cl = c.to_lowercase();
+            let dist = edit_distance(&lower, &cl);
+            let limit = (name.chars().count().max(c.chars().count()) / 3).max(1);
+            let contains = lower.len() >= 3 && (cl.contains(&lower) || lower.contains(&cl));
+            (dist <= limit || contains).then_some((dist, c))
+        })
+        .collect();
+    scored.sort();
+    scored.into_iter().take(3).map(|(_, c)| c).collect()
+}
+
+fn edit_distance(a: &str, b: &str) -> usize {
+    let a: Vec<char> = a.chars().collect();
+    let b: Vec<char> = b.chars().collect();
+    let mut prev: Vec<usize> = (0..=b.len()).collect();
+    for (i, ca) in a.iter().enumerate() {
+        let mut cur = vec![i + 1; b.len() + 1];
+        for (j, cb) in b.iter().enumerate() {
+            let cost = usize::from(ca != cb);
+            cur[j + 1] = (prev[j] + cost).min(prev[j + 1] + 1).min(cur[j] + 1);
+        }
+        prev = cur;
+    }
+    prev[b.len()]
+}
+
+/// Ids of one kind (or one namespace, such as breakers) with where each was first defined.
+struct Ids {
+    kind: &'static str,
+    entries: HashMap<String, (usize, FieldPath, &'static str)>,
+    order: Vec<String>,
+}
+
+impl Ids {
+    fn new(kind: &'static str) -> Ids {
+        Ids {
+            kind,
+            entries: HashMap::new(),
+            order: Vec::new(),
+        }
+    }
+
+    /// Registers an id; reports a duplicate naming the first place. `what` is the item's own kind
+    /// (for a shared namespace such as breakers).
+    fn add(
+        &mut self,
+        r: &mut Reader,
+        id: &str,
+        index: usize,
+        path: &FieldPath,
+        what: &'static str,
+    ) {
+        if let Some((_, first, first_what)) = self.entries.get(id) {
+            let line = r
+                .line_of(first)
+                .map(|l| format!(" (line {l})"))
+                .unwrap_or_default();
+            let msg = if *first_what == what {
+                format!("duplicate {what} id `{id}`, first defined at {first}{line}")
+            } else {
+                format!(
+                    "duplicate {} id `{id}`: the {first_what} at {first}{line} already uses it",
+                    self.kind
+                )
+            };
+            r.error(path, msg, format!("give each {} its own id", self.kind));
+            return;
+        }
+        self.entries
+            .insert(id.to_string(), (index, path.clone(), what));
+        self.order.push(id.to_string());
+    }
+
+    fn get(&self, id: &str) -> Option<(usize, &'static str)> {
+        self.entries.get(id).map(|(i, _, w)| (*i, *w))
+    }
+
+    fn known(&self) -> Vec<&str> {
+        self.order.iter().map(String::as_str).collect()
+    }
+}
+
+/// Reports an id that names nothing of its kind.
+fn unknown_id(r: &mut Reader, path: &FieldPath, kind: &str, id: &str, known: &[&str]) {
+    let near = near_matches(id, known.iter().copied());
+    let msg = if known.is_empty() {
+        format!("unknown {kind} `{id}`; the plant has no {kind}s")
+    } else if known.len() <= 8 {
+        format!(
+            "unknown {kind} `{id}`; known {kind}s: {}",
+            quoted_list(known)
+        )
+    } else if !near.is_empty() {
+        format!(
+            "unknown {kind} `{id}`; did you mean {}?",
+            quoted_list(&near)
+        )
+    } else {
+        format!(
+            "unknown {kind} `{id}`; none of the {} {kind}s has a similar id",
+            known.len()
+        )
+    };
+    let help = match near.first() {
+        Some(m) => format!("did you mean `{m}`? ids are case sensitive"),
+        None => format!("use the id of a {kind} defined in the plant file"),
+    };
+    r.error(path, msg, help);
+}
+
+fn resolve(r: &mut Reader, ids: &Ids, path: &FieldPath, id: &str) -> Option<usize> {
+    match ids.get(id) {
+        Some((i, _)) => Some(i),
+        None => {
+            unknown_id(r, path, ids.kind, id, &ids.known());
+            None
+        }
+    }
+}
+
+fn model_name(m: RawPrimeMover) -> &'static str {
+    match m {
+        RawPrimeMover::Steam => "steam",
+        RawPrimeMover::SteamReheat => "steam-reheat",
+        RawPrimeMover::Hydro => "hydro",
+        RawPrimeMover::GasTurbine => "gas-turbine",
+        RawPrimeMover::Engine => "engine",
+        RawPrimeMover::Fixed => "fixed",
+    }
+}
+
+// ---------------------------------------------------------------- protection elements
+
+fn frequency_trip(
+    r: &mut Reader,
+    path: &FieldPath,
+    t: &RawFrequencyTrip,
+    nominal: Option<f64>,
+) -> Option<FrequencyTrip> {
+    let given: Vec<&str> = [
+        ("below_hz", t.below_hz.is_some()),
+        ("above_hz", t.above_hz.is_some()),
+        ("rocof_hz_per_s", t.rocof_hz_per_s.is_some()),
+    ]
+    .iter()
+    .filter(|(_, s)| *s)
+    .map(|(n, _)| *n)
+    .collect();
+    if given.len() != 1 {
+        let has = if given.is_empty() {
+            "none".to_string()
+        } else {
+            given.join(" and ")
+        };
+        r.error(
+            path,
+            format!(
+                "a frequency trip takes exactly one of below_hz, above_hz, rocof_hz_per_s; this one has {has}"
+            ),
+            if given.is_empty() {
+                "add the setting, e.g. `below_hz: 47.5`".to_string()
+            } else {
+                "write one trip per setting, each with its own after_s".to_string()
+            },
+        );
+        delay(r, &path.key("after_s"), t.after_s);
+        return None;
+    }
+    let mut ok = delay(r, &path.key("after_s"), t.after_s);
+    let trip = if let Some(hz) = t.below_hz {
+        let p = path.key("below_hz");
+        ok &= match nominal {
+            Some(f0) => num(r, &p, hz, Lo::AtLeast(0.8 * f0), Hi::Below(f0), " Hz"),
+            None => num(r, &p, hz, Lo::Above(0.0), Hi::Any, " Hz"),
+        };
+        FrequencyTrip::Under {
+            hz,
+            after_s: t.after_s,
+        }
+    } else if let Some(hz) = t.above_hz {
+        let p = path.key("above_hz");
+        ok &= match nominal {
+            Some(f0) => num(r, &p, hz, Lo::Above(f0), Hi::AtMost(1.2 * f0), " Hz"),
+            None => num(r, &p, hz, Lo::Above(0.0), Hi::Any, " Hz"),
+        };
+        FrequencyTrip::Over {
+            hz,
+            after_s: t.after_s,
+        }
+    } else {
+        let v = t.rocof_hz_per_s.unwrap_or(0.0);
+        ok &= num(
+            r,
+            &path.key("rocof_hz_per_s"),
+            v,
+            Lo::Above(0.0),
+            Hi::AtMost(20.0),
+            " Hz/s",
+        );
+        FrequencyTrip::Rocof {
+            hz_per_s: v,
+            after_s: t.after_s,
+        }
+    };
+    ok.then_some(trip)
+}
+
+fn undervoltage(r: &mut Reader, path: &FieldPath, u: &RawUndervoltage) -> UndervoltageTrip {
+    num(
+        r,
+        &path.key("below_pu"),
+        u.below_pu,
+        Lo::Above(0.0),
+        Hi::Below(1.0),
+        " pu",
+    );
+    delay(r, &path.key("after_s"), u.after_s);
+    UndervoltageTrip {
+        below_pu: u.below_pu,
+        after_s: u.after_s,
+    }
+}
+
+// ---------------------------------------------------------------- plant file
+
+const PLANT_KEYS: &[&str] = &[
+    "plant",
+    "sections",
+    "ties",
+    "utility",
+    "generators",
+    "loads",
+    "operating_points",
+    "criteria",
+];
+
+/// Validates a plant file; `None` when any diagnostic was recorded.
+pub fn plant(r: &mut Reader, map: &Mapping) -> Option<Plant> {
+    r.check_top_keys(map, PLANT_KEYS);
+    let header: Option<PlantHeader> = r.required(map, "plant");
+    let sections_raw: Option<Vec<Slot<String>>> = r.list(map, "sections", false);
+    let ties_raw: Vec<Slot<RawTie>> = r.list(map, "ties", false).unwrap_or_default();
+    let utility_given = !matches!(map.get("utility"), None | Some(serde_yaml::Value::Null));
+    let utility_raw: Option<RawUtility> = r.optional(map, "utility");
+    let gens_raw: Option<Vec<Slot<RawGenerator>>> = r.list(map, "generators", true);
+    let loads_raw: Option<Vec<Slot<RawLoad>>> = r.list(map, "loads", true);
+    let ops_raw: Option<Vec<Slot<RawOperatingPoint>>> = r.list(map, "operating_points", false);
+    let criteria_raw: Option<RawCriteria> = r.optional(map, "criteria");
+    // Structurally whole: every item deserialized and every section reference resolved.
+    let mut whole = r.diagnostics.is_empty();
+
+    let nominal = header.as_ref().and_then(|h| {
+        if h.nominal_hz == 50.0 || h.nominal_hz == 60.0 {
+            Some(h.nominal_hz)
+        } else {
+            r.error(
+                &FieldPath::root().key("plant").key("nominal_hz"),
+                format!(
+                    "nominal_hz {} Hz is not a power-system frequency; allowed: 50 or 60",
+                    h.nominal_hz
+                ),
+                "write 50 or 60".to_string(),
+            );
+            None
+        }
+    });
+
+    // Sections.
+    let mut section_ids = Ids::new("section");
+    let mut sections: Vec<Section> = Vec::new();
+    match &sections_raw {
+        Some(list) if !list.is_empty() => {
+            for (i, slot) in list.iter().enumerate() {
+                let p = FieldPath::root().key("sections").index(i);
+                match slot {
+                    Slot::Ok(id) => {
+                        section_ids.add(r, id, i, &p, "section");
+                        sections.push(Section { id: id.clone() });
+                    }
+                    Slot::Broken(_) => whole = false,
+                }
+            }
+        }
+        _ => {
+            section_ids.add(r, d::SECTION_ID, 0, &FieldPath::root(), "section");
+            sections.push(Section {
+                id: d::SECTION_ID.to_string(),
+            });
+        }
+    }
+
+    let mut breaker_ids = Ids::new("breaker");
+
+    // Ties.
+    let mut ties: Vec<Option<Tie>> = Vec::new();
+    let mut tie_ids = Ids::new("tie");
+    for (i, slot) in ties_raw.iter().enumerate() {
+        let p = FieldPath::root().key("ties").index(i);
+        let Slot::Ok(t) = slot else {
+            if let Slot::Broken(Some(id)) = slot {
+                tie_ids.add(r, id, i, &p.key("id"), "tie");
+            }
+            ties.push(None);
+            continue;
+        };
+        breaker_ids.add(r, &t.id, i, &p.key("id"), "tie");
+        tie_ids.add(r, &t.id, i, &p.key("id"), "tie");
+        let tie = if t.between.len() != 2 {
+            r.error(
+                &p.key("between"),
+                format!(
+                    "between lists {} section(s), expected exactly 2",
+                    t.between.len()
+                ),
+                "write the two sections the tie joins, e.g. `between: [north, south]`".to_string(),
+            );
+            None
+        } else {
+            let a = resolve(r, &section_ids, &p.key("between").index(0), &t.between[0]);
+            let b = resolve(r, &section_ids, &p.key("between").index(1), &t.between[1]);
+            match (a, b) {
+                (Some(a), Some(b)) if a == b => {
+                    r.error(
+                        &p.key("between"),
+                        format!(
+                            "tie `{}` joins section `{}` to itself; between needs two different sections",
+                            t.id, t.between[0]
+                        ),
+                        "name the two sections on either side of the tie".to_string(),
+                    );
+                    None
+                }
+                (Some(a), Some(b)) => Some(Tie {
+                    id: t.id.clone(),
+                    between: [a, b],
+                    normally_open: t.normally_open,
+                }),
+                _ => None,
+            }
+        };
+        if tie.is_none() {
+            whole = false;
+        }
+        ties.push(tie);
+    }
+
+    // Utility.
+    let utility: Option<Utility> = match &utility_raw {
+        None => None,
+        Some(u) => {
+            let p = FieldPath::root().key("utility");
+            let breaker_id = u
+                .breaker
+                .clone()
+                .unwrap_or_else(|| d::UTILITY_BREAKER_ID.to_string());
+            breaker_ids.add(r, &breaker_id, 0, &p.key("breaker"), "utility breaker");
+            let section = resolve(r, &section_ids, &p.key("section"), &u.section);
+            num(r, &p.key("import_mw"), u.import_mw, Lo::Any, Hi::Any, " MW");
+            let trips = u
+                .interface_trips
+                .iter()
+                .enumerate()
+                .filter_map(|(i, t)| {
+                    frequency_trip(r, &p.key("interface_trips").index(i), t, nominal)
+                })
+                .collect();
+            match section {
+                Some(section) => Some(Utility {
+                    breaker_id,
+                    section,
+                    import_mw: u.import_mw,
+                    interface_trips: trips,
+                }),
+                None => {
+                    whole = false;
+                    None
+                }
+            }
+        }
+    };
+    if utility_given && utility_raw.is_none() {
+        whole = false;
+    }
+
+    // Generators.
+    let gens_raw = gens_raw.unwrap_or_default();
+    let mut gen_ids = Ids::new("generator");
+    let mut generators: Vec<Option<Generator>> = Vec::new();
+    for (i, slot) in gens_raw.iter().enumerate() {
+        let p = FieldPath::root().key("generators").index(i);
+        match slot {
+            Slot::Ok(g) => {
+                breaker_ids.add(r, &g.id, i, &p.key("id"), "generator");
+                gen_ids.add(r, &g.id, i, &p.key("id"), "generator");
+                let gen = generator(r, &p, g, &section_ids, nominal);
+                if gen.is_none() {
+                    whole = false;
+                }
+                generators.push(gen);
+            }
+            Slot::Broken(id) => {
+                if let Some(id) = id {
+                    gen_ids.add(r, id, i, &p.key("id"), "generator");
+                }
+                generators.push(None);
+            }
+        }
+    }
+
+    // Loads.
+    let loads_raw = loads_raw.unwrap_or_default();
+    let mut load_ids = Ids::new("load");
+    let mut loads: Vec<Option<Load>> = Vec::new();
+    for (i, slot) in loads_raw.iter().enumerate() {
+        let p = FieldPath::root().key("loads").index(i);
+        match slot {
+            Slot::Ok(l) => {
+                load_ids.add(r, &l.id, i, &p.key("id"), "load");
+                let load = load(r, &p, l, &section_ids);
+                if load.is_none() {
+                    whole = false;
+                }
+                loads.push(load);
+            }
+            Slot::Broken(id) => {
+                if let Some(id) = id {
+                    load_ids.add(r, id, i, &p.key("id"), "load");
+                }
+                loads.push(None);
+            }
+        }
+    }
+
+    // Operating points.
+    let ctx = PlantCtx {
+        loads: &loads,
+        generators: &generators,
+        ties: &ties,
+        load_ids: &load_ids,
+        gen_ids: &gen_ids,
+        tie_ids: &tie_ids,
+        utility: utility.as_ref(),
+        utility_unknown: utility_given && utility.is_none(),
+    };
+    let explicit_ops = matches!(&ops_raw, Some(list) if !list.is_empty());
+    let mut operating_points: Vec<OperatingPoint> = Vec::new();
+    if explicit_ops {
+        let mut op_ids = Ids::new("operating point");
+        for (i, slot) in ops_raw.iter().flatten().enumerate() {
+            let p = FieldPath::root().key("operating_points").index(i);
+            match slot {
+                Slot::Ok(o) => {
+                    op_ids.add(r, &o.id, i, &p.key("id"), "operating point");
+                    operating_points.push(operating_point(r, &p, o, &ctx));
+                }
+                Slot::Broken(_) => whole = false,
+            }
+        }
+    } else {
+        let default_op = RawOperatingPoint {
+            id: d::OPERATING_POINT_ID.to_string(),
+            description: None,
+            load_scale: None,
+            load_factors: BTreeMap::new(),
+            loads_off: Vec::new(),
+            dispatch: BTreeMap::new(),
+            offline: Vec::new(),
+            import_mw: None,
+            ties_open: Vec::new(),
+            ties_closed: Vec::new(),
+        };
+        operating_points.push(operating_point(
+            r,
+            &FieldPath::root().key("operating_points"),
+            &default_op,
+            &ctx,
+        ));
+    }
+
+    // Criteria.
+    let criteria = criteria(r, criteria_raw.as_ref(), nominal);
+
+    if !whole {
+        return None;
+    }
+    let (Some(header), Some(nominal_hz)) = (header, nominal) else {
+        return None;
+    };
+    let plant = Plant {
+        name: header.name,
+        nominal_hz,
+        sections,
+        ties: ties.into_iter().collect::<Option<Vec<_>>>()?,
+        utility,
+        generators: generators.into_iter().collect::<Option<Vec<_>>>()?,
+        loads: loads.into_iter().collect::<Option<Vec<_>>>()?,
+        operating_points,
+        criteria,
+    };
+    check_islands(r, &plant, explicit_ops);
+    r.diagnostics.is_empty().then_some(plant)
+}
+
+fn generator(
+    r: &mut Reader,
+    p: &FieldPath,
+    g: &RawGenerator,
+    section_ids: &Ids,
+    nominal: Option<f64>,
+) -> Option<Generator> {
+    let section = resolve(r, section_ids, &p.key("section"), &g.section);
+    let rating_ok = num(
+        r,
+        &p.key("rating_mva"),
+        g.rating_mva,
+        Lo::Above(0.0),
+        Hi::Any,
+        " MVA",
+    );
+    num(
+        r,
+        &p.key("inertia_s"),
+        g.inertia_s,
+        Lo::Above(0.0),
+        Hi::AtMost(20.0),
+        " s",
+    );
+    let min_ok = num(
+        r,
+        &p.key("min_mw"),
+        g.min_mw,
+        Lo::AtLeast(0.0),
+        Hi::Any,
+        " MW",
+    );
+    let max_mw = g.max_mw.unwrap_or(g.rating_mva);
+    let mut max_ok = true;
+    if let Some(m) = g.max_mw {
+        max_ok = num(r, &p.key("max_mw"), m, Lo::Above(0.0), Hi::Any, " MW");
+        if max_ok && rating_ok && m > g.rating_mva {
+            r.error(
+                &p.key("max_mw"),
+                format!(
+                    "max_mw {m} MW is above rating_mva {} MVA; a machine cannot give more MW than its rating",
+                    g.rating_mva
+                ),
+                "lower max_mw or correct rating_mva".to_string(),
+            );
+            max_ok = false;
+        }
+    }
+    if min_ok && max_ok && rating_ok && g.min_mw > max_mw {
+        r.error(
+            &p.key("min_mw"),
+            format!("min_mw {} MW is above max_mw {max_mw} MW", g.min_mw),
+            "min_mw is the lowest stable output and must not exceed max_mw".to_string(),
+        );
+    } else if num(
+        r,
+        &p.key("output_mw"),
+        g.output_mw,
+        Lo::AtLeast(0.0),
+        Hi::Any,
+        " MW",
+    ) && min_ok
+        && max_ok
+        && rating_ok
+        && (g.output_mw < g.min_mw || g.output_mw > max_mw)
+    {
+        r.error(
+            &p.key("output_mw"),
+            format!(
+                "output_mw {} MW of generator `{}` is outside its range min_mw {} .. max_mw {max_mw} MW",
+                g.output_mw, g.id, g.min_mw
+            ),
+            "dispatch the machine within its range, or list it under `offline` in the operating points where it does not run".to_string(),
+        );
+    }
+    let governor = governor(r, &p.key("governor"), g, max_mw);
+    let trips = g
+        .trips
+        .iter()
+        .enumerate()
+        .filter_map(|(i, t)| frequency_trip(r, &p.key("trips").index(i), t, nominal))
+        .collect();
+    let undervoltage_trips = g
+        .undervoltage_trips
+        .iter()
+        .enumerate()
+        .map(|(i, u)| undervoltage(r, &p.key("undervoltage_trips").index(i), u))
+        .collect();
+    Some(Generator {
+        id: g.id.clone(),
+        section: section?,
+        rating_mva: g.rating_mva,
+        inertia_s: g.inertia_s,
+        output_mw: g.output_mw,
+        min_mw: g.min_mw,
+        max_mw,
+        governor,
+        trips,
+        undervoltage_trips,
+    })
+}
+
+fn governor(r: &mut Reader, p: &FieldPath, g: &RawGenerator, max_mw: f64) -> Governor {
+    let gov = &g.governor;
+    let model = model_name(gov.model);
+    let params: [(&str, Option<f64>); 9] = [
+        ("governor_s", gov.governor_s),
+        ("turbine_s", gov.turbine_s),
+        ("reheat_s", gov.reheat_s),
+        ("hp_fraction", gov.hp_fraction),
+        ("water_start_s", gov.water_start_s),
+        ("transient_droop_pct", gov.transient_droop_pct),
+        ("reset_s", gov.reset_s),
+        ("load_limit_mw", gov.load_limit_mw),
+        ("ramp_mw_per_s", gov.ramp_mw_per_s),
+    ];
+    let own: &[&str] = match gov.model {
+        RawPrimeMover::Steam => &["governor_s", "turbine_s"],
+        RawPrimeMover::SteamReheat => &["governor_s", "reheat_s", "hp_fraction"],
+        RawPrimeMover::Hydro => &[
+            "governor_s",
+            "water_start_s",
+            "transient_droop_pct",
+            "reset_s",
+        ],
+        RawPrimeMover::GasTurbine => &["governor_s", "turbine_s", "load_limit_mw"],
+        RawPrimeMover::Engine => &["governor_s", "ramp_mw_per_s"],
+        RawPrimeMover::Fixed => &[],
+    };
+    let fixed = gov.model == RawPrimeMover::Fixed;
+    let takes = if fixed {
+        "it takes no parameters besides model".to_string()
+    } else {
+        format!(
+            "it takes {}, droop_pct, deadband_hz, isochronous",
+            own.join(", ")
+        )
+    };
+    let refuse = |r: &mut Reader, name: &str| {
+        r.error_at_key(
+            &p.key(name),
+            format!("{name} is not a parameter of model {model}; {takes}"),
+            format!("remove {name}, or choose the model it belongs to"),
+        );
+    };
+    for (name, value) in params {
+        if value.is_some() && !own.contains(&name) {
+            refuse(r, name);
+        }
+    }
+    let isochronous = gov.isochronous.unwrap_or(false);
+    if fixed {
+        if isochronous {
+            r.error(
+                &p.key("isochronous"),
+                "a machine with model fixed has no governor, so it cannot be isochronous"
+                    .to_string(),
+                "remove isochronous, or give the machine a prime-mover model with a governor"
+                    .to_string(),
+            );
+        }
+        if gov.droop_pct.is_some() {
+            refuse(r, "droop_pct");
+        }
+        if gov.deadband_hz.is_some() {
+            refuse(r, "deadband_hz");
+        }
+    }
+
+    let droop_pct = match gov.droop_pct {
+        Some(v) => {
+            num(
+                r,
+                &p.key("droop_pct"),
+                v,
+                Lo::Above(0.0),
+                Hi::AtMost(20.0),
+                " %",
+            );
+            v
+        }
+        None => {
+            if !fixed && !isochronous {
+                r.error(
+                    &p.key("droop_pct"),
+                    format!(
+                        "missing droop_pct for generator `{}` with model {model}",
+                        g.id
+                    ),
+                    "add the governor's permanent droop in percent on the machine rating \
+                     (commonly 4 to 5), or set `isochronous: true`"
+                        .to_string(),
+                );
+            }
+            d::ISOCHRONOUS_DROOP_PCT
+        }
+    };
+    let deadband_hz = match gov.deadband_hz {
+        Some(v) => {
+            num(
+                r,
+                &p.key("deadband_hz"),
+                v,
+                Lo::AtLeast(0.0),
+                Hi::AtMost(0.5),
+                " Hz",
+            );
+            v
+        }
+        None => d::DEADBAND_HZ,
+    };
+
+    let tc = |r: &mut Reader, name: &str, v: Option<f64>, default: f64| -> f64 {
+        match v {
+            Some(x) => {
+                time_constant(r, &p.key(name), x);
+                x
+            }
+            None => default,
+        }
+    };
+    let prime_mover = match gov.model {
+        RawPrimeMover::Steam => PrimeMover::Steam {
+            governor_s: tc(r, "governor_s", gov.governor_s, d::STEAM_GOVERNOR_S),
+            turbine_s: tc(r, "turbine_s", gov.turbine_s, d::STEAM_TURBINE_S),
+        },
+        RawPrimeMover::SteamReheat => {
+            let hp_fraction = gov.hp_fraction.unwrap_or(d::REHEAT_HP_FRACTION);
+            if gov.hp_fraction.is_some() {
+                num(
+                    r,
+                    &p.key("hp_fraction"),
+                    hp_fraction,
+                    Lo::AtLeast(0.0),
+                    Hi::AtMost(1.0),
+                    "",
+                );
+            }
+            PrimeMover::SteamReheat {
+                governor_s: tc(r, "governor_s", gov.governor_s, d::REHEAT_GOVERNOR_S),
+                reheat_s: tc(r, "reheat_s", gov.reheat_s, d::REHEAT_REHEAT_S),
+                hp_fraction,
+            }
+        }
+        RawPrimeMover::Hydro => {
+            let water_start_s = gov.water_start_s.unwrap_or(d::HYDRO_WATER_START_S);
+            if gov.water_start_s.is_some() {
+                num(
+                    r,
+                    &p.key("water_start_s"),
+                    water_start_s,
+                    Lo::Above(0.0),
+                    Hi::AtMost(10.0),
+                    " s",
+                );
+            }
+            let transient_droop_pct = gov
+                .transient_droop_pct
+                .unwrap_or(d::HYDRO_TRANSIENT_DROOP_PCT);
+            if gov.transient_droop_pct.is_some() {
+                num(
+                    r,
+                    &p.key("transient_droop_pct"),
+                    transient_droop_pct,
+                    Lo::Above(0.0),
+                    Hi::AtMost(100.0),
+                    " %",
+                );
+            }
+            PrimeMover::Hydro {
+                governor_s: tc(r, "governor_s", gov.governor_s, d::HYDRO_GOVERNOR_S),
+                water_start_s,
+                transient_droop_pct,
+                reset_s: tc(r, "reset_s", gov.reset_s, d::HYDRO_RESET_S),
+            }
+        }
+        RawPrimeMover::GasTurbine => {
+            let load_limit_mw = gov.load_limit_mw.unwrap_or(max_mw);
+            if gov.load_limit_mw.is_some() {
+                num(
+                    r,
+                    &p.key("load_limit_mw"),
+                    load_limit_mw,
+                    Lo::Above(0.0),
+                    Hi::Any,
+                    " MW",
+                );
+            }
+            PrimeMover::GasTurbine {
+                governor_s: tc(r, "governor_s", gov.governor_s, d::GAS_TURBINE_GOVERNOR_S),
+                turbine_s: tc(r, "turbine_s", gov.turbine_s, d::GAS_TURBINE_TURBINE_S),
+                load_limit_mw,
+            }
+        }
+        RawPrimeMover::Engine => {
+            let ramp = gov
+                .ramp_mw_per_s
+                .unwrap_or(d::ENGINE_RAMP_PU_PER_S * g.rating_mva);
+            if gov.ramp_mw_per_s.is_some() {
+                num(
+                    r,
+                    &p.key("ramp_mw_per_s"),
+                    ramp,
+                    Lo::Above(0.0),
+                    Hi::Any,
+                    " MW/s",
+                );
+            }
+            PrimeMover::Engine {
+                governor_s: tc(r, "governor_s", gov.governor_s, d::ENGINE_GOVERNOR_S),
+                ramp_mw_per_s: ramp,
+            }
+        }
+        RawPrimeMover::Fixed => PrimeMover::Fixed,
+    };
+    Governor {
+        droop_pct,
+        deadband_hz,
+        isochronous,
+        prime_mover,
+    }
+}
+
+fn load(r: &mut Reader, p: &FieldPath, l: &RawLoad, section_ids: &Ids) -> Option<Load> {
+    let section = resolve(r, section_ids, &p.key("section"), &l.section);
+    num(r, &p.key("p_mw"), l.p_mw, Lo::AtLeast(0.0), Hi::Any, " MW");
+    if l.rank == 0 {
+        r.error(
+            &p.key("rank"),
+            format!("rank of load `{}` is 0; ranks start at 1", l.id),
+            "use rank 1 for the loads shed first and higher ranks for more important loads"
+                .to_string(),
+        );
+    }
+    let freq_exp = l.freq_exp.unwrap_or(d::LOAD_FREQ_EXP);
+    if l.freq_exp.is_some() {
+        num(
+            r,
+            &p.key("freq_exp"),
+            freq_exp,
+            Lo::AtLeast(-2.0),
+            Hi::AtMost(8.0),
+            "",
+        );
+    }
+    let inertia_s = l.inertia_s.unwrap_or(0.0);
+    if l.inertia_s.is_some() {
+        num(
+            r,
+            &p.key("inertia_s"),
+            inertia_s,
+            Lo::AtLeast(0.0),
+            Hi::AtMost(20.0),
+            " s",
+        );
+    }
+    let uv = l
+        .undervoltage
+        .as_ref()
+        .map(|u| undervoltage(r, &p.key("undervoltage"), u));
+    Some(Load {
+        id: l.id.clone(),
+        description: l.description.clone().unwrap_or_default(),
+        section: section?,
+        p_mw: l.p_mw,
+        rank: l.rank,
+        never_shed: l.never_shed,
+        freq_exp,
+        inertia_s,
+        undervoltage: uv,
+    })
+}
+
+struct PlantCtx<'a> {
+    loads: &'a [Option<Load>],
+    generators: &'a [Option<Generator>],
+    ties: &'a [Option<Tie>],
+    load_ids: &'a Ids,
+    gen_ids: &'a Ids,
+    tie_ids: &'a Ids,
+    utility: Option<&'a Utility>,
+    /// The utility is written but broken: do not also say "there is no utility".
+    utility_unknown: bool,
+}
+
+fn operating_point(
+    r: &mut Reader,
+    p: &FieldPath,
+    o: &RawOperatingPoint,
+    c: &PlantCtx,
+) -> OperatingPoint {
+    let scale = o.load_scale.unwrap_or(d::LOAD_SCALE);
+    if o.load_scale.is_some() {
+        num(
+            r,
+            &p.key("load_scale"),
+            scale,
+            Lo::AtLeast(0.0),
+            Hi::Any,
+            "",
+        );
+    }
+    let mut factor: Vec<f64> = vec![scale; c.loads.len()];
+    for (id, f) in &o.load_factors {
+        let fp = p.key("load_factors").key(id);
+        if let Some(i) = resolve(r, c.load_ids, &fp, id) {
+            num(r, &fp, *f, Lo::AtLeast(0.0), Hi::Any, "");
+            factor[i] = *f;
+        }
+    }
+    let mut off = vec![false; c.loads.len()];
+    for (k, id) in o.loads_off.iter().enumerate() {
+        if let Some(i) = resolve(r, c.load_ids, &p.key("loads_off").index(k), id) {
+            off[i] = true;
+        }
+    }
+    let load_mw = c
+        .loads
+        .iter()
+        .enumerate()
+        .map(|(i, l)| match l {
+            Some(l) if !off[i] => l.p_mw * factor[i],
+            _ => 0.0,
+        })
+        .collect();
+
+    let mut online = vec![true; c.generators.len()];
+    for (k, id) in o.offline.iter().enumerate() {
+        if let Some(i) = resolve(r, c.gen_ids, &p.key("offline").index(k), id) {
+            online[i] = false;
+        }
+    }
+    let mut output_mw: Vec<f64> = c
+        .generators
+        .iter()
+        .map(|g| g.as_ref().map_or(0.0, |g| g.output_mw))
+        .collect();
+    for (id, mw) in &o.dispatch {
+        let dp = p.key("dispatch").key(id);
+        let Some(i) = resolve(r, c.gen_ids, &dp, id) else {
+            continue;
+        };
+        if !online[i] {
+            r.error(
+                &dp,
+                format!(
+                    "dispatch names generator `{id}`, which this operating point lists as offline"
+                ),
+                "remove it from dispatch or from offline".to_string(),
+            );
+            continue;
+        }
+        if !num(r, &dp, *mw, Lo::AtLeast(0.0), Hi::Any, " MW") {
+            continue;
+        }
+        if let Some(Some(g)) = c.generators.get(i) {
+            if *mw < g.min_mw || *mw > g.max_mw {
+                r.error(
+                    &dp,
+                    format!(
+                        "dispatch {mw} MW for generator `{id}` at operating point `{}` is outside its range min_mw {} .. max_mw {} MW",
+                        o.id, g.min_mw, g.max_mw
+                    ),
+                    "dispatch the machine within its range, or list it under offline".to_string(),
+                );
+            }
+        }
+        output_mw[i] = *mw;
+    }
+    for (i, on) in online.iter().enumerate() {
+        if !on {
+            output_mw[i] = 0.0;
+        }
+    }
+
+    let import_mw = match (o.import_mw, c.utility) {
+        (Some(v), Some(_)) => {
+            num(r, &p.key("import_mw"), v, Lo::Any, Hi::Any, " MW");
+            v
+        }
+        (Some(_), None) => {
+            if !c.utility_unknown {
+                r.error(
+                    &p.key("import_mw"),
+                    format!(
+                        "operating point `{}` sets import_mw but the plant has no utility",
+                        o.id
+                    ),
+                    "remove import_mw, or describe the utility connection under `utility`"
+                        .to_string(),
+                );
+            }
+            0.0
+        }
+        (None, Some(u)) => u.import_mw,
+        (None, None) => 0.0,
+    };
+
+    let mut ties_open: Vec<bool> = c
+        .ties
+        .iter()
+        .map(|t| t.as_ref().is_some_and(|t| t.normally_open))
+        .collect();
+    let mut opened = vec![false; c.ties.len()];
+    for (k, id) in o.ties_open.iter().enumerate() {
+        if let Some(i) = resolve(r, c.tie_ids, &p.key("ties_open").index(k), id) {
+            opened[i] = true;
+        }
+    }
+    for (k, id) in o.ties_closed.iter().enumerate() {
+        let tp = p.key("ties_closed").index(k);
+        let Some(i) = resolve(r, c.tie_ids, &tp, id) else {
+            continue;
+        };
+        if opened[i] {
+            r.error(
+                &tp,
+                format!("tie `{id}` is listed in both ties_open and ties_closed"),
+                "keep it in one of the two lists".to_string(),
+            );
+        } else if let Some(Some(t)) = c.ties.get(i) {
+            if !t.normally_open {
+                r.error(
+                    &tp,
+                    format!("tie `{id}` is not normally open, so ties_closed cannot close it"),
+                    "ties_closed lists normally open ties only; remove it, or set `normally_open: true` on the tie".to_string(),
+                );
+            }
+        }
+        ties_open[i] = false;
+    }
+    for (i, o) in opened.iter().enumerate() {
+        if *o {
+            ties_open[i] = true;
+        }
+    }
+
+    OperatingPoint {
+        id: o.id.clone(),
+        description: o.description.clone().unwrap_or_default(),
+        load_mw,
+        online,
+        output_mw,
+        import_mw,
+        ties_open,
+    }
+}
+
+fn criteria(r: &mut Reader, raw: Option<&RawCriteria>, nominal: Option<f64>) -> Criteria {
+    let f0 = nominal.unwrap_or(50.0);
+    let mut c = Criteria::defaults(f0);
+    let Some(raw) = raw else {
+        return c;
+    };
+    let p = FieldPath::root().key("criteria");
+    if let Some(v) = raw.min_hz {
+        c.min_hz = v;
+    }
+    if let Some(v) = raw.max_hz {
+        c.max_hz = v;
+    }
+    if let Some(rec) = &raw.recover {
+        c.recover_above_hz = rec.above_hz;
+        c.recover_within_s = rec.within_s;
+        num(
+            r,
+            &p.key("recover").key("within_s"),
+            rec.within_s,
+            Lo::Above(0.0),
+            Hi::AtMost(3600.0),
+            " s",
+        );
+    }
+    if let Some(v) = raw.max_rocof_hz_per_s {
+        c.max_rocof_hz_per_s = v;
+        num(
+            r,
+            &p.key("max_rocof_hz_per_s"),
+            v,
+            Lo::Above(0.0),
+            Hi::AtMost(20.0),
+            " Hz/s",
+        );
+    }
+    if let Some(v) = raw.rocof_window_s {
+        c.rocof_window_s = v;
+        num(
+            r,
+            &p.key("rocof_window_s"),
+            v,
+            Lo::Above(0.0),
+            Hi::AtMost(5.0),
+            " s",
+        );
+    }
+    if let Some(s) = &raw.settle {
+        c.settle_within_s = s.within_s;
+        c.settle_low_hz = s.low_hz;
+        c.settle_high_hz = s.high_hz;
+        num(
+            r,
+            &p.key("settle").key("within_s"),
+            s.within_s,
+            Lo::AtLeast(0.0),
+            Hi::AtMost(3600.0),
+            " s",
+        );
+    }
+    if nominal.is_none() {
+        return c;
+    }
+    // Frequencies: each within 0.8–1.2 f0 and in the order a criterion needs.
+    let order_help = format!(
+        "criteria need min_hz < recover.above_hz < nominal {f0} Hz < max_hz, and settle.low_hz < {f0} Hz < settle.high_hz"
+    );
+    let order = |r: &mut Reader,
+                 path: FieldPath,
+                 v: f64,
+                 lo: f64,
+                 lo_name: &str,
+                 hi: f64,
+                 hi_name: &str| {
+        if !v.is_finite() {
+            r.error(
+                &path,
+                format!("{} is {v}, expected a finite number", field_name(&path)),
+                None,
+            );
+        } else if v < 0.8 * f0 || v > 1.2 * f0 {
+            r.error(
+                &path,
+                format!(
+                    "{} {v} Hz is implausible for a {f0} Hz plant",
+                    field_name(&path)
+                ),
+                format!(
+                    "allowed: {} ≤ {} ≤ {} Hz",
+                    0.8 * f0,
+                    field_name(&path),
+                    1.2 * f0
+                ),
+            );
+        } else if v <= lo || v >= hi {
+            let (bad, other_name, other) = if v <= lo {
+                ("at or below", lo_name, lo)
+            } else {
+                ("at or above", hi_name, hi)
+            };
+            r.error(
+                &path,
+                format!(
+                    "{} {v} Hz is {bad} {other_name} {other} Hz",
+                    field_name(&path)
+                ),
+                order_help.clone(),
+            );
+        }
+    };
+    let given = |o: Option<f64>| o.is_some();
+    if given(raw.min_hz) {
+        order(
+            r,
+            p.key("min_hz"),
+            c.min_hz,
+            0.0,
+            "zero",
+            c.recover_above_hz,
+            "recover.above_hz",
+        );
+    }
+    if raw.recover.is_some() {
+        order(
+            r,
+            p.key("recover").key("above_hz"),
+            c.recover_above_hz,
+            c.min_hz,
+            "min_hz",
+            f0,
+            "nominal",
+        );
+    }
+    if given(raw.max_hz) {
+        order(
+            r,
+            p.key("max_hz"),
+            c.max_hz,
+            f0,
+            "nominal",
+            f64::INFINITY,
+            "",
+        );
+    }
+    if raw.settle.is_some() {
+        order(
+            r,
+            p.key("settle").key("low_hz"),
+            c.settle_low_hz,
+            0.0,
+            "zero",
+            f0,
+            "nominal",
+        );
+        order(
+            r,
+            p.key("settle").key("high_hz"),
+            c.settle_high_hz,
+            f0,
+            "nominal",
+            f64::INFINITY,
+            "",
+        );
+    }
+    c
+}
+
+/// Islands before any event at each operating point: one with load but neither the utility nor an
+/// online generator cannot exist; two isochronous machines in one island would fight.
+fn check_islands(r: &mut Reader, plant: &Plant, explicit_ops: bool) {
+    for k in 0..plant.operating_points.len() {
+        let op_path = if explicit_ops {
+            Some(FieldPath::root().key("operating_points").index(k))
+        } else {
+            None
+        };
+        for island in &topology::islands(plant, &BreakerState::initial(plant, k, true)) {
+            if let Some((load, first_load)) = dead_island(plant, k, island) {
+                let path = op_path
+                    .clone()
+                    .unwrap_or_else(|| FieldPath::root().key("loads").index(first_load));
+                r.error(
+                    &path,
+                    format!(
+                        "at operating point `{}`, section(s) {} carry {load} MW of load but have no generator online and no utility connection",
+                        plant.operating_points[k].id,
+                        section_list(plant, island)
+                    ),
+                    "put a generator online there, close a tie to a section with supply, or move the loads".to_string(),
+                );
+            }
+            let op = &plant.operating_points[k];
+            let iso: Vec<usize> = (0..plant.generators.len())
+                .filter(|&g| {
+                    op.online[g]
+                        && plant.generators[g].governor.isochronous
+                        && island.contains(plant.generators[g].section)
+                })
+                .collect();
+            if iso.len() > 1 {
+                let names: Vec<&str> = iso
+                    .iter()
+                    .map(|&g| plant.generators[g].id.as_str())
+                    .collect();
+                r.error(
+                    &FieldPath::root()
+                        .key("generators")
+                        .index(iso[1])
+                        .key("governor")
+                        .key("isochronous"),
+                    format!(
+                        "generators {} are all isochronous in one island at operating point `{}`; at most one machine per island may be",
+                        quoted_list(&names),
+                        op.id
+                    ),
+                    "run the other machines in droop (`isochronous: false` with droop_pct)"
+                        .to_string(),
+                );
+            }
+        }
+    }
+}
+
+/// An island without supply at an operating point: its load in MW and its first load's index.
+fn dead_island(plant: &Plant, op: usize, island: &Island) -> Option<(f64, usize)> {
+    if island.on_utility {
+        return None;
+    }
+    let o = &plant.operating_points[op];
+    let has_gen = plant
+        .generators
+        .iter()
+        .enumerate()
+        .any(|(g, gen)| o.online[g] && island.contains(gen.section));
+    if has_gen {
+        return None;
+    }
+    let mut load = 0.0;
+    let mut first = None;
+    for (i, l) in plant.loads.iter().enumerate() {
+        if island.contains(l.section) && o.load_mw[i] > 0.0 {
+            load += o.load_mw[i];
+            first.get_or_insert(i);
+        }
+    }
+    first.map(|f| (load, f))
+}
+
+fn section_list(plant: &Plant, island: &Island) -> String {
+    let ids: Vec<&str> = island
+        .sections
+        .iter()
+        .map(|&s| plant.sections[s].id.as_str())
+        .collect();
+    quoted_list(&ids)
+}
+
+/// Ids of a plant's things, for checking references from the cases and scheme files.
+fn plant_ids(plant: &Plant) -> (Vec<&str>, Vec<&str>, Vec<&str>, Vec<&str>, Vec<&str>) {
+    (
+        plant.sections.iter().map(|s| s.id.as_str()).collect(),
+        plant.loads.iter().map(|s| s.id.as_str()).collect(),
+        plant.generators.iter().map(|s| s.id.as_str()).collect(),
+        plant.ties.iter().map(|s| s.id.as_str()).collect(),
+        plant
+            .operating_points
+            .iter()
+            .map(|s| s.id.as_str())
+            .collect(),
+    )
+}
+
+/// What a breaker id names in the plant.
+enum Named {
+    Breaker(BreakerRef),
+    Load,
+    Section,
+    Nothing,
+}
+
+fn what_is(plant: &Plant, id: &str) -> Named {
+    if let Some(u) = &plant.utility {
+        if u.breaker_id == id {
+            return Named::Breaker(BreakerRef::Utility);
+        }
+    }
+    if let Some(i) = plant.ties.iter().position(|t| t.id == id) {
+        return Named::Breaker(BreakerRef::Tie(i));
+    }
+    if let Some(i) = plant.generator_index(id) {
+        return Named::Breaker(BreakerRef::Generator(i));
+    }
+    if plant.load_index(id).is_some() {
+        return Named::Load;
+    }
+    if plant.section_index(id).is_some() {
+        return Named::Section;
+    }
+    Named::Nothing
+}
+
+// ---------------------------------------------------------------- cases file
+
+/// Validates a cases file against its plant; `None` when any diagnostic was recorded.
+pub fn cases(r: &mut Reader, map: &Mapping, plant: &Plant) -> Option<CaseSet> {
+    r.check_top_keys(map, &["cases"]);
+    let list: Vec<Slot<RawCase>> = r.list(map, "cases", true)?;
+    if list.is_empty() {
+        r.error(
+            &FieldPath::root().key("cases"),
+            "the cases list is empty".to_string(),
+            "add at least one case, e.g. `- { id: utility-loss, events: [ { at_s: 0, open: utility } ] }`".to_string(),
+        );
+    }
+    let mut ids = Ids::new("case");
+    let mut out = Vec::new();
+    for (i, slot) in list.iter().enumerate() {
+        let p = FieldPath::root().key("cases").index(i);
+        match slot {
+            Slot::Ok(c) => {
+                ids.add(r, &c.id, i, &p.key("id"), "case");
+                out.push(case(r, &p, c, plant));
+            }
+            Slot::Broken(Some(id)) => ids.add(r, id, i, &p.key("id"), "case"),
+            Slot::Broken(None) => {}
+        }
+    }
+    r.diagnostics.is_empty().then_some(CaseSet { cases: out })
+}
+
+fn case(r: &mut Reader, p: &FieldPath, c: &RawCase, plant: &Plant) -> Case {
+    let (sections, _, gens, ties, ops) = plant_ids(plant);
+    let start = match c.start {
+        RawStart::Connected => Start::Connected,
+        RawStart::Islanded => Start::Islanded,
+    };
+    let mut applies_to: Vec<usize> = Vec::new();
+    for (k, id) in c.only_at.iter().enumerate() {
+        match plant.operating_point_index(id) {
+            Some(i) => {
+                if !applies_to.contains(&i) {
+                    applies_to.push(i);
+                }
+            }
+            None => unknown_id(r, &p.key("only_at").index(k), "operating point", id, &ops),
+        }
+    }
+    if c.only_at.is_empty() {
+        applies_to = (0..plant.operating_points.len()).collect();
+    }
+    let duration_s = c.duration_s.unwrap_or(d::CASE_DURATION_S);
+    let duration_ok = c.duration_s.is_none()
+        || num(
+            r,
+            &p.key("duration_s"),
+            duration_s,
+            Lo::Above(0.0),
+            Hi::AtMost(3600.0),
+            " s",
+        );
+    let weight = c.weight.unwrap_or(d::CASE_WEIGHT);
+    if c.weight.is_some() {
+        num(r, &p.key("weight"), weight, Lo::AtLeast(0.0), Hi::Any, "");
+    }
+    if c.events.is_empty() && c.utility_hz.is_empty() {
+        r.error(
+            &p.key("events"),
+            format!("case `{}` has no events and no utility_hz profile", c.id),
+            "add the disturbance, e.g. `events: [ { at_s: 0, open: utility } ]`".to_string(),
+        );
+    }
+
+    let mut events: Vec<CaseEvent> = Vec::new();
+    for (k, e) in c.events.iter().enumerate() {
+        let ep = p.key("events").index(k);
+        if num(r, &ep.key("at_s"), e.at_s, Lo::AtLeast(0.0), Hi::Any, " s")
+            && duration_ok
+            && e.at_s >= duration_s
+        {
+            r.error(
+                &ep.key("at_s"),
+                format!(
+                    "event at {} s is not within the case's duration of {duration_s} s",
+                    e.at_s
+                ),
+                "move the event earlier or lengthen duration_s".to_string(),
+            );
+        }
+        let given: Vec<&str> = [
+            ("open", e.open.is_some()),
+            ("trip", e.trip.is_some()),
+            ("load_step", e.load_step.is_some()),
+            ("voltage_dip", e.voltage_dip.is_some()),
+        ]
+        .iter()
+        .filter(|(_, s)| *s)
+        .map(|(n, _)| *n)
+        .collect();
+        if given.len() != 1 {
+            let has = if given.is_empty() {
+                "none".to_string()
+            } else {
+                given.join(" and ")
+            };
+            r.error(
+                &ep,
+                format!(
+                    "an event takes exactly one of open, trip, load_step, voltage_dip; this one has {has}"
+                ),
+                "write one event per action; several may share the same at_s".to_string(),
+            );
+            continue;
+        }
+        let action = if let Some(id) = &e.open {
+            let fp = ep.key("open");
+            match what_is(plant, id) {
+                Named::Breaker(BreakerRef::Utility) => {
+                    if start == Start::Islanded {
+                        r.error(
+                            &fp,
+                            format!(
+                                "case `{}` starts islanded, so the utility breaker `{id}` is already open",
+                                c.id
+                            ),
+                            "remove this event, or start the case connected".to_string(),
+                        );
+                    }
+                    Some(Action::Open(BreakerRef::Utility))
+                }
+                Named::Breaker(BreakerRef::Tie(i)) => Some(Action::Open(BreakerRef::Tie(i))),
+                Named::Breaker(BreakerRef::Generator(_)) => {
+                    r.error(
+                        &fp,
+                        format!("`{id}` is a generator; open takes the utility breaker or a tie"),
+                        format!("write `trip: {id}` to trip a generator"),
+                    );
+                    None
+                }
+                other => {
+                    let mut known: Vec<&str> = plant
+                        .utility
+                        .iter()
+                        .map(|u| u.breaker_id.as_str())
+                        .collect();
+                    known.extend(ties.iter().copied());
+                    not_a_breaker(
+                        r,
+                        &fp,
+                        id,
+                        other,
+                        &known,
+                        "open takes the utility breaker or a tie",
+                    );
+                    None
+                }
+            }
+        } else if let Some(id) = &e.trip {
+            match plant.generator_index(id) {
+                Some(g) => Some(Action::Open(BreakerRef::Generator(g))),
+                None => {
+                    let fp = ep.key("trip");
+                    if let Named::Breaker(_) = what_is(plant, id) {
+                        r.error(
+                            &fp,
+                            format!("`{id}` is not a generator; trip takes a generator id"),
+                            format!("write `open: {id}` to open the utility breaker or a tie"),
+                        );
+                    } else {
+                        unknown_id(r, &fp, "generator", id, &gens);
+                    }
+                    None
+                }
+            }
+        } else if let Some(ls) = &e.load_step {
+            let lp = ep.key("load_step");
+            let section = plant.section_index(&ls.section);
+            if section.is_none() {
+                unknown_id(r, &lp.key("section"), "section", &ls.section, &sections);
+            }
+            num(r, &lp.key("mw"), ls.mw, Lo::Any, Hi::Any, " MW");
+            section.map(|section| Action::LoadStep { section, mw: ls.mw })
+        } else if let Some(vd) = &e.voltage_dip {
+            let vp = ep.key("voltage_dip");
+            let section = plant.section_index(&vd.section);
+            if section.is_none() {
+                unknown_id(r, &vp.key("section"), "section", &vd.section, &sections);
+            }
+            num(
+                r,
+                &vp.key("remaining_pu"),
+                vd.remaining_pu,
+                Lo::AtLeast(0.0),
+                Hi::AtMost(1.0),
+                " pu",
+            );
+            time_constant(r, &vp.key("duration_s"), vd.duration_s);
+            section.map(|section| Action::VoltageDip {
+                section,
+                remaining_pu: vd.remaining_pu,
+                duration_s: vd.duration_s,
+            })
+        } else {
+            None
+        };
+        if let Some(action) = action {
+            events.push(CaseEvent {
+                at_s: e.at_s,
+                action,
+            });
+        }
+    }
+    // Stable: events at the same time keep their file order.
+    events.sort_by(|a, b| a.at_s.total_cmp(&b.at_s));
+
+    let mut utility_profile = Vec::new();
+    if !c.utility_hz.is_empty() && plant.utility.is_none() {
+        r.error(
+            &p.key("utility_hz"),
+            format!(
+                "case `{}` gives a utility_hz profile but the plant has no utility",
+                c.id
+            ),
+            "remove utility_hz".to_string(),
+        );
+    }
+    let f0 = plant.nominal_hz;
+    let mut last_t: Option<f64> = None;
+    for (k, pt) in c.utility_hz.iter().enumerate() {
+        let pp = p.key("utility_hz").index(k);
+        if num(r, &pp.key("at_s"), pt.at_s, Lo::AtLeast(0.0), Hi::Any, " s") {
+            if let Some(t) = last_t {
+                if pt.at_s <= t {
+                    r.error(
+                        &pp.key("at_s"),
+                        format!(
+                            "utility_hz point at {} s does not come after the previous point at {t} s",
+                            pt.at_s
+                        ),
+                        "list the profile points in increasing time".to_string(),
+                    );
+                }
+            }
+            last_t = Some(pt.at_s);
+        }
+        num(
+            r,
+            &pp.key("hz"),
+            pt.hz,
+            Lo::AtLeast(0.8 * f0),
+            Hi::AtMost(1.2 * f0),
+            " Hz",
+        );
+        utility_profile.push((pt.at_s, pt.hz));
+    }
+
+    if start == Start::Islanded {
+        for &k in &applies_to {
+            for island in &topology::islands(plant, &BreakerState::initial(plant, k, false)) {
+                if let Some((load, _)) = dead_island(plant, k, island) {
+                    r.error(
+                        &p.key("start"),
+                        format!(
+                            "case `{}` starts islanded, but at operating point `{}` section(s) {} carry {load} MW of load with no generator online",
+                            c.id,
+                            plant.operating_points[k].id,
+                            section_list(plant, island)
+                        ),
+                        "limit the case with only_at to operating points that can run islanded".to_string(),
+                    );
+                }
+            }
+        }
+    }
+
+    Case {
+        id: c.id.clone(),
+        description: c.description.clone().unwrap_or_default(),
+        start,
+        applies_to,
+        duration_s,
+        weight,
+        events,
+        utility_profile,
+    }
+}
+
+fn not_a_breaker(
+    r: &mut Reader,
+    path: &FieldPath,
+    id: &str,
+    named: Named,
+    known: &[&str],
+    takes: &str,
+) {
+    match named {
+        Named::Load => r.error(
+            path,
+            format!("`{id}` is a load, not a breaker; {takes}"),
+            "a load is shed by a stage's sheds list, not opened by name here".to_string(),
+        ),
+        Named::Section => r.error(
+            path,
+            format!("`{id}` is a section, not a breaker; {takes}"),
+            "name the breaker instead".to_string(),
+        ),
+        _ => unknown_id(r, path, "breaker", id, known),
+    }
+}
+
+// ---------------------------------------------------------------- scheme file
+
+/// Validates a scheme file against its plant; `None` when any diagnostic was recorded.
+pub fn scheme(r: &mut Reader, map: &Mapping, plant: &Plant, default_name: &str) -> Option<Scheme> {
+    r.check_top_keys(map, &["name", "measurement", "stages"]);
+    let name: Option<String> = r.optional(map, "name");
+    let raw_m: Option<RawMeasurement> = r.optional(map, "measurement");
+    let list: Option<Vec<Slot<RawStage>>> = r.list(map, "stages", true);
+    let mut measurement = Measurement::default();
+    if let Some(m) = raw_m {
+        let p = FieldPath::root().key("measurement");
+        if let Some(v) = m.frequency_lag_s {
+            num(
+                r,
+                &p.key("frequency_lag_s"),
+                v,
+                Lo::AtLeast(0.0),
+                Hi::AtMost(1.0),
+                " s",
+            );
+            measurement.frequency_lag_s = v;
+        }
+        if let Some(v) = m.rocof_window_s {
+            num(
+                r,
+                &p.key("rocof_window_s"),
+                v,
+                Lo::Above(0.0),
+                Hi::AtMost(5.0),
+                " s",
+            );
+            measurement.rocof_window_s = v;
+        }
+    }
+    let list = list?;
+    if list.is_empty() {
+        r.error(
+            &FieldPath::root().key("stages"),
+            "the stages list is empty".to_string(),
+            "add at least one stage, e.g. `- { id: uf-1, pickup_hz: 49.0, delay_s: 0.1, sheds: [some-load] }`".to_string(),
+        );
+    }
+    let (_, load_list, _, ties, _) = plant_ids(plant);
+    let mut breakers: Vec<&str> = plant
+        .utility
+        .iter()
+        .map(|u| u.breaker_id.as_str())
+        .collect();
+    breakers.extend(ties.iter().copied());
+    breakers.extend(plant.generators.iter().map(|g| g.id.as_str()));
+    let f0 = plant.nominal_hz;
+    let mut ids = Ids::new("stage");
+    // Where each load is shed first: (stage id, path).
+    let mut shed_by: HashMap<usize, (String, FieldPath)> = HashMap::new();
+    let mut stages = Vec::new();
+    for (i, slot) in list.iter().enumerate() {
+        let p = FieldPath::root().key("stages").index(i);
+        let s = match slot {
+            Slot::Ok(s) => s,
+            Slot::Broken(id) => {
+                if let Some(id) = id {
+                    ids.add(r, id, i, &p.key("id"), "stage");
+                }
+                continue;
+            }
+        };
+        ids.add(r, &s.id, i, &p.key("id"), "stage");
+        let trigger = match (s.pickup_hz, &s.armed_by) {
+            (Some(_), Some(_)) | (None, None) => {
+                r.error(
+                    &p,
+                    format!(
+                        "stage `{}` needs exactly one of pickup_hz or armed_by; it has {}",
+                        s.id,
+                        if s.pickup_hz.is_some() { "both" } else { "neither" }
+                    ),
+                    "use pickup_hz for an under-frequency stage, armed_by for a stage started by a breaker opening".to_string(),
+                );
+                None
+            }
+            (Some(hz), None) => {
+                let pp = p.key("pickup_hz");
+                if !hz.is_finite() {
+                    num(r, &pp, hz, Lo::Any, Hi::Any, " Hz");
+                } else if hz >= f0 {
+                    r.error(
+                        &pp,
+                        format!("pickup_hz {hz} Hz is not below nominal {f0} Hz; an under-frequency stage must pick up below nominal"),
+                        format!("allowed: {} ≤ pickup_hz < {f0} Hz", 0.8 * f0),
+                    );
+                } else if hz < 0.8 * f0 {
+                    num(r, &pp, hz, Lo::AtLeast(0.8 * f0), Hi::Below(f0), " Hz");
+                } else {
+                    for (g, gen) in plant.generators.iter().enumerate() {
+                        // The highest under-frequency setting at or above the pickup operates first.
+                        let worst = gen
+                            .trips
+                            .iter()
+                            .enumerate()
+                            .filter_map(|(t, trip)| match trip {
+                                FrequencyTrip::Under { hz: th, after_s } if *th >= hz => {
+                                    Some((t, *th, *after_s))
+                                }
+                                _ => None,
+                            })
+                            .max_by(|a, b| a.1.total_cmp(&b.1));
+                        if let Some((t, th, after)) = worst {
+                            r.error(
+                                &pp,
+                                format!(
+                                    "pickup_hz {hz} Hz of stage `{}` is at or below generator `{}`'s own under-frequency trip (generators[{g}].trips[{t}]: below {th} Hz after {after} s); the machine would trip before the stage sheds",
+                                    s.id, gen.id
+                                ),
+                                format!("set the pickup above {th} Hz, or check the machine's protection setting"),
+                            );
+                        }
+                    }
+                }
+                if let Some(v) = s.min_rocof_hz_per_s {
+                    num(
+                        r,
+                        &p.key("min_rocof_hz_per_s"),
+                        v,
+                        Lo::Above(0.0),
+                        Hi::AtMost(20.0),
+                        " Hz/s",
+                    );
+                }
+                Some(StageTrigger::Frequency {
+                    pickup_hz: hz,
+                    min_rocof_hz_per_s: s.min_rocof_hz_per_s,
+                })
+            }
+            (None, Some(id)) => {
+                if s.min_rocof_hz_per_s.is_some() {
+                    r.error_at_key(
+                        &p.key("min_rocof_hz_per_s"),
+                        format!("min_rocof_hz_per_s applies to under-frequency stages only; stage `{}` is armed by `{id}`", s.id),
+                        "remove min_rocof_hz_per_s, or make it a pickup_hz stage".to_string(),
+                    );
+                }
+                match what_is(plant, id) {
+                    Named::Breaker(b) => Some(StageTrigger::Breaker(b)),
+                    other => {
+                        not_a_breaker(
+                            r,
+                            &p.key("armed_by"),
+                            id,
+                            other,
+                            &breakers,
+                            "armed_by takes the utility breaker, a tie or a generator",
+                        );
+                        None
+                    }
+                }
+            }
+        };
+        delay(r, &p.key("delay_s"), s.delay_s);
+        let breaker_s = s.breaker_s.unwrap_or(d::BREAKER_S);
+        if s.breaker_s.is_some() {
+            num(
+                r,
+                &p.key("breaker_s"),
+                breaker_s,
+                Lo::Above(0.0),
+                Hi::AtMost(1.0),
+                " s",
+            );
+        }
+        if s.sheds.is_empty() {
+            r.error(
+                &p.key("sheds"),
+                format!("stage `{}` sheds no load", s.id),
+                "list the load ids this stage opens, or remove the stage".to_string(),
+            );
+        }
+        let mut sheds = Vec::new();
+        for (k, id) in s.sheds.iter().enumerate() {
+            let lp = p.key("sheds").index(k);
+            let Some(l) = plant.load_index(id) else {
+                unknown_id(r, &lp, "load", id, &load_list);
+                continue;
+            };
+            if plant.loads[l].never_shed {
+                r.error(
+                    &lp,
+                    format!("load `{id}` is marked never_shed in the plant, but stage `{}` sheds it", s.id),
+                    "remove it from this stage, or clear never_shed in the plant file if it may be shed".to_string(),
+                );
+            }
+            if let Some((first_stage, first_path)) = shed_by.get(&l) {
+                let line = r
+                    .line_of(first_path)
+                    .map(|n| format!(", line {n}"))
+                    .unwrap_or_default();
+                let msg = if *first_stage == s.id {
+                    format!("load `{id}` is listed twice in stage `{}`", s.id)
+                } else {
+                    format!("load `{id}` is in stage `{}` and already in stage `{first_stage}` ({first_path}{line})", s.id)
+                };
+                r.error(
+                    &lp,
+                    msg,
+                    "a load is shed by one stage only; remove it from all but one".to_string(),
+                );
+                continue;
+            }
+            shed_by.insert(l, (s.id.clone(), lp));
+            sheds.push(l);
+        }
+        if let Some(trigger) = trigger {
+            stages.push(Stage {
+                id: s.id.clone(),
+                trigger,
+                delay_s: s.delay_s,
+                breaker_s,
+                sheds,
+            });
+        }
+    }
+    r.diagnostics.is_empty().then(|| Scheme {
+        name: name.unwrap_or_else(|| default_name.to_string()),
+        measurement,
+        stages,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn near_matches_finds_typos_first() {
+        let c = ["steam-tg", "gas-engine", "steam-tg-2"];
+        assert_eq!(near_matches("stean-tg", c.iter().copied())[0], "steam-tg");
+        assert!(near_matches("pump", c.iter().copied()).is_empty());
+    }
+
+    #[test]
+    fn edit_distance_counts_single_changes() {
+        assert_eq!(edit_distance("kitten", "sitting"), 3);
+        assert_eq!(edit_distance("", "ab"), 2);
+    }
+}
