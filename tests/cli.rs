@@ -208,3 +208,17 @@ fn files_md_documents_every_schema_field() {
     }
     assert!(missing.is_empty(), "not in docs/files.md: {missing:?}");
 }
+
+/// The tour in README.md pastes the demo command's output; it must be the output of today's code.
+#[test]
+fn readme_shows_the_real_demo_output() {
+    let readme = std::fs::read_to_string(root().join("README.md")).unwrap();
+    assert!(readme.contains(
+        "cargo run --release -- check examples/biorefinery/plant.yaml schemes/biorefinery.yaml --cases examples/biorefinery/cases.yaml"
+    ));
+    let r = nadir(&DEMO);
+    assert!(
+        readme.contains(r.stdout.trim_end()),
+        "README.md's pasted output differs from `nadir check` on the demo; paste it again"
+    );
+}

@@ -64,8 +64,8 @@ pub fn run(args: CheckArgs) -> anyhow::Result<Outcome> {
     };
     let figures = screening::screen(&plant, cases.as_ref(), scheme.as_ref());
     match args.format {
-        Format::Json => println!("{}", serde_json::to_string_pretty(&figures)?),
-        Format::Table => print!("{}", render_tables(&figures)),
+        Format::Json => super::write_stdout(&(serde_json::to_string_pretty(&figures)? + "\n"))?,
+        Format::Table => super::write_stdout(&render_tables(&figures))?,
     }
     // Screening checks no criterion, so it has nothing to fail.
     Ok(Outcome::Pass)

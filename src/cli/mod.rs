@@ -72,3 +72,14 @@ pub fn render_error(err: &anyhow::Error) -> String {
     }
     out
 }
+
+/// Writes a verb's output to standard output. A closed pipe (`nadir check … | head`) ends the
+/// output quietly instead of panicking as `println!` would.
+pub fn write_stdout(text: &str) -> anyhow::Result<()> {
+    use std::io::Write;
+    let mut out = std::io::stdout().lock();
+    match out.write_all(text.as_bytes()).and_then(|()| out.flush()) {
+        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Ok(()),
+        other => Ok(other?),
+    }
+}

@@ -44,7 +44,7 @@ pub fn run(args: SchemaArgs) -> anyhow::Result<Outcome> {
                 .into_iter()
                 .map(|(name, schema)| (name.to_string(), schema.to_value()))
                 .collect();
-            println!("{}", serde_json::to_string_pretty(&all)?);
+            super::write_stdout(&(serde_json::to_string_pretty(&all)? + "\n"))?;
         }
     }
     Ok(Outcome::Pass)
