@@ -18,8 +18,10 @@ pub mod error;
 pub mod input;
 pub mod model;
 pub mod relay;
+pub mod report;
 pub mod screening;
 pub mod sim;
 pub mod topology;
+pub mod verify;
 
 pub use error::Error;

@@ -227,7 +227,9 @@ impl MarkedEventReceiver for Builder {
                         kind: Kind::Seq(items),
                     },
                     Some(Open::Map { place, entries, .. }) => Node {
-                        place,
+                        // A block mapping's start mark can lie after its first key; the first key
+                        // is where a reader looks for the mapping.
+                        place: entries.first().map_or(place, |e| place.min(e.1)),
                         kind: Kind::Map(entries),
                     },
                     None => {

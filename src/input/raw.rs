@@ -2,7 +2,7 @@
 //!
 //! Only this module derives `Deserialize`. Doc comments here are the field reference: they become
 //! the descriptions in `nadir schema` and must agree with docs/files.md. Units are in field names.
-//! Nothing here is checked beyond its type; [`super::validate`] turns these into [`crate::model`].
+//! Nothing here is checked beyond its type; `input::validate` turns these into [`crate::model`].
 
 use schemars::JsonSchema;
 use serde::Deserialize;

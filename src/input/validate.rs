@@ -39,20 +39,24 @@ fn field_name(path: &FieldPath) -> String {
 }
 
 fn range_text(name: &str, lo: Lo, hi: Hi, unit: &str) -> String {
-    let mut s = String::new();
-    match lo {
-        Lo::Any => {}
-        Lo::Above(a) => s.push_str(&format!("{a} < ")),
-        Lo::AtLeast(a) => s.push_str(&format!("{a} ≤ ")),
+    let lo_text = match lo {
+        Lo::Any => None,
+        Lo::Above(a) => Some((a, "<", ">")),
+        Lo::AtLeast(a) => Some((a, "≤", "≥")),
+    };
+    let hi_text = match hi {
+        Hi::Any => None,
+        Hi::Below(b) => Some((b, "<")),
+        Hi::AtMost(b) => Some((b, "≤")),
+    };
+    match (lo_text, hi_text) {
+        (None, None) => format!("any finite {name}"),
+        (Some((a, _, rev)), None) => format!("{name} {rev} {a}{unit}"),
+        (None, Some((b, op))) => format!("{name} {op} {b}{unit}"),
+        (Some((a, op_lo, _)), Some((b, op_hi))) => {
+            format!("{a} {op_lo} {name} {op_hi} {b}{unit}")
+        }
     }
-    s.push_str(name);
-    match hi {
-        Hi::Any => {}
-        Hi::Below(b) => s.push_str(&format!(" < {b}")),
-        Hi::AtMost(b) => s.push_str(&format!(" ≤ {b}")),
-    }
-    s.push_str(unit);
-    s
 }
 
 /// Checks one number against its allowed range; `unit` is written after values (" s", " Hz").
@@ -76,8 +80,8 @@ fn num(r: &mut Reader, path: &FieldPath, v: f64, lo: Lo, hi: Hi, unit: &str) -> 
     };
     if low_bad {
         let msg = match lo {
-            Lo::Above(a) if a == 0.0 => format!("{name} must be greater than 0, got {v}{unit}"),
-            Lo::AtLeast(a) if a == 0.0 => format!("{name} must not be negative, got {v}{unit}"),
+            Lo::Above(0.0) => format!("{name} must be greater than 0, got {v}{unit}"),
+            Lo::AtLeast(0.0) => format!("{name} must not be negative, got {v}{unit}"),
             _ => format!("{name} {v}{unit} is implausibly low"),
         };
         r.error(path, msg, allowed);
@@ -117,7 +121,7 @@ pub fn near_matches<'a>(name: &str, candidates: impl Iterator<Item = &'a str>) -
             let cl = c.to_lowercase();
             let dist = edit_distance(&lower, &cl);
             let limit = (name.chars().count().max(c.chars().count()) / 3).max(1);
-            let contains = lower.len() >= 3 && (cl.contains(&lower) || lower.contains(&cl));
+            let contains = lower.len() >= 2 && (cl.contains(&lower) || lower.contains(&cl));
             (dist <= limit || contains).then_some((dist, c))
         })
         .collect();
@@ -179,12 +183,22 @@ impl Ids {
                     self.kind
                 )
             };
-            r.error(path, msg, format!("give each {} its own id", self.kind));
+            let kind = if *first_what == what { what } else { self.kind };
+            r.error(path, msg, format!("give each {kind} its own id"));
             return;
         }
         self.entries
             .insert(id.to_string(), (index, path.clone(), what));
         self.order.push(id.to_string());
+    }
+
+    /// Registers an id whose duplicates another registry (the breakers) already reports.
+    fn add_quiet(&mut self, id: &str, index: usize, path: &FieldPath, what: &'static str) {
+        if !self.entries.contains_key(id) {
+            self.entries
+                .insert(id.to_string(), (index, path.clone(), what));
+            self.order.push(id.to_string());
+        }
     }
 
     fn get(&self, id: &str) -> Option<(usize, &'static str)> {
@@ -420,7 +434,7 @@ pub fn plant(r: &mut Reader, map: &Mapping) -> Option<Plant> {
             continue;
         };
         breaker_ids.add(r, &t.id, i, &p.key("id"), "tie");
-        tie_ids.add(r, &t.id, i, &p.key("id"), "tie");
+        tie_ids.add_quiet(&t.id, i, &p.key("id"), "tie");
         let tie = if t.between.len() != 2 {
             r.error(
                 &p.key("between"),
@@ -507,7 +521,7 @@ pub fn plant(r: &mut Reader, map: &Mapping) -> Option<Plant> {
         match slot {
             Slot::Ok(g) => {
                 breaker_ids.add(r, &g.id, i, &p.key("id"), "generator");
-                gen_ids.add(r, &g.id, i, &p.key("id"), "generator");
+                gen_ids.add_quiet(&g.id, i, &p.key("id"), "generator");
                 let gen = generator(r, &p, g, &section_ids, nominal);
                 if gen.is_none() {
                     whole = false;
@@ -1283,8 +1297,17 @@ fn criteria(r: &mut Reader, raw: Option<&RawCriteria>, nominal: Option<f64>) -> 
             c.min_hz,
             0.0,
             "zero",
-            c.recover_above_hz,
-            "recover.above_hz",
+            // A conflict with a written recover.above_hz is reported once, there.
+            if raw.recover.is_some() {
+                f0
+            } else {
+                c.recover_above_hz
+            },
+            if raw.recover.is_some() {
+                "nominal"
+            } else {
+                "the default recover.above_hz"
+            },
         );
     }
     if raw.recover.is_some() {
@@ -1423,18 +1446,26 @@ fn section_list(plant: &Plant, island: &Island) -> String {
 }
 
 /// Ids of a plant's things, for checking references from the cases and scheme files.
-fn plant_ids(plant: &Plant) -> (Vec<&str>, Vec<&str>, Vec<&str>, Vec<&str>, Vec<&str>) {
-    (
-        plant.sections.iter().map(|s| s.id.as_str()).collect(),
-        plant.loads.iter().map(|s| s.id.as_str()).collect(),
-        plant.generators.iter().map(|s| s.id.as_str()).collect(),
-        plant.ties.iter().map(|s| s.id.as_str()).collect(),
-        plant
+struct PlantIds<'a> {
+    sections: Vec<&'a str>,
+    loads: Vec<&'a str>,
+    generators: Vec<&'a str>,
+    ties: Vec<&'a str>,
+    operating_points: Vec<&'a str>,
+}
+
+fn plant_ids(plant: &Plant) -> PlantIds<'_> {
+    PlantIds {
+        sections: plant.sections.iter().map(|s| s.id.as_str()).collect(),
+        loads: plant.loads.iter().map(|s| s.id.as_str()).collect(),
+        generators: plant.generators.iter().map(|s| s.id.as_str()).collect(),
+        ties: plant.ties.iter().map(|s| s.id.as_str()).collect(),
+        operating_points: plant
             .operating_points
             .iter()
             .map(|s| s.id.as_str())
             .collect(),
-    )
+    }
 }
 
 /// What a breaker id names in the plant.
@@ -1496,7 +1527,13 @@ pub fn cases(r: &mut Reader, map: &Mapping, plant: &Plant) -> Option<CaseSet> {
 }
 
 fn case(r: &mut Reader, p: &FieldPath, c: &RawCase, plant: &Plant) -> Case {
-    let (sections, _, gens, ties, ops) = plant_ids(plant);
+    let PlantIds {
+        sections,
+        generators: gens,
+        ties,
+        operating_points: ops,
+        ..
+    } = plant_ids(plant);
     let start = match c.start {
         RawStart::Connected => Start::Connected,
         RawStart::Islanded => Start::Islanded,
@@ -1816,7 +1853,11 @@ pub fn scheme(r: &mut Reader, map: &Mapping, plant: &Plant, default_name: &str) 
             "add at least one stage, e.g. `- { id: uf-1, pickup_hz: 49.0, delay_s: 0.1, sheds: [some-load] }`".to_string(),
         );
     }
-    let (_, load_list, _, ties, _) = plant_ids(plant);
+    let PlantIds {
+        loads: load_list,
+        ties,
+        ..
+    } = plant_ids(plant);
     let mut breakers: Vec<&str> = plant
         .utility
         .iter()

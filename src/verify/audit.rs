@@ -1,0 +1,458 @@
+//! The audit of a shedding table against the plant's own rules, without any simulation: the
+//! shedding order, and every violation of rank order, stage size, coordination spacing and the
+//! normal operating band.
+//!
+//! Stages are put in the order they would operate on a falling frequency: event-armed stages first
+//! (they act a fixed time after a breaker opens, before any frequency stage can), then frequency
+//! stages by pickup from highest to lowest, then by delay from shortest to longest.
+
+use crate::model::{BreakerRef, Plant, Scheme, StageTrigger};
+use serde::Serialize;
+
+/// The rules a table is held to. Defaults are common practice, no source; the plant sets its own.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct AuditRules {
+    /// Two frequency stages closer than this in pickup...
+    pub min_spacing_hz: f64,
+    /// ...and closer than this in delay are not coordinated.
+    pub min_spacing_s: f64,
+    /// No stage may pick up above this: the lower edge of the plant's normal operating band.
+    pub normal_low_hz: f64,
+}
+
+impl AuditRules {
+    /// Defaults: 0.1 Hz and 0.1 s spacing (relay accuracy plus margin; common practice, no source)
+    /// and the normal band's lower edge at 0.99·f0 (the default settling band of docs/files.md).
+    pub fn defaults(nominal_hz: f64) -> AuditRules {
+        AuditRules {
+            min_spacing_hz: 0.1,
+            min_spacing_s: 0.1,
+            normal_low_hz: 0.99 * nominal_hz,
+        }
+    }
+}
+
+/// A stage in operating order with its loads and megawatts.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct OrderedStage {
+    /// Index into the scheme's stages.
+    pub stage: usize,
+    pub id: String,
+    /// "49.00 Hz", "49.20 Hz, df/dt ≥ 0.50 Hz/s" or "utility opens".
+    pub trigger: String,
+    pub delay_s: f64,
+    pub breaker_s: f64,
+    /// (load id, rank) in the order the scheme lists them.
+    pub loads: Vec<(String, u32)>,
+    /// MW this stage opens at each operating point (by index).
+    pub mw: Vec<f64>,
+    /// Cumulative MW up to and including this stage at each operating point.
+    pub cumulative_mw: Vec<f64>,
+}
+
+/// One broken rule.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Violation {
+    /// A short stable name: `rank-order`, `unassigned-lower-rank`, `never-shed`, `empty-stage`,
+    /// `spacing`, `above-normal-band`.
+    pub rule: &'static str,
+    /// The violation in words, naming stages, loads and values.
+    pub message: String,
+}
+
+/// The audit result.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Audit {
+    pub operating_points: Vec<String>,
+    pub order: Vec<OrderedStage>,
+    pub violations: Vec<Violation>,
+}
+
+/// Audit a scheme against the plant's rules.
+pub fn audit(plant: &Plant, scheme: &Scheme, rules: &AuditRules) -> Audit {
+    let order_idx = operating_order(scheme);
+    let n_ops = plant.operating_points.len();
+    let mut cumulative = vec![0.0; n_ops];
+    let mut order = Vec::new();
+    for &si in &order_idx {
+        let stage = &scheme.stages[si];
+        let mw: Vec<f64> = (0..n_ops)
+            .map(|op| {
+                stage
+                    .sheds
+                    .iter()
+                    .map(|&l| plant.operating_points[op].load_mw[l])
+                    .sum()
+            })
+            .collect();
+        for (c, m) in cumulative.iter_mut().zip(&mw) {
+            *c += m;
+        }
+        order.push(OrderedStage {
+            stage: si,
+            id: stage.id.clone(),
+            trigger: describe_trigger(plant, &stage.trigger),
+            delay_s: stage.delay_s,
+            breaker_s: stage.breaker_s,
+            loads: stage
+                .sheds
+                .iter()
+                .map(|&l| (plant.loads[l].id.clone(), plant.loads[l].rank))
+                .collect(),
+            mw,
+            cumulative_mw: cumulative.clone(),
+        });
+    }
+    let mut violations = Vec::new();
+    rank_order(plant, scheme, &order_idx, &mut violations);
+    never_shed(plant, scheme, &mut violations);
+    empty_stages(plant, &order, &mut violations);
+    spacing(scheme, &order_idx, rules, &mut violations);
+    normal_band(scheme, rules, &mut violations);
+    Audit {
+        operating_points: plant
+            .operating_points
+            .iter()
+            .map(|o| o.id.clone())
+            .collect(),
+        order,
+        violations,
+    }
+}
+
+/// Stage indices in the order they would operate on a falling frequency.
+pub fn operating_order(scheme: &Scheme) -> Vec<usize> {
+    let mut idx: Vec<usize> = (0..scheme.stages.len()).collect();
+    let key = |i: usize| {
+        let s = &scheme.stages[i];
+        match s.trigger {
+            StageTrigger::Breaker(_) => (0, 0.0, s.delay_s),
+            StageTrigger::Frequency { pickup_hz, .. } => (1, -pickup_hz, s.delay_s),
+        }
+    };
+    idx.sort_by(|&a, &b| {
+        let (ka, kb) = (key(a), key(b));
+        ka.0.cmp(&kb.0)
+            .then(ka.1.total_cmp(&kb.1))
+            .then(ka.2.total_cmp(&kb.2))
+            .then(a.cmp(&b))
+    });
+    idx
+}
+
+fn describe_trigger(plant: &Plant, trigger: &StageTrigger) -> String {
+    match *trigger {
+        StageTrigger::Frequency {
+            pickup_hz,
+            min_rocof_hz_per_s: None,
+        } => format!("{pickup_hz:.2} Hz"),
+        StageTrigger::Frequency {
+            pickup_hz,
+            min_rocof_hz_per_s: Some(r),
+        } => {
+            format!("{pickup_hz:.2} Hz, df/dt ≤ −{r:.2} Hz/s")
+        }
+        StageTrigger::Breaker(b) => format!("{} opens", breaker_name(plant, b)),
+    }
+}
+
+/// The id of a breaker as the files name it.
+pub fn breaker_name(plant: &Plant, breaker: BreakerRef) -> String {
+    match breaker {
+        BreakerRef::Utility => plant
+            .utility
+            .as_ref()
+            .map(|u| u.breaker_id.clone())
+            .unwrap_or_else(|| "utility".into()),
+        BreakerRef::Tie(t) => plant.ties[t].id.clone(),
+        BreakerRef::Generator(g) => plant.generators[g].id.clone(),
+    }
+}
+
+fn rank_order(plant: &Plant, scheme: &Scheme, order: &[usize], out: &mut Vec<Violation>) {
+    // Position of each load's stage in operating order; None when it is in no stage.
+    let mut position: Vec<Option<usize>> = vec![None; plant.loads.len()];
+    for (pos, &si) in order.iter().enumerate() {
+        for &l in &scheme.stages[si].sheds {
+            position[l].get_or_insert(pos);
+        }
+    }
+    for (pos, &si) in order.iter().enumerate() {
+        for &shed in &scheme.stages[si].sheds {
+            let shed_rank = plant.loads[shed].rank;
+            // The worst offender: a lower-ranked load shed later, or never.
+            for (other, load) in plant.loads.iter().enumerate() {
+                if load.never_shed || load.rank >= shed_rank {
+                    continue;
+                }
+                match position[other] {
+                    Some(p) if p > pos => out.push(Violation {
+                        rule: "rank-order",
+                        message: format!(
+                            "{} (rank {}) is shed by stage {} before {} (rank {}) in stage {}",
+                            plant.loads[shed].id,
+                            shed_rank,
+                            scheme.stages[si].id,
+                            load.id,
+                            load.rank,
+                            scheme.stages[order[p]].id
+                        ),
+                    }),
+                    None => out.push(Violation {
+                        rule: "unassigned-lower-rank",
+                        message: format!(
+                            "{} (rank {}) is shed by stage {} while {} (rank {}) is in no stage",
+                            plant.loads[shed].id,
+                            shed_rank,
+                            scheme.stages[si].id,
+                            load.id,
+                            load.rank
+                        ),
+                    }),
+                    _ => {}
+                }
+            }
+        }
+    }
+}
+
+fn never_shed(plant: &Plant, scheme: &Scheme, out: &mut Vec<Violation>) {
+    for stage in &scheme.stages {
+        for &l in &stage.sheds {
+            if plant.loads[l].never_shed {
+                out.push(Violation {
+                    rule: "never-shed",
+                    message: format!(
+                        "{} is marked never_shed but stage {} sheds it",
+                        plant.loads[l].id, stage.id
+                    ),
+                });
+            }
+        }
+    }
+}
+
+fn empty_stages(plant: &Plant, order: &[OrderedStage], out: &mut Vec<Violation>) {
+    for stage in order {
+        for (op, mw) in stage.mw.iter().enumerate() {
+            if *mw <= 0.0 {
+                out.push(Violation {
+                    rule: "empty-stage",
+                    message: format!(
+                        "stage {} sheds 0 MW at operating point {}: all its loads are off there",
+                        stage.id, plant.operating_points[op].id
+                    ),
+                });
+            }
+        }
+    }
+}
+
+fn spacing(scheme: &Scheme, order: &[usize], rules: &AuditRules, out: &mut Vec<Violation>) {
+    let freq: Vec<(usize, f64, f64)> = order
+        .iter()
+        .filter_map(|&i| match scheme.stages[i].trigger {
+            StageTrigger::Frequency { pickup_hz, .. } => {
+                Some((i, pickup_hz, scheme.stages[i].delay_s))
+            }
+            StageTrigger::Breaker(_) => None,
+        })
+        .collect();
+    for pair in freq.windows(2) {
+        let (a, fa, da) = pair[0];
+        let (b, fb, db) = pair[1];
+        let df = (fa - fb).abs();
+        let dt = (da - db).abs();
+        // Either separation coordinates the pair: apart in frequency, or apart in time.
+        if df + 1e-9 < rules.min_spacing_hz && dt + 1e-9 < rules.min_spacing_s {
+            out.push(Violation {
+                rule: "spacing",
+                message: format!(
+                    "stages {} and {} are {:.2} Hz and {:.2} s apart; they need at least {:.2} Hz or {:.2} s",
+                    scheme.stages[a].id, scheme.stages[b].id, df, dt, rules.min_spacing_hz, rules.min_spacing_s
+                ),
+            });
+        }
+    }
+}
+
+fn normal_band(scheme: &Scheme, rules: &AuditRules, out: &mut Vec<Violation>) {
+    for stage in &scheme.stages {
+        if let StageTrigger::Frequency { pickup_hz, .. } = stage.trigger {
+            if pickup_hz > rules.normal_low_hz + 1e-9 {
+                out.push(Violation {
+                    rule: "above-normal-band",
+                    message: format!(
+                        "stage {} picks up at {:.2} Hz, inside the normal operating band (above {:.2} Hz)",
+                        stage.id, pickup_hz, rules.normal_low_hz
+                    ),
+                });
+            }
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::{Criteria, Load, Measurement, OperatingPoint, Section, Stage};
+
+    fn load(id: &str, rank: u32, mw: f64) -> Load {
+        Load {
+            id: id.into(),
+            description: String::new(),
+            section: 0,
+            p_mw: mw,
+            rank,
+            never_shed: false,
+            freq_exp: 1.0,
+            inertia_s: 0.0,
+            undervoltage: None,
+        }
+    }
+
+    fn plant(loads: Vec<Load>, off_in_second_point: &[usize]) -> Plant {
+        let full: Vec<f64> = loads.iter().map(|l| l.p_mw).collect();
+        let mut reduced = full.clone();
+        for &i in off_in_second_point {
+            reduced[i] = 0.0;
+        }
+        let point = |id: &str, load_mw: Vec<f64>| OperatingPoint {
+            id: id.into(),
+            description: String::new(),
+            load_mw,
+            online: vec![],
+            output_mw: vec![],
+            import_mw: 0.0,
+            ties_open: vec![],
+        };
+        Plant {
+            name: "audit test".into(),
+            nominal_hz: 50.0,
+            sections: vec![Section { id: "main".into() }],
+            ties: vec![],
+            utility: None,
+            generators: vec![],
+            loads,
+            operating_points: vec![point("full", full), point("reduced", reduced)],
+            criteria: Criteria::defaults(50.0),
+        }
+    }
+
+    fn stage(id: &str, pickup_hz: f64, delay_s: f64, sheds: Vec<usize>) -> Stage {
+        Stage {
+            id: id.into(),
+            trigger: StageTrigger::Frequency {
+                pickup_hz,
+                min_rocof_hz_per_s: None,
+            },
+            delay_s,
+            breaker_s: 0.08,
+            sheds,
+        }
+    }
+
+    fn scheme(stages: Vec<Stage>) -> Scheme {
+        Scheme {
+            name: "t".into(),
+            measurement: Measurement::default(),
+            stages,
+        }
+    }
+
+    fn rules_hit(a: &Audit) -> Vec<&'static str> {
+        a.violations.iter().map(|v| v.rule).collect()
+    }
+
+    #[test]
+    fn a_clean_table_has_no_violation_and_cumulative_mw_adds_up() {
+        let p = plant(
+            vec![load("a", 1, 1.0), load("b", 2, 2.0), load("c", 3, 3.0)],
+            &[],
+        );
+        let s = scheme(vec![
+            stage("uf-2", 48.8, 0.2, vec![1, 2]),
+            stage("uf-1", 49.0, 0.2, vec![0]),
+        ]);
+        let a = audit(&p, &s, &AuditRules::defaults(50.0));
+        assert!(a.violations.is_empty(), "{:?}", a.violations);
+        assert_eq!(a.order[0].id, "uf-1", "higher pickup operates first");
+        assert_eq!(a.order[1].cumulative_mw, vec![6.0, 6.0]);
+    }
+
+    #[test]
+    fn a_higher_rank_shed_before_a_lower_rank_is_caught() {
+        let p = plant(vec![load("a", 1, 1.0), load("b", 5, 2.0)], &[]);
+        let s = scheme(vec![
+            stage("uf-1", 49.0, 0.2, vec![1]),
+            stage("uf-2", 48.8, 0.2, vec![0]),
+        ]);
+        let a = audit(&p, &s, &AuditRules::defaults(50.0));
+        assert_eq!(rules_hit(&a), vec!["rank-order"]);
+        assert!(a.violations[0]
+            .message
+            .contains("b (rank 5) is shed by stage uf-1 before a (rank 1)"));
+    }
+
+    #[test]
+    fn a_lower_rank_left_out_of_every_stage_is_caught() {
+        let p = plant(vec![load("a", 1, 1.0), load("b", 2, 2.0)], &[]);
+        let s = scheme(vec![stage("uf-1", 49.0, 0.2, vec![1])]);
+        assert_eq!(
+            rules_hit(&audit(&p, &s, &AuditRules::defaults(50.0))),
+            vec!["unassigned-lower-rank"]
+        );
+    }
+
+    #[test]
+    fn a_stage_empty_at_one_operating_point_is_caught() {
+        let p = plant(vec![load("a", 1, 1.0), load("b", 2, 2.0)], &[0]);
+        let s = scheme(vec![
+            stage("uf-1", 49.0, 0.2, vec![0]),
+            stage("uf-2", 48.8, 0.2, vec![1]),
+        ]);
+        let a = audit(&p, &s, &AuditRules::defaults(50.0));
+        assert_eq!(rules_hit(&a), vec!["empty-stage"]);
+        assert!(a.violations[0]
+            .message
+            .contains("uf-1 sheds 0 MW at operating point reduced"));
+    }
+
+    #[test]
+    fn stages_too_close_in_both_frequency_and_time_are_caught() {
+        let p = plant(
+            vec![load("a", 1, 1.0), load("b", 2, 2.0), load("c", 3, 1.0)],
+            &[],
+        );
+        // uf-1/uf-2 are 0.05 Hz and 0 s apart: not coordinated. uf-2/uf-3 share a pickup but are
+        // 0.3 s apart in delay: coordinated in time.
+        let s = scheme(vec![
+            stage("uf-1", 49.0, 0.2, vec![0]),
+            stage("uf-2", 48.95, 0.2, vec![1]),
+            stage("uf-3", 48.95, 0.5, vec![2]),
+        ]);
+        let a = audit(&p, &s, &AuditRules::defaults(50.0));
+        assert_eq!(rules_hit(&a), vec!["spacing"]);
+        assert!(a.violations[0].message.contains("uf-1 and uf-2"));
+    }
+
+    #[test]
+    fn a_stage_inside_the_normal_band_is_caught() {
+        let p = plant(vec![load("a", 1, 1.0)], &[]);
+        let s = scheme(vec![stage("uf-1", 49.7, 0.2, vec![0])]);
+        let a = audit(&p, &s, &AuditRules::defaults(50.0));
+        assert_eq!(rules_hit(&a), vec!["above-normal-band"]);
+    }
+
+    #[test]
+    fn a_never_shed_load_in_a_stage_is_caught() {
+        let mut loads = vec![load("ups", 9, 0.5)];
+        loads[0].never_shed = true;
+        let p = plant(loads, &[]);
+        let s = scheme(vec![stage("uf-1", 49.0, 0.2, vec![0])]);
+        assert_eq!(
+            rules_hit(&audit(&p, &s, &AuditRules::defaults(50.0))),
+            vec!["never-shed"]
+        );
+    }
+}

@@ -1,0 +1,231 @@
+//! The settings difference between two shedding tables for one plant: stages added and removed, and
+//! for each stage kept (matched by id) its changed trigger, delay, breaker time and loads.
+
+use crate::model::{Plant, Scheme, Stage, StageTrigger};
+use serde::Serialize;
+
+/// One line of the settings difference.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SettingChange {
+    pub stage: String,
+    /// `measurement`, `added`, `removed`, `trigger`, `delay_s`, `breaker_s`, `loads`.
+    pub what: &'static str,
+    pub old: String,
+    pub new: String,
+}
+
+/// Every change from `old` to `new`, stages in the new table's order, then removed stages.
+pub fn diff(plant: &Plant, old: &Scheme, new: &Scheme) -> Vec<SettingChange> {
+    let mut out = Vec::new();
+    if old.measurement != new.measurement {
+        let m = |s: &Scheme| {
+            format!(
+                "lag {:.3} s, df/dt window {:.3} s",
+                s.measurement.frequency_lag_s, s.measurement.rocof_window_s
+            )
+        };
+        out.push(SettingChange {
+            stage: "(all)".into(),
+            what: "measurement",
+            old: m(old),
+            new: m(new),
+        });
+    }
+    for stage in &new.stages {
+        match old.stages.iter().find(|s| s.id == stage.id) {
+            None => out.push(SettingChange {
+                stage: stage.id.clone(),
+                what: "added",
+                old: String::new(),
+                new: summary(plant, stage),
+            }),
+            Some(before) => compare_stage(plant, before, stage, &mut out),
+        }
+    }
+    for stage in &old.stages {
+        if !new.stages.iter().any(|s| s.id == stage.id) {
+            out.push(SettingChange {
+                stage: stage.id.clone(),
+                what: "removed",
+                old: summary(plant, stage),
+                new: String::new(),
+            });
+        }
+    }
+    out
+}
+
+fn compare_stage(plant: &Plant, old: &Stage, new: &Stage, out: &mut Vec<SettingChange>) {
+    let mut push = |what: &'static str, o: String, n: String| {
+        out.push(SettingChange {
+            stage: new.id.clone(),
+            what,
+            old: o,
+            new: n,
+        });
+    };
+    let (ot, nt) = (trigger(plant, &old.trigger), trigger(plant, &new.trigger));
+    if ot != nt {
+        push("trigger", ot, nt);
+    }
+    if old.delay_s != new.delay_s {
+        push(
+            "delay_s",
+            format!("{:.3}", old.delay_s),
+            format!("{:.3}", new.delay_s),
+        );
+    }
+    if old.breaker_s != new.breaker_s {
+        push(
+            "breaker_s",
+            format!("{:.3}", old.breaker_s),
+            format!("{:.3}", new.breaker_s),
+        );
+    }
+    let removed: Vec<&str> = old
+        .sheds
+        .iter()
+        .filter(|l| !new.sheds.contains(l))
+        .map(|&l| plant.loads[l].id.as_str())
+        .collect();
+    let added: Vec<&str> = new
+        .sheds
+        .iter()
+        .filter(|l| !old.sheds.contains(l))
+        .map(|&l| plant.loads[l].id.as_str())
+        .collect();
+    if !removed.is_empty() || !added.is_empty() {
+        let o = if removed.is_empty() {
+            String::new()
+        } else {
+            format!("−{}", removed.join(", −"))
+        };
+        let n = if added.is_empty() {
+            String::new()
+        } else {
+            format!("+{}", added.join(", +"))
+        };
+        push("loads", o, n);
+    }
+}
+
+fn trigger(plant: &Plant, t: &StageTrigger) -> String {
+    match *t {
+        StageTrigger::Frequency {
+            pickup_hz,
+            min_rocof_hz_per_s: None,
+        } => format!("{pickup_hz:.2} Hz"),
+        StageTrigger::Frequency {
+            pickup_hz,
+            min_rocof_hz_per_s: Some(r),
+        } => {
+            format!("{pickup_hz:.2} Hz with df/dt ≤ −{r:.2} Hz/s")
+        }
+        StageTrigger::Breaker(b) => format!("armed by {}", super::audit::breaker_name(plant, b)),
+    }
+}
+
+fn summary(plant: &Plant, s: &Stage) -> String {
+    let loads: Vec<&str> = s
+        .sheds
+        .iter()
+        .map(|&l| plant.loads[l].id.as_str())
+        .collect();
+    format!(
+        "{}, {:.2} s + {:.2} s: {}",
+        trigger(plant, &s.trigger),
+        s.delay_s,
+        s.breaker_s,
+        loads.join(", ")
+    )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::{Criteria, Load, Measurement, Section};
+
+    fn plant() -> Plant {
+        let load = |id: &str| Load {
+            id: id.into(),
+            description: String::new(),
+            section: 0,
+            p_mw: 1.0,
+            rank: 1,
+            never_shed: false,
+            freq_exp: 1.0,
+            inertia_s: 0.0,
+            undervoltage: None,
+        };
+        Plant {
+            name: "diff test".into(),
+            nominal_hz: 50.0,
+            sections: vec![Section { id: "main".into() }],
+            ties: vec![],
+            utility: None,
+            generators: vec![],
+            loads: vec![load("a"), load("b"), load("c")],
+            operating_points: vec![],
+            criteria: Criteria::defaults(50.0),
+        }
+    }
+
+    fn stage(id: &str, pickup_hz: f64, sheds: Vec<usize>) -> Stage {
+        Stage {
+            id: id.into(),
+            trigger: StageTrigger::Frequency {
+                pickup_hz,
+                min_rocof_hz_per_s: None,
+            },
+            delay_s: 0.2,
+            breaker_s: 0.08,
+            sheds,
+        }
+    }
+
+    #[test]
+    fn reports_each_kind_of_change() {
+        let p = plant();
+        let old = Scheme {
+            name: "old".into(),
+            measurement: Measurement::default(),
+            stages: vec![
+                stage("uf-1", 49.0, vec![0, 1]),
+                stage("uf-2", 48.8, vec![2]),
+            ],
+        };
+        let mut kept = stage("uf-1", 49.1, vec![0, 2]);
+        kept.delay_s = 0.3;
+        let new = Scheme {
+            name: "new".into(),
+            measurement: Measurement::default(),
+            stages: vec![kept, stage("uf-3", 48.5, vec![1])],
+        };
+        let d = diff(&p, &old, &new);
+        let kinds: Vec<(&str, &str)> = d.iter().map(|c| (c.stage.as_str(), c.what)).collect();
+        assert_eq!(
+            kinds,
+            vec![
+                ("uf-1", "trigger"),
+                ("uf-1", "delay_s"),
+                ("uf-1", "loads"),
+                ("uf-3", "added"),
+                ("uf-2", "removed")
+            ]
+        );
+        assert_eq!(d[0].old, "49.00 Hz");
+        assert_eq!(d[0].new, "49.10 Hz");
+        assert_eq!((d[2].old.as_str(), d[2].new.as_str()), ("−b", "+c"));
+    }
+
+    #[test]
+    fn identical_tables_have_no_difference() {
+        let p = plant();
+        let s = Scheme {
+            name: "s".into(),
+            measurement: Measurement::default(),
+            stages: vec![stage("uf-1", 49.0, vec![0])],
+        };
+        assert!(diff(&p, &s, &s).is_empty());
+    }
+}

@@ -1,0 +1,816 @@
+//! Bad-input tests: one small YAML file per mistake under tests/bad_input/, each checked for the
+//! message fragment, field path and line of every diagnostic it must give, through one helper.
+//!
+//! The file name's prefix says which parser reads it (`plant_`, `cases_`, `scheme_`); cases and
+//! scheme files are read against tests/bad_input/base_plant.yaml. A check fails when a diagnostic
+//! is missing and also when an unexpected one appears.
+
+use nadir::input::{parse_cases, parse_plant, parse_scheme, Diagnostic};
+use nadir::model::Plant;
+use std::path::PathBuf;
+
+fn dir() -> PathBuf {
+    PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("tests/bad_input")
+}
+
+fn read(name: &str) -> String {
+    std::fs::read_to_string(dir().join(name)).unwrap_or_else(|e| panic!("{name}: {e}"))
+}
+
+fn base_plant() -> Plant {
+    match parse_plant(&read("base_plant.yaml"), "base_plant.yaml") {
+        Ok(p) => p,
+        Err(d) => panic!("base plant must be valid: {d:#?}"),
+    }
+}
+
+fn diagnostics(name: &str) -> Vec<Diagnostic> {
+    let text = read(name);
+    let result = if name.starts_with("plant_") {
+        parse_plant(&text, name).map(|_| ())
+    } else if name.starts_with("cases_") {
+        parse_cases(&text, name, &base_plant()).map(|_| ())
+    } else if name.starts_with("scheme_") {
+        parse_scheme(&text, name, &base_plant()).map(|_| ())
+    } else {
+        panic!("{name}: file name must start with plant_, cases_ or scheme_");
+    };
+    match result {
+        Ok(()) => Vec::new(),
+        Err(d) => d,
+    }
+}
+
+/// Every expected `(line, path, fragment)` must match one diagnostic (fragment searched in the
+/// message and help), and every diagnostic must be expected.
+fn check(name: &str, expected: &[(usize, &str, &str)]) {
+    let got = diagnostics(name);
+    let shown: Vec<String> = got.iter().map(|d| d.to_string()).collect();
+    let shown = shown.join("\n");
+    for (line, path, fragment) in expected {
+        let hit = got.iter().any(|d| {
+            d.line == Some(*line)
+                && d.path == *path
+                && (d.message.contains(fragment)
+                    || d.help.as_deref().is_some_and(|h| h.contains(fragment)))
+        });
+        assert!(
+            hit,
+            "{name}: expected a diagnostic at line {line}, path `{path}`, containing \"{fragment}\"; got:\n{shown}"
+        );
+    }
+    assert_eq!(
+        got.len(),
+        expected.len(),
+        "{name}: expected {} diagnostics, got:\n{shown}",
+        expected.len()
+    );
+    for d in &got {
+        assert_eq!(d.file, name);
+        assert!(d.column.is_some(), "{name}: no column in {d}");
+        assert!(
+            !d.message.ends_with('.')
+                && d.message.chars().next().is_some_and(|c| !c.is_uppercase()),
+            "{name}: message style (lower case, no full stop): {}",
+            d.message
+        );
+        assert!(d.help.is_some(), "{name}: no help in {d}");
+    }
+}
+
+// ---------------------------------------------------------------- plant files
+
+#[test]
+fn plant_ten_mistakes_are_all_reported() {
+    check(
+        "plant_ten_mistakes.yaml",
+        &[
+            (7, "ties[0].between", "joins section `north` to itself"),
+            (15, "generators[0].inertia_s", "inertia_s 30 s is implausibly high"),
+            (20, "generators[0].governor.ramp_mw_per_s", "ramp_mw_per_s is not a parameter of model steam"),
+            (22, "generators[1].section", "unknown section `sout`"),
+            (26, "generators[1].governor.droop_pct", "droop_pct must be greater than 0, got 0 %"),
+            (28, "loads[0].rank", "rank of load `pumps` is 0"),
+            (29, "loads[1].id", "duplicate load id `pumps`, first defined at loads[0].id (line 28)"),
+            (30, "loads[2].freq_exp", "freq_exp 12 is implausibly high"),
+            (31, "loads[3].colour", "unknown field `colour`"),
+            (34, "operating_points[0].dispatch.tg", "dispatch 12 MW for generator `tg` at operating point `normal` is outside its range min_mw 0 .. max_mw 10 MW"),
+        ],
+    );
+}
+
+#[test]
+fn plant_unknown_field_names_it_and_the_allowed_ones() {
+    check(
+        "plant_unknown_field.yaml",
+        &[(
+            6,
+            "generators[0].inertia",
+            "unknown field `inertia`, expected one of `id`",
+        )],
+    );
+    let d = diagnostics("plant_unknown_field.yaml");
+    assert_eq!(d[0].column, Some(5), "points at the key");
+    assert!(d[0]
+        .help
+        .as_deref()
+        .unwrap()
+        .contains("did you mean `inertia_s`"));
+}
+
+#[test]
+fn plant_unknown_top_level_field_and_missing_list() {
+    check(
+        "plant_unknown_top_field.yaml",
+        &[
+            (2, "generator", "did you mean `generators`?"),
+            (1, "generators", "missing field `generators`"),
+        ],
+    );
+}
+
+#[test]
+fn plant_type_errors_in_several_items_are_all_reported() {
+    check(
+        "plant_type_errors.yaml",
+        &[
+            (
+                8,
+                "generators[0].governor.model",
+                "unknown variant `steem`, expected one of `steam`",
+            ),
+            (
+                10,
+                "loads[0].p_mw",
+                "invalid type: string \"5 MW\", expected f64",
+            ),
+            (11, "loads[1].rank", "expected u32"),
+            (12, "loads[2].rank", "missing field `rank`"),
+        ],
+    );
+}
+
+#[test]
+fn plant_syntax_error_is_one_diagnostic() {
+    check(
+        "plant_syntax.yaml",
+        &[(5, "", "while scanning a quoted scalar at line 3 column 9")],
+    );
+}
+
+#[test]
+fn plant_unknown_section_lists_the_known_ones() {
+    check(
+        "plant_unknown_section.yaml",
+        &[(
+            5,
+            "generators[0].section",
+            "unknown section `nrth`; known sections: `north`, `south`",
+        )],
+    );
+}
+
+#[test]
+fn plant_duplicate_ids_name_the_first_place() {
+    check(
+        "plant_duplicate_id.yaml",
+        &[(
+            4,
+            "generators[1].id",
+            "duplicate generator id `g1`, first defined at generators[0].id (line 3)",
+        )],
+    );
+    check(
+        "plant_breaker_id_clash.yaml",
+        &[(
+            4,
+            "generators[0].id",
+            "duplicate breaker id `g1`: the utility breaker at utility.breaker (line 2)",
+        )],
+    );
+}
+
+#[test]
+fn plant_zero_negative_and_implausible_machine_values() {
+    check(
+        "plant_machine_values.yaml",
+        &[
+            (
+                6,
+                "generators[0].inertia_s",
+                "inertia_s must be greater than 0, got 0 s",
+            ),
+            (
+                11,
+                "generators[1].rating_mva",
+                "rating_mva must be greater than 0, got -3 MVA",
+            ),
+            (
+                12,
+                "generators[1].inertia_s",
+                "inertia_s 25 s is implausibly high",
+            ),
+            (
+                15,
+                "generators[1].governor.droop_pct",
+                "droop_pct 25 % is implausibly high",
+            ),
+            (
+                21,
+                "generators[2].governor.droop_pct",
+                "droop_pct must be greater than 0, got 0 %",
+            ),
+        ],
+    );
+}
+
+#[test]
+fn plant_implausible_values() {
+    check(
+        "plant_implausible.yaml",
+        &[
+            (
+                1,
+                "plant.nominal_hz",
+                "nominal_hz 55 Hz is not a power-system frequency; allowed: 50 or 60",
+            ),
+            (
+                8,
+                "generators[0].governor.deadband_hz",
+                "allowed: 0 ≤ deadband_hz ≤ 0.5 Hz",
+            ),
+            (
+                8,
+                "generators[0].governor.hp_fraction",
+                "hp_fraction 1.3 is implausibly high",
+            ),
+            (10, "loads[0].p_mw", "p_mw must not be negative, got -5 MW"),
+            (10, "loads[0].rank", "ranks start at 1"),
+            (10, "loads[0].freq_exp", "allowed: -2 ≤ freq_exp ≤ 8"),
+        ],
+    );
+}
+
+#[test]
+fn plant_governor_parameters_belong_to_their_model() {
+    check(
+        "plant_governor_params.yaml",
+        &[
+            (11, "generators[0].governor.reheat_s", "reheat_s is not a parameter of model engine; it takes governor_s, ramp_mw_per_s, droop_pct, deadband_hz, isochronous"),
+            (17, "generators[1].governor.droop_pct", "missing droop_pct for generator `g2` with model gas-turbine"),
+            (23, "generators[2].governor.isochronous", "model fixed has no governor, so it cannot be isochronous"),
+        ],
+    );
+    let d = diagnostics("plant_governor_params.yaml");
+    assert_eq!(d[0].column, Some(7), "points at the reheat_s key");
+}
+
+#[test]
+fn plant_frequency_trips_need_exactly_one_setting() {
+    check(
+        "plant_trip_settings.yaml",
+        &[
+            (
+                10,
+                "generators[0].trips[0]",
+                "this one has below_hz and above_hz",
+            ),
+            (11, "generators[0].trips[1]", "this one has none"),
+            (
+                12,
+                "generators[0].trips[2].below_hz",
+                "below_hz 39 Hz is implausibly low",
+            ),
+            (
+                12,
+                "generators[0].trips[2].after_s",
+                "after_s 90 s is implausibly high",
+            ),
+        ],
+    );
+}
+
+#[test]
+fn plant_dispatch_outside_min_max_in_file_and_operating_point() {
+    check(
+        "plant_dispatch.yaml",
+        &[
+            (
+                7,
+                "generators[0].output_mw",
+                "output_mw 9 MW of generator `g1` is outside its range min_mw 2 .. max_mw 8 MW",
+            ),
+            (
+                16,
+                "operating_points[0].dispatch.g2",
+                "dispatch 1 MW for generator `g2` at operating point `low` is outside its range",
+            ),
+        ],
+    );
+}
+
+#[test]
+fn plant_operating_point_ids_and_utility() {
+    check(
+        "plant_operating_point_ids.yaml",
+        &[
+            (8, "operating_points[0].load_factors.l2", "unknown load `l2`; known loads: `l1`"),
+            (9, "operating_points[0].dispatch.g9", "unknown generator `g9`"),
+            (11, "operating_points[0].import_mw", "sets import_mw but the plant has no utility"),
+            (12, "operating_points[1].id", "duplicate operating point id `a`, first defined at operating_points[0].id (line 7)"),
+            (7, "operating_points[0]", "at operating point `a`, section(s) `main` carry 5 MW of load but have no generator online and no utility connection"),
+        ],
+    );
+}
+
+#[test]
+fn plant_island_without_generator_behind_normally_open_tie() {
+    check(
+        "plant_island_no_generator.yaml",
+        &[(
+            10,
+            "loads[1]",
+            "section(s) `south` carry 2 MW of load but have no generator online",
+        )],
+    );
+}
+
+#[test]
+fn plant_two_isochronous_machines_in_one_island() {
+    check(
+        "plant_two_isochronous.yaml",
+        &[(
+            4,
+            "generators[1].governor.isochronous",
+            "generators `g1`, `g2` are all isochronous in one island at operating point `both`",
+        )],
+    );
+}
+
+#[test]
+fn plant_ties_join_two_different_sections() {
+    check(
+        "plant_ties.yaml",
+        &[
+            (4, "ties[0].between", "tie `t1` joins section `a` to itself"),
+            (
+                5,
+                "ties[1].between",
+                "between lists 3 section(s), expected exactly 2",
+            ),
+        ],
+    );
+}
+
+#[test]
+fn plant_criteria_must_be_in_order() {
+    check(
+        "plant_criteria.yaml",
+        &[
+            (
+                8,
+                "criteria.recover.above_hz",
+                "above_hz 49.5 Hz is at or below min_hz 49.6 Hz",
+            ),
+            (
+                9,
+                "criteria.max_hz",
+                "max_hz 49.9 Hz is at or below nominal 50 Hz",
+            ),
+        ],
+    );
+}
+
+// ---------------------------------------------------------------- cases files
+
+#[test]
+fn cases_only_at_unknown_operating_point() {
+    check(
+        "cases_only_at_unknown.yaml",
+        &[(
+            3,
+            "cases[0].only_at[1]",
+            "unknown operating point `eng_out`; known operating points: `full`, `eng-out`",
+        )],
+    );
+}
+
+#[test]
+fn cases_event_needs_exactly_one_action() {
+    check(
+        "cases_event_actions.yaml",
+        &[
+            (4, "cases[0].events[0]", "this one has open and trip"),
+            (5, "cases[0].events[1]", "this one has none"),
+        ],
+    );
+}
+
+#[test]
+fn cases_event_times_and_durations() {
+    check(
+        "cases_event_times.yaml",
+        &[
+            (
+                5,
+                "cases[0].events[0].at_s",
+                "event at 12 s is not within the case's duration of 10 s",
+            ),
+            (
+                6,
+                "cases[0].events[1].at_s",
+                "at_s must not be negative, got -1 s",
+            ),
+            (
+                8,
+                "cases[1].duration_s",
+                "duration_s must be greater than 0, got 0 s",
+            ),
+            (9, "cases[1].weight", "weight must not be negative, got -1"),
+        ],
+    );
+}
+
+#[test]
+fn cases_open_and_trip_name_the_right_kind_of_breaker() {
+    check(
+        "cases_breakers.yaml",
+        &[
+            (
+                4,
+                "cases[0].events[0].open",
+                "`tg-1` is a generator; open takes the utility breaker or a tie",
+            ),
+            (
+                5,
+                "cases[0].events[1].open",
+                "`pumps` is a load, not a breaker",
+            ),
+            (
+                6,
+                "cases[0].events[2].open",
+                "unknown breaker `tie-sn`; known breakers: `utility`, `tie-ns`",
+            ),
+            (7, "cases[0].events[3].trip", "`tie-ns` is not a generator"),
+            (8, "cases[0].events[4].trip", "unknown generator `tg-2`"),
+        ],
+    );
+}
+
+#[test]
+fn cases_opening_the_utility_when_already_islanded() {
+    check(
+        "cases_islanded_utility.yaml",
+        &[(
+            5,
+            "cases[0].events[0].open",
+            "starts islanded, so the utility breaker `utility` is already open",
+        )],
+    );
+}
+
+#[test]
+fn cases_utility_profile_increasing_and_plausible() {
+    check(
+        "cases_profile.yaml",
+        &[
+            (
+                7,
+                "cases[0].utility_hz[2].at_s",
+                "utility_hz point at 1 s does not come after the previous point at 2 s",
+            ),
+            (
+                8,
+                "cases[0].utility_hz[3].hz",
+                "hz 30 Hz is implausibly low",
+            ),
+        ],
+    );
+}
+
+#[test]
+fn cases_sections_dips_duplicates_and_empty_cases() {
+    check(
+        "cases_sections.yaml",
+        &[
+            (
+                4,
+                "cases[0].events[0].load_step.section",
+                "unknown section `west`",
+            ),
+            (
+                5,
+                "cases[0].events[1].voltage_dip.remaining_pu",
+                "allowed: 0 ≤ remaining_pu ≤ 1 pu",
+            ),
+            (
+                5,
+                "cases[0].events[1].voltage_dip.duration_s",
+                "duration_s must be greater than 0",
+            ),
+            (
+                6,
+                "cases[1].id",
+                "duplicate case id `c1`, first defined at cases[0].id (line 2)",
+            ),
+            (
+                9,
+                "cases[2].events",
+                "case `c3` has no events and no utility_hz profile",
+            ),
+        ],
+    );
+}
+
+#[test]
+fn cases_unknown_fields_in_two_items() {
+    check(
+        "cases_unknown_field.yaml",
+        &[
+            (4, "cases[0].duration", "did you mean `duration_s`?"),
+            (
+                6,
+                "cases[1].events[0].at",
+                "unknown field `at`, expected one of `at_s`",
+            ),
+        ],
+    );
+}
+
+// ---------------------------------------------------------------- scheme files
+
+#[test]
+fn scheme_load_in_two_stages() {
+    check(
+        "scheme_load_two_stages.yaml",
+        &[
+            (3, "stages[1].sheds[0]", "load `hvac` is in stage `uf-2` and already in stage `uf-1` (stages[0].sheds[1], line 2)"),
+            (3, "stages[1].sheds[1]", "load `dryer` is in stage `uf-2` and already in stage `uf-1`"),
+            (3, "stages[1].sheds[2]", "load `dryer` is in stage `uf-2` and already in stage `uf-1`"),
+        ],
+    );
+}
+
+#[test]
+fn scheme_never_shed_load_in_a_stage() {
+    check(
+        "scheme_never_shed.yaml",
+        &[(
+            7,
+            "stages[0].sheds[1]",
+            "load `control-room` is marked never_shed in the plant, but stage `uf-1` sheds it",
+        )],
+    );
+}
+
+#[test]
+fn scheme_pickup_above_nominal_below_generator_trip_and_implausible() {
+    check(
+        "scheme_pickups.yaml",
+        &[
+            (2, "stages[0].pickup_hz", "pickup_hz 50.2 Hz is not below nominal 50 Hz"),
+            (3, "stages[1].pickup_hz", "at or below generator `tg-1`'s own under-frequency trip (generators[0].trips[0]: below 47.5 Hz after 1 s)"),
+            (4, "stages[2].pickup_hz", "pickup_hz 38 Hz is implausibly low"),
+        ],
+    );
+}
+
+#[test]
+fn scheme_stage_trigger_is_pickup_or_armed_by() {
+    check(
+        "scheme_trigger.yaml",
+        &[
+            (
+                2,
+                "stages[0]",
+                "needs exactly one of pickup_hz or armed_by; it has both",
+            ),
+            (3, "stages[1]", "it has neither"),
+            (
+                4,
+                "stages[2].min_rocof_hz_per_s",
+                "min_rocof_hz_per_s applies to under-frequency stages only",
+            ),
+        ],
+    );
+}
+
+#[test]
+fn scheme_armed_by_must_name_a_breaker() {
+    check(
+        "scheme_armed_by.yaml",
+        &[
+            (2, "stages[0].armed_by", "`dryer` is a load, not a breaker"),
+            (3, "stages[1].armed_by", "did you mean `utility`?"),
+        ],
+    );
+}
+
+#[test]
+fn scheme_values_ids_and_sheds() {
+    check(
+        "scheme_values.yaml",
+        &[
+            (
+                1,
+                "measurement.frequency_lag_s",
+                "frequency_lag_s 2 s is implausibly high",
+            ),
+            (3, "stages[0].delay_s", "delay_s 90 s is implausibly high"),
+            (3, "stages[0].breaker_s", "allowed: 0 < breaker_s ≤ 1 s"),
+            (3, "stages[0].sheds", "stage `s1` sheds no load"),
+            (
+                4,
+                "stages[1].id",
+                "duplicate stage id `s1`, first defined at stages[0].id (line 3)",
+            ),
+            (
+                4,
+                "stages[1].min_rocof_hz_per_s",
+                "must be greater than 0, got -1 Hz/s",
+            ),
+            (
+                4,
+                "stages[1].sheds[1]",
+                "unknown load `heater`; known loads: `pumps`, `dryer`, `hvac`, `control-room`",
+            ),
+        ],
+    );
+}
+
+#[test]
+fn scheme_without_stages() {
+    check(
+        "scheme_empty.yaml",
+        &[(2, "stages", "the stages list is empty")],
+    );
+}
+
+#[test]
+fn scheme_type_errors_in_several_stages() {
+    check(
+        "scheme_type_errors.yaml",
+        &[
+            (
+                2,
+                "stages[0].pickup_hz",
+                "invalid type: string \"49.0Hz\", expected f64",
+            ),
+            (3, "stages[1].sheds", "expected a sequence"),
+            (4, "stages[2].delay", "did you mean `delay_s`?"),
+        ],
+    );
+}
+
+// ---------------------------------------------------------------- valid files
+
+#[test]
+fn valid_files_give_no_diagnostics_and_resolve() {
+    use nadir::model::*;
+    let plant = base_plant();
+    assert_eq!(plant.sections.len(), 2);
+    assert_eq!(plant.ties[0].between, [0, 1]);
+    let u = plant.utility.as_ref().unwrap();
+    assert_eq!((u.breaker_id.as_str(), u.section), ("utility", 0));
+    // Defaults: steam time constants, dead band, load frequency exponent.
+    assert_eq!(
+        plant.generators[0].governor.prime_mover,
+        PrimeMover::Steam {
+            governor_s: 0.2,
+            turbine_s: 0.3
+        }
+    );
+    assert_eq!(plant.generators[0].governor.deadband_hz, 0.0);
+    assert_eq!(plant.loads[1].freq_exp, 1.0);
+    assert_eq!(plant.loads[0].freq_exp, 2.0);
+    assert_eq!(plant.generators[1].max_mw, 2.5);
+    // Operating points: eng-out takes eng-1 offline (0 MW) and overrides the import.
+    let op = &plant.operating_points[1];
+    assert_eq!(op.id, "eng-out");
+    assert_eq!(op.online, vec![true, false]);
+    assert_eq!(op.output_mw, vec![6.0, 0.0]);
+    assert_eq!(op.import_mw, 4.0);
+    assert_eq!(plant.operating_points[0].import_mw, 2.0);
+    assert_eq!(op.load_mw, vec![3.0, 2.0, 1.0, 4.0]);
+    assert_eq!(op.ties_open, vec![false]);
+    assert_eq!(plant.criteria, Criteria::defaults(50.0));
+
+    let cases = parse_cases(&read("cases_ok.yaml"), "cases_ok.yaml", &plant).unwrap();
+    let c = &cases.cases[1];
+    assert_eq!(c.applies_to, vec![0]);
+    assert_eq!(c.duration_s, 20.0);
+    assert_eq!(cases.cases[0].duration_s, 30.0);
+    assert_eq!(cases.cases[0].applies_to, vec![0, 1]);
+    assert_eq!(cases.cases[0].weight, 1.0);
+    // Sorted by time: the tie opens at 0 s before the engine trips at 2 s.
+    assert_eq!(c.events[0].action, Action::Open(BreakerRef::Tie(0)));
+    assert_eq!(c.events[1].action, Action::Open(BreakerRef::Generator(1)));
+
+    let scheme = parse_scheme(&read("scheme_ok.yaml"), "scheme_ok.yaml", &plant).unwrap();
+    assert_eq!(scheme.name, "test scheme");
+    assert_eq!(scheme.measurement, Measurement::default());
+    assert_eq!(scheme.stages[0].breaker_s, 0.08);
+    assert_eq!(scheme.stages[1].breaker_s, 0.06);
+    assert_eq!(scheme.stages[0].sheds, vec![1]);
+    assert_eq!(
+        scheme.stages[2].trigger,
+        StageTrigger::Breaker(BreakerRef::Utility)
+    );
+}
+
+#[test]
+fn plant_without_sections_or_operating_points_gets_main_and_normal() {
+    let text = "plant: { name: t, nominal_hz: 60 }\ngenerators:\n  - { id: g, section: main, rating_mva: 5, inertia_s: 2, output_mw: 3, governor: { model: engine, droop_pct: 4 } }\nloads:\n  - { id: l, section: main, p_mw: 3, rank: 1 }\n";
+    let p = parse_plant(text, "inline.yaml").unwrap();
+    assert_eq!(p.sections[0].id, "main");
+    assert_eq!(p.operating_points.len(), 1);
+    assert_eq!(p.operating_points[0].id, "normal");
+    assert_eq!(p.operating_points[0].output_mw, vec![3.0]);
+    // Engine ramp default: 20 % of the 5 MVA rating per second.
+    assert_eq!(
+        p.generators[0].governor.prime_mover,
+        nadir::model::PrimeMover::Engine {
+            governor_s: 0.3,
+            ramp_mw_per_s: 1.0
+        }
+    );
+    assert_eq!(p.criteria.min_hz, 0.95 * 60.0);
+}
+
+#[test]
+fn odd_documents_never_panic() {
+    let plant = base_plant();
+    for text in [
+        "",
+        "---\n",
+        "[1, 2]",
+        "42",
+        "plant: 5",
+        "a: &x [*x]",
+        "cases: {}",
+        "stages: [[[]]]",
+        "\u{0}",
+        "generators: [~]",
+    ] {
+        let a = parse_plant(text, "x.yaml");
+        let b = parse_cases(text, "x.yaml", &plant);
+        let c = parse_scheme(text, "x.yaml", &plant);
+        assert!(a.is_err() && b.is_err() && c.is_err(), "{text:?}");
+        for d in a.err().into_iter().chain(b.err()).chain(c.err()).flatten() {
+            assert!(!d.message.is_empty());
+        }
+    }
+}
+
+#[test]
+fn load_functions_report_io_and_size_limit() {
+    use nadir::input::{load_plant, MAX_FILE_BYTES};
+    use nadir::Error;
+    match load_plant(std::path::Path::new("/nonexistent/plant.yaml")) {
+        Err(Error::Io { path, .. }) => assert_eq!(path, "/nonexistent/plant.yaml"),
+        other => panic!("expected Io, got {other:?}"),
+    }
+    let big = std::env::temp_dir().join(format!("nadir-big-{}.yaml", std::process::id()));
+    std::fs::write(&big, vec![b'#'; MAX_FILE_BYTES as usize + 1]).unwrap();
+    let r = load_plant(&big);
+    let _ = std::fs::remove_file(&big);
+    match r {
+        Err(Error::Input(d)) => assert!(d[0].message.contains("input size limit of 4 MiB")),
+        other => panic!("expected the size limit, got {other:?}"),
+    }
+    let p = load_plant(&dir().join("base_plant.yaml")).unwrap();
+    assert_eq!(p.generators.len(), 2);
+}
+
+#[test]
+fn cases_islanded_start_needs_a_generator_in_every_island() {
+    // North is fed by the utility alone at `north-gen-out`: fine connected, dead once islanded.
+    let plant_text = "\
+plant: { name: t, nominal_hz: 50 }
+sections: [north, south]
+ties: [ { id: tie, between: [north, south], normally_open: true } ]
+utility: { section: north, import_mw: 1 }
+generators:
+  - { id: gn, section: north, rating_mva: 5, inertia_s: 3, output_mw: 2, governor: { model: steam, droop_pct: 5 } }
+  - { id: gs, section: south, rating_mva: 5, inertia_s: 3, output_mw: 2, governor: { model: steam, droop_pct: 5 } }
+loads:
+  - { id: ln, section: north, p_mw: 3, rank: 1 }
+  - { id: ls, section: south, p_mw: 2, rank: 1 }
+operating_points:
+  - id: all-running
+  - id: north-gen-out
+    offline: [gn]
+    import_mw: 3
+";
+    let plant = parse_plant(plant_text, "p.yaml").unwrap();
+    let cases = "cases:\n  - id: c\n    start: islanded\n    events: [ { at_s: 0, trip: gs } ]\n";
+    let d = parse_cases(cases, "c.yaml", &plant).unwrap_err();
+    assert_eq!(d.len(), 1, "{d:?}");
+    assert_eq!((d[0].path.as_str(), d[0].line), ("cases[0].start", Some(3)));
+    assert!(d[0].message.contains(
+        "starts islanded, but at operating point `north-gen-out` section(s) `north` carry 3 MW of load with no generator online"
+    ));
+    // Limited to the point that can run islanded, the same case is accepted.
+    let only = "cases:\n  - id: c\n    start: islanded\n    only_at: [all-running]\n    events: [ { at_s: 0, trip: gs } ]\n";
+    assert!(parse_cases(only, "c.yaml", &plant).is_ok());
+}
