@@ -222,3 +222,17 @@ fn readme_shows_the_real_demo_output() {
         "README.md's pasted output differs from `nadir check` on the demo; paste it again"
     );
 }
+
+/// A file with ten mistakes (tests/bad_input/plant_ten_mistakes.yaml, checked line by line in
+/// tests/bad_input.rs) shows all ten on stderr, each with its file and line, and exits 2.
+#[test]
+fn every_diagnostic_reaches_stderr() {
+    let r = nadir(&["check", "tests/bad_input/plant_ten_mistakes.yaml"]);
+    assert_eq!(r.code, 2);
+    let located = r
+        .stderr
+        .lines()
+        .filter(|l| l.starts_with("tests/bad_input/plant_ten_mistakes.yaml:"))
+        .count();
+    assert_eq!(located, 10, "{}", r.stderr);
+}
