@@ -149,7 +149,8 @@ pub struct StateFigures {
 pub struct IslandResponse {
     pub sections: Vec<String>,
     pub on_utility: bool,
-    /// Load minus generation the moment after the events, MW (positive: shortage).
+    /// Load minus generation the moment after the events, MW (positive: shortage); 0 on the
+    /// utility, which takes up any imbalance.
     pub deficit_mw: f64,
     /// Σ H·S of the machines still running plus Σ H·P of the motor loads still connected.
     pub stored_energy_mws: f64,

@@ -195,17 +195,23 @@ fn cases_table(cases: &[CaseFigures]) -> String {
         }
         if let Some(p) = &c.utility_profile {
             let mut row = head("profile".into());
-            row.extend(["utility".into(), "-".into(), "-".into()]);
-            row.push(format!("-{}", fmt(p.max_fall_hz_per_s, 2)));
-            row.push(fmt(p.min_hz, 3));
+            row.extend([
+                "utility".into(),
+                "-".into(),
+                "-".into(),
+                "-".into(),
+                "-".into(),
+            ]);
             let reached = if p.stages_reached.is_empty() {
                 "no stage reached".to_string()
             } else {
                 format!("stages reached: {}", p.stages_reached.join(", "))
             };
             row.push(format!(
-                "grid minimum at {} s; {reached}",
-                fmt(p.min_at_s, 1)
+                "grid falls to {} Hz at {} s, at up to {} Hz/s; {reached}",
+                fmt(p.min_hz, 2),
+                fmt(p.min_at_s, 1),
+                fmt(p.max_fall_hz_per_s, 2)
             ));
             b.push_record(row);
         }
