@@ -322,7 +322,7 @@ fn stages_table(scheme: &screening::SchemeFigures) -> String {
     finish(b, 2..n)
 }
 
-fn finish(b: Builder, numeric: std::ops::Range<usize>) -> String {
+pub fn finish(b: Builder, numeric: std::ops::Range<usize>) -> String {
     let mut t = b.build();
     t.with(Style::sharp());
     t.modify(Columns::new(numeric), Alignment::right());
@@ -349,7 +349,7 @@ fn join(parts: &[String]) -> String {
 }
 
 /// Fixed decimals, with −0.00 shown as 0.00.
-fn fmt(v: f64, decimals: usize) -> String {
+pub fn fmt(v: f64, decimals: usize) -> String {
     let s = format!("{v:.decimals$}");
     if s.starts_with('-') && s[1..].chars().all(|c| c == '0' || c == '.') {
         s[1..].to_string()

@@ -9,7 +9,10 @@
 //! [`Command`] and one arm to [`run`].
 
 pub mod check;
+pub mod load;
+pub mod replay;
 pub mod schema;
+pub mod verify;
 
 use clap::{Parser, Subcommand};
 
@@ -30,6 +33,10 @@ pub enum Command {
     /// Screening figures: balance, reserve, inertia, deficits, initial ROCOF, steady frequency
     /// and the load each stage sheds.
     Check(check::CheckArgs),
+    /// Replay one case at one operating point: event log, summary, CSV and plot.
+    Replay(replay::ReplayArgs),
+    /// Replay every case at every operating point and judge each run against the criteria.
+    Verify(verify::VerifyArgs),
     /// Write the JSON Schemas of the plant, cases and scheme files.
     Schema(schema::SchemaArgs),
 }
@@ -40,7 +47,6 @@ pub enum Outcome {
     /// Exit code 0.
     Pass,
     /// A criterion or audit rule fails: exit code 1 (used by the verbs that judge criteria).
-    #[allow(dead_code)]
     Fail,
 }
 
@@ -49,6 +55,8 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
     match cli.command {
         Command::Check(args) => check::run(args),
         Command::Schema(args) => schema::run(args),
+        Command::Verify(args) => verify::run(args),
+        Command::Replay(args) => replay::run(args),
     }
 }
 

@@ -174,6 +174,10 @@ pub struct Criteria {
     pub settle_within_s: f64,
     pub settle_low_hz: f64,
     pub settle_high_hz: f64,
+    /// Every case must hold with its disturbance grown by this factor (1.0: no requirement).
+    pub required_disturbance_factor: f64,
+    /// Every case must hold with inertia and load damping this many percent lower (0: none).
+    pub required_model_error_pct: f64,
 }
 
 impl Criteria {
@@ -189,6 +193,8 @@ impl Criteria {
             settle_within_s: 30.0,
             settle_low_hz: 0.99 * nominal_hz,
             settle_high_hz: 1.01 * nominal_hz,
+            required_disturbance_factor: 1.0,
+            required_model_error_pct: 0.0,
         }
     }
 }

@@ -103,6 +103,10 @@ impl StageRelay {
 
     /// Re-evaluate the condition at time `t_s`.
     pub fn update(&mut self, t_s: f64, sig: &Signal) -> Option<StageAction> {
+        // An armed stage answers to its breaker only; frequency never resets its timer.
+        if matches!(self.trigger, StageTrigger::Breaker(_)) {
+            return None;
+        }
         let cond = self.condition(sig);
         match self.state {
             StageState::Idle if cond => {
@@ -209,5 +213,38 @@ mod tests {
         );
         assert_eq!(s.update(1.31, &low_flat), None);
         assert!(s.breaker_done(1.35));
+    }
+
+    #[test]
+    fn an_armed_stage_is_not_reset_by_frequency() {
+        let mut s = StageRelay::new(
+            &Stage {
+                id: "armed".into(),
+                trigger: StageTrigger::Breaker(BreakerRef::Utility),
+                delay_s: 0.1,
+                breaker_s: 0.08,
+                sheds: vec![0],
+            },
+            Some(0),
+        );
+        let nominal = Signal {
+            frequency_hz: 50.0,
+            rocof_hz_per_s: 0.0,
+        };
+        assert_eq!(
+            s.breaker_opened(0.0, BreakerRef::Utility),
+            Some(StageAction::PickedUp { expires_s: 0.1 })
+        );
+        assert_eq!(
+            s.update(0.05, &nominal),
+            None,
+            "a healthy frequency must not reset an armed stage"
+        );
+        assert_eq!(
+            s.delay_expired(0.1, 0.1),
+            Some(StageAction::Commanded {
+                opens_s: 0.1 + 0.08
+            })
+        );
     }
 }

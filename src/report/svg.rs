@@ -90,7 +90,7 @@ pub fn render(plot: &FrequencyPlot) -> String {
     );
 
     // Frequency panel: grid and ticks.
-    for tick in ticks(f_lo, f_hi, 8) {
+    for tick in ticks(f_lo, f_hi, 14) {
         let y = yf(tick);
         let _ = write!(
             s,

@@ -6,3 +6,5 @@
 pub mod audit;
 pub mod criteria;
 pub mod diff;
+pub mod margins;
+pub mod matrix;

@@ -1,0 +1,233 @@
+//! The verification matrix: every case replayed at every operating point it applies to, each row
+//! judged against the plant's criteria, with the stages that operated, cascaded trips and margins.
+//!
+//! Rows are computed in parallel (rayon) and collected in case-then-operating-point order, so the
+//! matrix is the same whatever the number of threads.
+
+use super::criteria::{judge, Failure, Observed};
+use super::margins::{self, Margins};
+use crate::model::{Case, CaseSet, Criteria, Plant, Scheme};
+use crate::sim::{self, EventKind, Run, SimConfig, StopReason};
+use rayon::prelude::*;
+use serde::Serialize;
+
+/// Options of a verification.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct VerifyConfig {
+    pub sim: SimConfig,
+    /// Search the disturbance and model-error margins (about fifteen extra runs per row).
+    pub margins: bool,
+}
+
+impl Default for VerifyConfig {
+    fn default() -> Self {
+        VerifyConfig {
+            sim: SimConfig::default(),
+            margins: true,
+        }
+    }
+}
+
+/// One case at one operating point.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Row {
+    pub case: String,
+    pub operating_point: String,
+    pub case_index: usize,
+    pub operating_point_index: usize,
+    pub pass: bool,
+    pub observed: Observed,
+    pub final_hz: f64,
+    pub shed_mw: f64,
+    /// Shed as a percentage of the plant's load at this operating point.
+    pub shed_pct: f64,
+    /// Stage ids in the order they opened their loads.
+    pub stages_operated: Vec<String>,
+    /// Generators tripped by their own protection.
+    pub cascades: Vec<String>,
+    pub failures: Vec<Failure>,
+    pub margins: Option<Margins>,
+}
+
+/// The whole matrix.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Matrix {
+    pub rows: Vec<Row>,
+}
+
+impl Matrix {
+    /// Every row holds every criterion (and its required margins).
+    pub fn all_pass(&self) -> bool {
+        self.rows.iter().all(|r| r.pass)
+    }
+}
+
+/// Every (case index, operating point index) pair to replay, in matrix order.
+pub fn pairs(cases: &CaseSet) -> Vec<(usize, usize)> {
+    cases
+        .cases
+        .iter()
+        .enumerate()
+        .flat_map(|(ci, c)| c.applies_to.iter().map(move |&op| (ci, op)))
+        .collect()
+}
+
+/// Verify a scheme against every case; `progress` is called once per finished row.
+pub fn verify(
+    plant: &Plant,
+    cases: &CaseSet,
+    scheme: &Scheme,
+    config: &VerifyConfig,
+    progress: &(dyn Fn() + Sync),
+) -> Matrix {
+    let rows = pairs(cases)
+        .par_iter()
+        .map(|&(ci, op)| {
+            let row = verify_one(plant, &cases.cases[ci], ci, op, scheme, config);
+            progress();
+            row
+        })
+        .collect();
+    Matrix { rows }
+}
+
+/// Verify one case at one operating point.
+pub fn verify_one(
+    plant: &Plant,
+    case: &Case,
+    case_index: usize,
+    op: usize,
+    scheme: &Scheme,
+    config: &VerifyConfig,
+) -> Row {
+    let sim_config = sim_config_for(plant, &config.sim);
+    let run = sim::simulate(plant, case, op, scheme, &sim_config);
+    let observed = observe(&run, case, &plant.criteria);
+    let mut failures = judge(&observed, &plant.criteria);
+    let margins = if config.margins {
+        let m = margins::search(plant, case, op, scheme, &sim_config);
+        failures.extend(margins::judge_required(&m, &plant.criteria));
+        Some(m)
+    } else {
+        None
+    };
+    let load_mw: f64 = plant.operating_points[op].load_mw.iter().sum();
+    Row {
+        case: case.id.clone(),
+        operating_point: plant.operating_points[op].id.clone(),
+        case_index,
+        operating_point_index: op,
+        pass: failures.is_empty(),
+        final_hz: run.final_hz,
+        shed_mw: run.shed_mw,
+        shed_pct: if load_mw > 0.0 {
+            100.0 * run.shed_mw / load_mw
+        } else {
+            0.0
+        },
+        stages_operated: stages_operated(&run),
+        cascades: cascades(&run),
+        observed,
+        failures,
+        margins,
+    }
+}
+
+/// The simulator settings a verification needs: the criteria's ROCOF window and recovery level,
+/// and a trace for the settling check.
+pub fn sim_config_for(plant: &Plant, base: &SimConfig) -> SimConfig {
+    SimConfig {
+        rocof_window_s: plant.criteria.rocof_window_s,
+        recover_above_hz: Some(plant.criteria.recover_above_hz),
+        record_trace: true,
+        ..*base
+    }
+}
+
+/// Whether a run holds every criterion (used by the margin searches).
+pub fn passes(plant: &Plant, case: &Case, run: &Run) -> bool {
+    judge(&observe(run, case, &plant.criteria), &plant.criteria).is_empty()
+}
+
+/// Reduce a run to what the criteria look at.
+pub fn observe(run: &Run, case: &Case, criteria: &Criteria) -> Observed {
+    let first_event_s = case.events.first().map(|e| e.at_s).unwrap_or(0.0);
+    let (max_hz, max_at_s) = run.islands.iter().map(|i| (i.peak_hz, i.peak_at_s)).fold(
+        (f64::NEG_INFINITY, 0.0),
+        |best, x| if x.0 > best.0 { x } else { best },
+    );
+    let settle_from = first_event_s + criteria.settle_within_s;
+    let settle_range_hz = run.trace.as_ref().and_then(|trace| {
+        let mut range: Option<(f64, f64)> = None;
+        for (k, &t) in trace.t_s.iter().enumerate() {
+            if t + 1e-9 < settle_from {
+                continue;
+            }
+            for section in &trace.section_hz {
+                let f = section[k];
+                range = Some(match range {
+                    None => (f, f),
+                    Some((lo, hi)) => (lo.min(f), hi.max(f)),
+                });
+            }
+        }
+        range
+    });
+    let abnormal_end = match &run.stop {
+        StopReason::EndTime => None,
+        StopReason::Collapse { island, at_s } => Some(format!(
+            "island {} collapsed at {:.2} s (below the collapse floor)",
+            island + 1,
+            at_s
+        )),
+        StopReason::Blackout { island, at_s } => Some(format!(
+            "island {} lost its last generator at {:.2} s (blackout)",
+            island + 1,
+            at_s
+        )),
+        StopReason::NumericalFault { at_s, detail } => {
+            Some(format!("the simulation stopped at {at_s:.3} s: {detail}"))
+        }
+    };
+    Observed {
+        first_event_s,
+        nadir_hz: run.nadir_hz,
+        nadir_at_s: run.nadir_at_s,
+        max_hz: if max_hz.is_finite() {
+            max_hz
+        } else {
+            run.nadir_hz
+        },
+        max_at_s,
+        max_rocof_hz_per_s: run.max_rocof_hz_per_s,
+        recovered_at_s: run.recovered_above_at_s,
+        settle_range_hz,
+        abnormal_end,
+    }
+}
+
+fn stages_operated(run: &Run) -> Vec<String> {
+    let mut out: Vec<String> = Vec::new();
+    for e in &run.events {
+        if let EventKind::LoadsOpened { stage, .. } = &e.what {
+            if !out.contains(stage) {
+                out.push(stage.clone());
+            }
+        }
+    }
+    out
+}
+
+fn cascades(run: &Run) -> Vec<String> {
+    run.events
+        .iter()
+        .filter_map(|e| match &e.what {
+            EventKind::GeneratorTripped {
+                generator,
+                cascade: true,
+                ..
+            } => Some(generator.clone()),
+            _ => None,
+        })
+        .collect()
+}
