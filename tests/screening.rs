@@ -340,10 +340,16 @@ fn demo_utility_loss_at_full_rate() {
 }
 
 #[test]
-fn demo_utility_loss_in_maintenance_cannot_be_held_without_shedding() {
-    // stg-1 out: import 10.18 MW; headroom (6.8 − 6.5) + (2.0 − 1.8) = 0.5 MW; load relief at
-    // the 0.85·f0 floor 0.15·0.8·55.095 = 6.6114 MW; 7.1114 MW < 10.18 MW.
-    let (plant, cases, _) = demo();
+fn demo_maintenance_at_fuller_load_cannot_be_held_without_shedding() {
+    // The demo cuts throughput to 0.48 in maintenance; here the point is run at 0.8 instead, with
+    // the 10.18 MW import that needs (18.48 MW of load less 8.3 MW generated). Headroom
+    // (6.8 − 6.5) + (2.0 − 1.8) = 0.5 MW; load relief at the 0.85·f0 floor
+    // 0.15·0.8·55.095 = 6.6114 MW; 7.1114 MW < 10.18 MW.
+    let (mut plant, cases, _) = demo();
+    let op = plant.operating_point_index("stg-1-maintenance").unwrap();
+    let full: Vec<f64> = plant.loads.iter().map(|l| l.p_mw * 0.8).collect();
+    plant.operating_points[op].load_mw = full;
+    plant.operating_points[op].import_mw = 10.18;
     let figures = screen_cases(&plant, &cases, None);
     let c = find(&figures, "utility-loss", "stg-1-maintenance");
     let island = &c.after_first.as_ref().unwrap().islands[0];

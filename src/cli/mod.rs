@@ -8,7 +8,9 @@
 //! is the `--help`) and a `run(args) -> anyhow::Result<Outcome>`, then add one variant to
 //! [`Command`] and one arm to [`run`].
 
+pub mod audit;
 pub mod check;
+pub mod compare;
 pub mod load;
 pub mod replay;
 pub mod schema;
@@ -37,6 +39,10 @@ pub enum Command {
     Replay(replay::ReplayArgs),
     /// Replay every case at every operating point and judge each run against the criteria.
     Verify(verify::VerifyArgs),
+    /// The shedding order and every violation of the plant's own rules (no simulation).
+    Audit(audit::AuditArgs),
+    /// What a settings change does: the settings difference and both verifications side by side.
+    Compare(compare::CompareArgs),
     /// Write the JSON Schemas of the plant, cases and scheme files.
     Schema(schema::SchemaArgs),
 }
@@ -57,6 +63,8 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
         Command::Schema(args) => schema::run(args),
         Command::Verify(args) => verify::run(args),
         Command::Replay(args) => replay::run(args),
+        Command::Audit(args) => audit::run(args),
+        Command::Compare(args) => compare::run(args),
     }
 }
 

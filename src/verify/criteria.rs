@@ -10,8 +10,12 @@ use serde::Serialize;
 /// What a run showed, reduced to what the criteria look at.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Observed {
-    /// Time of the case's first event; recovery and settling count from it.
+    /// When the disturbance starts (the first event, or the utility profile leaving nominal);
+    /// settling counts from it.
     pub first_event_s: f64,
+    /// When the last disturbance happens (the last event, or the start for a profile); recovery
+    /// counts from it, so a second trip in a sequence gets its own recovery time.
+    pub last_event_s: f64,
     pub nadir_hz: f64,
     pub nadir_at_s: f64,
     pub max_hz: f64,
@@ -82,7 +86,7 @@ pub fn judge(seen: &Observed, c: &Criteria) -> Vec<Failure> {
             excess: seen.max_rocof_hz_per_s - c.max_rocof_hz_per_s,
         });
     }
-    let deadline = seen.first_event_s + c.recover_within_s;
+    let deadline = seen.last_event_s + c.recover_within_s;
     match seen.recovered_at_s {
         Some(t) if t <= deadline => {}
         Some(t) => out.push(Failure {
@@ -150,6 +154,7 @@ mod tests {
     fn healthy() -> Observed {
         Observed {
             first_event_s: 1.0,
+            last_event_s: 1.0,
             nadir_hz: 48.6,
             nadir_at_s: 2.1,
             max_hz: 50.1,

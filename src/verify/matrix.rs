@@ -151,7 +151,7 @@ pub fn passes(plant: &Plant, case: &Case, run: &Run) -> bool {
 
 /// Reduce a run to what the criteria look at.
 pub fn observe(run: &Run, case: &Case, criteria: &Criteria) -> Observed {
-    let first_event_s = case.events.first().map(|e| e.at_s).unwrap_or(0.0);
+    let (first_event_s, last_event_s) = disturbance_span(case);
     let (max_hz, max_at_s) = run.islands.iter().map(|i| (i.peak_hz, i.peak_at_s)).fold(
         (f64::NEG_INFINITY, 0.0),
         |best, x| if x.0 > best.0 { x } else { best },
@@ -191,6 +191,7 @@ pub fn observe(run: &Run, case: &Case, criteria: &Criteria) -> Observed {
     };
     Observed {
         first_event_s,
+        last_event_s,
         nadir_hz: run.nadir_hz,
         nadir_at_s: run.nadir_at_s,
         max_hz: if max_hz.is_finite() {
@@ -204,6 +205,23 @@ pub fn observe(run: &Run, case: &Case, criteria: &Criteria) -> Observed {
         settle_range_hz,
         abnormal_end,
     }
+}
+
+/// When the disturbance starts and when its last part happens: the case's events, and for a
+/// utility frequency profile the moment it first leaves nominal.
+fn disturbance_span(case: &Case) -> (f64, f64) {
+    let profile_start = case
+        .utility_profile
+        .windows(2)
+        .find(|w| w[1].1 != w[0].1)
+        .map(|w| w[0].0);
+    let first = case.events.first().map(|e| e.at_s);
+    let last = case.events.last().map(|e| e.at_s);
+    let start = match (first, profile_start) {
+        (Some(a), Some(b)) => a.min(b),
+        (a, b) => a.or(b).unwrap_or(0.0),
+    };
+    (start, last.unwrap_or(start).max(start))
 }
 
 fn stages_operated(run: &Run) -> Vec<String> {

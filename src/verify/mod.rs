@@ -4,6 +4,7 @@
 //! A failed criterion or a broken rule is a value in the result, never an error.
 
 pub mod audit;
+pub mod compare;
 pub mod criteria;
 pub mod diff;
 pub mod margins;

@@ -1,0 +1,130 @@
+//! `nadir compare`: the settings difference between two tables and, side by side, the
+//! verification of both; exit 1 when the new table fails a case the old one held.
+
+use super::check::{finish, fmt};
+use super::verify::{margin_cell, progress_bar, CAUTION};
+use super::{load, Outcome};
+use nadir::verify::compare::{self, Change};
+use nadir::verify::matrix::{self, VerifyConfig};
+use std::path::PathBuf;
+use tabled::builder::Builder;
+
+/// Show what a settings change does.
+#[derive(Debug, clap::Args)]
+pub struct CompareArgs {
+    /// Plant file (YAML).
+    #[arg(value_name = "PLANT")]
+    pub plant: PathBuf,
+    /// The table in service (YAML).
+    #[arg(value_name = "OLD_SCHEME")]
+    pub old: PathBuf,
+    /// The proposed table (YAML).
+    #[arg(value_name = "NEW_SCHEME")]
+    pub new: PathBuf,
+    /// Cases file (YAML).
+    #[arg(long, value_name = "CASES")]
+    pub cases: PathBuf,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = super::check::Format::Table)]
+    pub format: super::check::Format,
+    /// Skip the margin searches.
+    #[arg(long)]
+    pub no_margins: bool,
+}
+
+pub fn run(args: CompareArgs) -> anyhow::Result<Outcome> {
+    let plant = load::plant(&args.plant)?;
+    let cases = load::cases(&args.cases, &plant)?;
+    let old = load::scheme(&args.old, &plant)?;
+    let new = load::scheme(&args.new, &plant)?;
+    let config = VerifyConfig {
+        margins: !args.no_margins,
+        ..VerifyConfig::default()
+    };
+    let bar = progress_bar(2 * matrix::pairs(&cases).len() as u64);
+    let c = compare::compare(&plant, &cases, &old, &new, &config, &|| bar.inc(1));
+    bar.finish_and_clear();
+    let text = match args.format {
+        super::check::Format::Json => serde_json::to_string_pretty(&c)? + "\n",
+        super::check::Format::Table => render(&c, &old.name, &new.name),
+    };
+    super::write_stdout(&text)?;
+    Ok(if c.has_regression() {
+        Outcome::Fail
+    } else {
+        Outcome::Pass
+    })
+}
+
+fn render(c: &compare::Comparison, old: &str, new: &str) -> String {
+    let mut out = format!("Settings changed from {old} to {new}\n");
+    if c.settings.is_empty() {
+        out.push_str("  (no setting differs)\n");
+    } else {
+        let mut b = Builder::default();
+        b.push_record(["stage", "setting", "old", "new"]);
+        for s in &c.settings {
+            b.push_record([
+                s.stage.clone(),
+                s.what.to_string(),
+                s.old.clone(),
+                s.new.clone(),
+            ]);
+        }
+        out.push_str(&finish(b, 0..0));
+        out.push('\n');
+    }
+    out.push_str("\nVerification, old → new\n");
+    let mut b = Builder::default();
+    b.push_record([
+        "case",
+        "point",
+        "outcome",
+        "nadir Hz old → new",
+        "Δ nadir Hz",
+        "shed MW old → new",
+        "disturbance × old → new",
+        "new failure",
+    ]);
+    for (o, n, change) in c.pairs() {
+        let outcome = match change {
+            Change::StillHolds => "holds",
+            Change::StillFails => "still fails",
+            Change::NowFails => "NOW FAILS",
+            Change::NowHolds => "now holds",
+        };
+        let dist = |r: &matrix::Row| {
+            r.margins
+                .map(|m| margin_cell(&m.disturbance_factor, "×"))
+                .unwrap_or("-".into())
+        };
+        b.push_record([
+            n.case.clone(),
+            n.operating_point.clone(),
+            outcome.to_string(),
+            format!(
+                "{} → {}",
+                fmt(o.observed.nadir_hz, 2),
+                fmt(n.observed.nadir_hz, 2)
+            ),
+            fmt(n.observed.nadir_hz - o.observed.nadir_hz, 3),
+            format!("{} → {}", fmt(o.shed_mw, 2), fmt(n.shed_mw, 2)),
+            format!("{} → {}", dist(o), dist(n)),
+            n.failures
+                .iter()
+                .map(|f| f.message.as_str())
+                .collect::<Vec<_>>()
+                .join("; "),
+        ]);
+    }
+    out.push_str(&finish(b, 4..5));
+    let regressions = c.pairs().filter(|p| p.2 == Change::NowFails).count();
+    out.push_str(&if regressions == 0 {
+        "\nThe new table holds every case the old one held.\n".to_string()
+    } else {
+        format!("\nThe new table FAILS {regressions} case(s) the old one held.\n")
+    });
+    out.push_str(CAUTION);
+    out.push('\n');
+    out
+}
