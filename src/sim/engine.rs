@@ -1000,11 +1000,13 @@ impl<'a> Engine<'a> {
             if alive_sections.iter().any(|s| rec.ends_below(*s)) || alive_sections.is_empty() {
                 None
             } else {
+                // The last upward crossing of any section; a run that never went below the
+                // level has recovered from the start.
                 Some(
                     alive_sections
                         .iter()
                         .filter_map(|s| rec.last_up_s[*s])
-                        .fold(nadir_at_s, f64::max),
+                        .fold(0.0, f64::max),
                 )
             };
         let max_rocof_hz_per_s = (0..self.eq.n_sections)
