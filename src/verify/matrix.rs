@@ -6,6 +6,7 @@
 
 use super::criteria::{judge, Failure, Observed};
 use super::margins::{self, Margins};
+use super::offnominal::{band_times, default_bands, BandTime};
 use crate::model::{Case, CaseSet, Criteria, Plant, Scheme};
 use crate::sim::{self, EventKind, Run, SimConfig, StopReason};
 use rayon::prelude::*;
@@ -47,6 +48,8 @@ pub struct Row {
     pub cascades: Vec<String>,
     pub failures: Vec<Failure>,
     pub margins: Option<Margins>,
+    /// Time each running generator spent in each abnormal frequency band.
+    pub off_nominal: Vec<BandTime>,
 }
 
 /// The whole matrix.
@@ -104,6 +107,29 @@ pub fn verify_one(
     let run = sim::simulate(plant, case, op, scheme, &sim_config);
     let observed = observe(&run, case, &plant.criteria);
     let mut failures = judge(&observed, &plant.criteria);
+    let off_nominal = band_times(plant, op, &run, &default_bands(plant.nominal_hz));
+    for b in off_nominal.iter().filter(|b| b.exceeded()) {
+        failures.push(Failure {
+            criterion: "off_nominal",
+            message: format!(
+                "{} spent {:.2} s at {}–{} Hz, longer than its {:.0} s limit",
+                b.generator,
+                b.time_s,
+                if b.band.low_hz > 0.0 {
+                    format!("{:.2}", b.band.low_hz)
+                } else {
+                    "0".into()
+                },
+                if b.band.high_hz.is_finite() {
+                    format!("{:.2}", b.band.high_hz)
+                } else {
+                    "∞".into()
+                },
+                b.band.max_s
+            ),
+            excess: b.time_s - b.band.max_s,
+        });
+    }
     let margins = if config.margins {
         let m = margins::search(plant, case, op, scheme, &sim_config);
         failures.extend(margins::judge_required(&m, &plant.criteria));
@@ -130,6 +156,7 @@ pub fn verify_one(
         observed,
         failures,
         margins,
+        off_nominal,
     }
 }
 

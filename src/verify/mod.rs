@@ -9,3 +9,4 @@ pub mod criteria;
 pub mod diff;
 pub mod margins;
 pub mod matrix;
+pub mod offnominal;
