@@ -103,6 +103,10 @@ impl StageRelay {
 
     /// Re-evaluate the condition at time `t_s`.
     pub fn update(&mut self, t_s: f64, sig: &Signal) -> Option<StageAction> {
+        // An armed stage's timer runs from its breaker opening, not from a measured condition.
+        if matches!(self.trigger, StageTrigger::Breaker(_)) {
+            return None;
+        }
         let cond = self.condition(sig);
         match self.state {
             StageState::Idle if cond => {
@@ -209,5 +213,32 @@ mod tests {
         );
         assert_eq!(s.update(1.31, &low_flat), None);
         assert!(s.breaker_done(1.35));
+    }
+
+    #[test]
+    fn armed_stage_is_not_reset_by_the_measurement() {
+        let mut s = StageRelay::new(
+            &Stage {
+                id: "armed".into(),
+                trigger: StageTrigger::Breaker(BreakerRef::Utility),
+                delay_s: 0.25,
+                breaker_s: 0.5,
+                sheds: vec![0],
+            },
+            Some(0),
+        );
+        let nominal = Signal {
+            frequency_hz: 50.0,
+            rocof_hz_per_s: 0.0,
+        };
+        assert_eq!(
+            s.breaker_opened(1.0, BreakerRef::Utility),
+            Some(StageAction::PickedUp { expires_s: 1.25 })
+        );
+        assert_eq!(s.update(1.01, &nominal), None);
+        assert_eq!(
+            s.delay_expired(1.25, 1.25),
+            Some(StageAction::Commanded { opens_s: 1.75 })
+        );
     }
 }

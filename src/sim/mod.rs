@@ -218,3 +218,11 @@ pub fn simulate(
 ) -> Run {
     engine::run(plant, case, operating_point, scheme, config)
 }
+
+/// Machine outputs (MW, by generator; 0 when offline) that a replay of `case` at
+/// `operating_point` starts from: the operating point's dispatch, and for an island separated at
+/// t = 0 its imbalance taken up as [`crate::screening`] does (isochronous machines first, then
+/// droop machines in proportion to S/R, each within its limits).
+pub fn initial_dispatch_mw(plant: &Plant, case: &Case, operating_point: usize) -> Vec<f64> {
+    engine::initial_outputs(plant, case, operating_point)
+}
