@@ -5,22 +5,31 @@
 //! crossing, whichever comes first. The solver is restarted after every discrete change.
 
 use super::event::{Event, Queue};
-use super::integrate::{integrate, StateGuard, StepOptions};
+use super::integrate::{integrate, Band, StateGuard, StepOptions};
 use super::record::Recorder;
 use super::rhs::{
     measured_index, rocof_index, speed_index, Conditions, IslandMode, LoadUnit, Machine,
-    PlantEquations,
+    PlantEquations, SegmentEquations,
 };
 use super::{
     Cause, EventKind, IslandEnd, IslandSummary, LoggedEvent, Run, SimConfig, StopReason, Trace,
 };
 use crate::dynamics::governor::Governor;
 use crate::model::{Action, BreakerRef, Case, Plant, Scheme, Start};
-use crate::relay::protection::{Element, ElementAction};
-use crate::relay::stage::{StageAction, StageRelay};
+use crate::relay::protection::{Element, ElementAction, ElementState};
+use crate::relay::stage::{StageAction, StageRelay, StageState};
 use crate::relay::{Guard, Quantity, Signal};
 use crate::topology::{self, BreakerState, Island};
-use ode_solvers::DVector;
+
+/// A frequency level counts as near within this distance (Hz); the relaxed step cap needs twice
+/// it at the start of a segment and ends when the state comes within it.
+const NEAR_HZ: f64 = 0.1;
+/// The same for a ROCOF level (Hz/s).
+const NEAR_HZ_PER_S: f64 = 0.25;
+/// While the tight cap is on, the loop looks again this often (s) whether it may be relaxed.
+const RECHECK_S: f64 = 0.25;
+/// Frequency changing faster than this (Hz/s) keeps the tight cap.
+const QUIET_RATE_HZ_PER_S: f64 = 0.5;
 
 pub fn run(plant: &Plant, case: &Case, op: usize, scheme: &Scheme, cfg: &SimConfig) -> Run {
     let mut e = Engine::new(plant, case, op, scheme, cfg);
@@ -67,8 +76,10 @@ struct Engine<'a> {
     dips: Vec<Dip>,
     shed_mw: f64,
     t: f64,
-    y: DVector<f64>,
+    y: Vec<f64>,
     rec: Recorder,
+    /// Tight step cap: the configured one, below half the shortest relay time.
+    tight_step_s: f64,
     first_failure: Option<StopReason>,
     fault: Option<StopReason>,
 }
@@ -84,52 +95,8 @@ impl<'a> Engine<'a> {
         let f0 = plant.nominal_hz;
         let op = &plant.operating_points[op_idx];
         let n_sec = plant.sections.len();
-        let utility_closed = case.start == Start::Connected && plant.utility.is_some();
-        let breakers = BreakerState::initial(plant, op_idx, utility_closed);
-        let islands = topology::islands(plant, &breakers);
-        let load_on: Vec<bool> = (0..plant.loads.len())
-            .map(|l| op.load_mw.get(l).copied().unwrap_or(0.0) > 0.0)
-            .collect();
-        let machine_on: Vec<bool> = (0..plant.generators.len())
-            .map(|g| op.online.get(g).copied().unwrap_or(false))
-            .collect();
-        let mut p_ref: Vec<f64> = (0..plant.generators.len())
-            .map(|g| {
-                if machine_on[g] {
-                    op.output_mw.get(g).copied().unwrap_or(0.0)
-                } else {
-                    0.0
-                }
-            })
-            .collect();
-        let mut events = Vec::new();
-        // Separated islands start in steady state: their imbalance is carried by governed machines.
-        for (i, isl) in islands.iter().enumerate() {
-            if isl.on_utility {
-                continue;
-            }
-            let load: f64 = plant
-                .loads
-                .iter()
-                .enumerate()
-                .filter(|(l, ld)| load_on[*l] && isl.contains(ld.section))
-                .map(|(l, _)| op.load_mw[l])
-                .sum();
-            let gens: Vec<usize> = (0..plant.generators.len())
-                .filter(|g| machine_on[*g] && isl.contains(plant.generators[*g].section))
-                .collect();
-            let gen: f64 = gens.iter().map(|g| p_ref[*g]).sum();
-            let remainder = redistribute(plant, &gens, &mut p_ref, load - gen);
-            if remainder.abs() > 1e-9 && !gens.is_empty() {
-                events.push(LoggedEvent {
-                    at_s: 0.0,
-                    what: EventKind::InitialDeficit {
-                        island: i,
-                        mw: remainder,
-                    },
-                });
-            }
-        }
+        let (breakers, islands, load_on, machine_on) = start_state(plant, case, op_idx);
+        let (p_ref, events) = initial_dispatch(plant, op_idx, &islands, &load_on, &machine_on);
         let mut offset = 3 * n_sec;
         let machines: Vec<Machine> = plant
             .generators
@@ -237,8 +204,9 @@ impl<'a> Engine<'a> {
             dips: vec![],
             shed_mw: 0.0,
             t: 0.0,
-            y: DVector::zeros(offset),
+            y: vec![0.0; offset],
             rec: Recorder::new(f0, n_sec, cfg.sample_interval_s.max(1e-4), recover),
+            tight_step_s: tight_step(plant, scheme, cfg.max_step_s.max(1e-4)),
             first_failure: None,
             fault: None,
         };
@@ -256,11 +224,10 @@ impl<'a> Engine<'a> {
         for m in &e.eq.machines {
             let n = m.governor.n_states();
             let dw = e.y[speed_index(m.section)];
-            m.governor
-                .init(dw, &mut e.y.as_mut_slice()[m.offset..m.offset + n]);
+            m.governor.init(dw, &mut e.y[m.offset..m.offset + n]);
         }
         e.check_blackout();
-        e.rec.start(&e.y, 0.0);
+        e.rec.start(&e.y);
         e
     }
 
@@ -269,12 +236,8 @@ impl<'a> Engine<'a> {
     }
 
     fn execute(&mut self) {
-        let opt = StepOptions {
-            max_step_s: self.cfg.max_step_s.max(1e-4),
-            rtol: self.cfg.rtol,
-            atol: self.cfg.atol,
-        };
         self.evaluate_relays();
+        let mut dy = vec![0.0; self.y.len()];
         loop {
             while let Some((at, ev)) = self.queue.pop_due(self.t) {
                 self.handle(at, ev);
@@ -296,14 +259,35 @@ impl<'a> Engine<'a> {
             if self.t >= self.t_end {
                 return;
             }
-            let t_next = self
+            let mut t_next = self
                 .queue
                 .next_time()
                 .map_or(self.t_end, |tq| tq.min(self.t_end));
             self.refresh_modes();
-            let guards = self.guards();
-            let seg = match integrate(&self.eq, &self.cond, self.t, &self.y, t_next, &guards, &opt)
-            {
+            let seq = SegmentEquations::new(&self.eq, &self.cond);
+            seq.derivatives(&self.y, &mut dy);
+            let guards = self.guards_for(false);
+            let watched = self.guards_for(true);
+            let quiet = self.is_quiet(&watched, &dy);
+            if !quiet && self.cfg.quiet_max_step_s > self.tight_step_s {
+                // Look again soon whether the relaxed cap may be used.
+                t_next = t_next.min(self.t + RECHECK_S);
+            }
+            let opt = StepOptions {
+                max_step_s: if quiet {
+                    self.cfg.quiet_max_step_s.max(self.tight_step_s)
+                } else {
+                    self.tight_step_s
+                },
+                rtol: self.cfg.rtol,
+                atol: self.cfg.atol,
+            };
+            let bands = if quiet {
+                self.bands(&watched)
+            } else {
+                Vec::new()
+            };
+            let seg = match integrate(&seq, self.t, &self.y, t_next, &guards, &bands, &opt) {
                 Ok(s) => s,
                 Err(detail) => {
                     self.fault = Some(StopReason::NumericalFault {
@@ -320,13 +304,13 @@ impl<'a> Engine<'a> {
                 .flatten()
             {
                 Some(tc) => (tc, true),
-                None if seg.guard_hit => (last_t, false),
+                None if seg.guard_hit || seg.band_left => (last_t, false),
                 None => (t_next, false),
             };
             let y_stop = if crossed {
                 seg.at(t_stop)
             } else {
-                seg.states[seg.states.len() - 1].clone()
+                seg.last_state().to_vec()
             };
             if y_stop.iter().any(|v| !v.is_finite()) {
                 self.fault = Some(StopReason::NumericalFault {
@@ -335,8 +319,16 @@ impl<'a> Engine<'a> {
                 });
                 return;
             }
+            if crossed {
+                seq.derivatives(&y_stop, &mut dy);
+            } else {
+                dy.copy_from_slice(seg.slope(seg.n_points() - 1));
+            }
+            let frozen: Vec<bool> = (0..self.eq.n_sections)
+                .map(|s| self.cond.modes[self.cond.island_of_section[s]] == IslandMode::Frozen)
+                .collect();
             self.rec
-                .segment(&seg, &self.eq, &self.cond, t_stop, &y_stop, self.shed_mw);
+                .segment(seg, &frozen, t_stop, &y_stop, &dy, self.shed_mw);
             self.t = t_stop;
             self.y = y_stop;
             if crossed {
@@ -351,6 +343,79 @@ impl<'a> Engine<'a> {
                 }
             }
         }
+    }
+
+    /// Nothing pending: no relay timing, every watched level at least twice its near distance
+    /// away, and every separated island's frequency changing slowly (`dy` is dy/dt now).
+    fn is_quiet(&self, guards: &[StateGuard], dy: &[f64]) -> bool {
+        let timing = self.stages.iter().any(|s| {
+            matches!(
+                s.state,
+                StageState::PickedUp { .. } | StageState::Commanded { .. }
+            )
+        }) || self.gen_elems.iter().enumerate().any(|(g, els)| {
+            self.cond.machine_on[g]
+                && !self.frozen[self.plant.generators[g].section]
+                && els
+                    .iter()
+                    .any(|e| matches!(e.state, ElementState::Timing { .. }))
+        }) || (self.breakers.utility_closed
+            && self
+                .iface
+                .iter()
+                .any(|e| matches!(e.state, ElementState::Timing { .. })));
+        if timing {
+            return false;
+        }
+        let fast = self.islands.iter().any(|isl| {
+            let s0 = isl.sections[0];
+            !isl.on_utility
+                && !self.frozen[s0]
+                && (dy[speed_index(s0)] * self.f0).abs() > QUIET_RATE_HZ_PER_S
+        });
+        if fast {
+            return false;
+        }
+        guards
+            .iter()
+            .all(|g| (self.y[g.index] - g.level).abs() > 2.0 * self.near_pu(g))
+    }
+
+    /// Near distance of a guard in its component's units (pu or pu/s).
+    fn near_pu(&self, g: &StateGuard) -> f64 {
+        let is_rocof = (0..self.eq.n_sections).any(|s| rocof_index(s) == g.index);
+        if is_rocof {
+            NEAR_HZ_PER_S / self.f0
+        } else {
+            NEAR_HZ / self.f0
+        }
+    }
+
+    /// For a quiet segment: each watched component must stay farther than its near distance
+    /// from every level on the side it is on now.
+    fn bands(&self, guards: &[StateGuard]) -> Vec<Band> {
+        let mut out: Vec<Band> = Vec::new();
+        for g in guards {
+            let near = self.near_pu(g);
+            let v = self.y[g.index];
+            let (lo, hi) = if v >= g.level {
+                (g.level + near, f64::INFINITY)
+            } else {
+                (f64::NEG_INFINITY, g.level - near)
+            };
+            match out.iter_mut().find(|b| b.index == g.index) {
+                Some(b) => {
+                    b.lo = b.lo.max(lo);
+                    b.hi = b.hi.min(hi);
+                }
+                None => out.push(Band {
+                    index: g.index,
+                    lo,
+                    hi,
+                }),
+            }
+        }
+        out
     }
 
     /// Every discrete change of a run passes through this match.
@@ -609,8 +674,12 @@ impl<'a> Engine<'a> {
             if self.frozen[s] {
                 continue;
             }
+            let action = self.stages[i].update(self.t, &sig[s]);
+            if action.is_none() {
+                continue;
+            }
             let stage = self.scheme.stages[i].id.clone();
-            match self.stages[i].update(self.t, &sig[s]) {
+            match action {
                 Some(StageAction::PickedUp { expires_s }) => {
                     self.log(EventKind::StagePickup { stage });
                     self.queue.push(
@@ -632,6 +701,9 @@ impl<'a> Engine<'a> {
             }
             for j in 0..self.gen_elems[g].len() {
                 let action = self.gen_elems[g][j].update(self.t, &sig[s]);
+                if action.is_none() {
+                    continue;
+                }
                 let element = format!(
                     "{} {}",
                     self.plant.generators[g].id,
@@ -658,6 +730,9 @@ impl<'a> Engine<'a> {
             for j in 0..self.iface.len() {
                 let s = self.iface[j].section;
                 let action = self.iface[j].update(self.t, &sig[s]);
+                if action.is_none() {
+                    continue;
+                }
                 let element = format!("interface {}", self.iface[j].describe());
                 match action {
                     Some(ElementAction::Started { expires_s }) => {
@@ -842,11 +917,24 @@ impl<'a> Engine<'a> {
         0.0
     }
 
-    fn guards(&self) -> Vec<StateGuard> {
+    /// Every level whose crossing may change a relay or the collapse state. With `for_quiet`,
+    /// the list that decides the relaxed cap: a df/dt-supervised stage whose measured df/dt is
+    /// far on the blocking side cannot pick up before that df/dt crosses its level, so only the
+    /// df/dt level of such a stage is watched.
+    fn guards_for(&self, for_quiet: bool) -> Vec<StateGuard> {
         let mut rg: Vec<Guard> = Vec::new();
         for st in &self.stages {
-            if st.section.is_some_and(|s| !self.frozen[s]) {
-                st.guards(&mut rg);
+            if !st.section.is_some_and(|s| !self.frozen[s]) {
+                continue;
+            }
+            let start = rg.len();
+            st.guards(&mut rg);
+            if for_quiet && rg.len() == start + 2 && rg[start + 1].quantity == Quantity::Rocof {
+                let rocof = &rg[start + 1];
+                let measured_hz_per_s = self.f0 * self.y[rocof_index(rocof.section)];
+                if measured_hz_per_s - rocof.level > 2.0 * NEAR_HZ_PER_S {
+                    rg.remove(start);
+                }
             }
         }
         for (g, els) in self.gen_elems.iter().enumerate() {
@@ -886,26 +974,7 @@ impl<'a> Engine<'a> {
         let rec = &self.rec;
         let t_end = self.t;
         let window = self.cfg.rocof_window_s.max(rec.sample_interval_s);
-        let windowed = |s: usize, from: f64, to: f64| -> f64 {
-            let f = &rec.section_hz[s];
-            let w = window / rec.sample_interval_s;
-            let mut best: f64 = 0.0;
-            for (i, &t) in rec.t_samples.iter().enumerate() {
-                if t < window - 1e-12 || t <= from || t > to + 1e-12 {
-                    continue;
-                }
-                let p = (i as f64 - w).max(0.0);
-                let lo = p.floor() as usize;
-                let frac = p - lo as f64;
-                let back = if lo + 1 < f.len() {
-                    f[lo] * (1.0 - frac) + f[lo + 1] * frac
-                } else {
-                    f[lo]
-                };
-                best = best.max(((f[i] - back) / window).abs());
-            }
-            best
-        };
+        let mut samples = rec.samples(t_end);
         let mut islands = Vec::with_capacity(self.records.len());
         for (r, isl) in self.records.iter().enumerate() {
             let to = isl.to_s.unwrap_or(t_end);
@@ -945,7 +1014,7 @@ impl<'a> Engine<'a> {
                 peak_hz: peak.1,
                 peak_at_s: peak.0,
                 final_hz,
-                max_rocof_hz_per_s: windowed(s0, isl.from_s, to),
+                max_rocof_hz_per_s: samples.windowed_rocof(s0, window, isl.from_s, to),
                 shed_mw: isl.shed_mw,
                 end: isl.end,
             });
@@ -1010,7 +1079,7 @@ impl<'a> Engine<'a> {
                 )
             };
         let max_rocof_hz_per_s = (0..self.eq.n_sections)
-            .map(|s| windowed(s, f64::NEG_INFINITY, t_end))
+            .map(|s| samples.windowed_rocof(s, window, f64::NEG_INFINITY, t_end))
             .fold(0.0, f64::max);
         let stop = self
             .fault
@@ -1018,9 +1087,11 @@ impl<'a> Engine<'a> {
             .or_else(|| self.first_failure.clone())
             .unwrap_or(StopReason::EndTime);
         let trace = self.cfg.record_trace.then(|| Trace {
-            t_s: rec.t_samples.clone(),
-            section_hz: rec.section_hz.clone(),
-            shed_mw: rec.shed_samples.clone(),
+            t_s: (0..samples.len).map(|k| samples.time(k)).collect(),
+            section_hz: (0..self.eq.n_sections)
+                .map(|s| (0..samples.len).map(|k| samples.hz(s, k)).collect())
+                .collect(),
+            shed_mw: (0..samples.len).map(|k| samples.shed_mw(k)).collect(),
         });
         Run {
             stop,
@@ -1039,34 +1110,164 @@ impl<'a> Engine<'a> {
     }
 }
 
-/// Share an imbalance (positive: more load than dispatch) over governed machines in proportion to
-/// rating within their limits; returns what could not be carried.
-fn redistribute(plant: &Plant, gens: &[usize], p_ref: &mut [f64], mut imbalance: f64) -> f64 {
-    let governed: Vec<usize> = gens
+/// The tight step cap: the configured one, and below half the shortest stage delay, stage
+/// breaker time or protection time of the run so that no relay sequence fits inside one step.
+fn tight_step(plant: &Plant, scheme: &Scheme, configured_s: f64) -> f64 {
+    let stage_times = scheme.stages.iter().flat_map(|s| [s.delay_s, s.breaker_s]);
+    let trip_time = |t: &crate::model::FrequencyTrip| match *t {
+        crate::model::FrequencyTrip::Under { after_s, .. }
+        | crate::model::FrequencyTrip::Over { after_s, .. }
+        | crate::model::FrequencyTrip::Rocof { after_s, .. } => after_s,
+    };
+    let trips = plant
+        .generators
+        .iter()
+        .flat_map(|g| g.trips.iter().map(trip_time))
+        .chain(
+            plant
+                .utility
+                .iter()
+                .flat_map(|u| u.interface_trips.iter().map(trip_time)),
+        );
+    stage_times
+        .chain(trips)
+        .filter(|t| *t > 0.0)
+        .map(|t| 0.5 * t)
+        .fold(configured_s, f64::min)
+        .max(1e-4)
+}
+
+/// Breakers, islands, connected loads and running machines at t = 0.
+fn start_state(
+    plant: &Plant,
+    case: &Case,
+    op_idx: usize,
+) -> (BreakerState, Vec<Island>, Vec<bool>, Vec<bool>) {
+    let op = &plant.operating_points[op_idx];
+    let utility_closed = case.start == Start::Connected && plant.utility.is_some();
+    let breakers = BreakerState::initial(plant, op_idx, utility_closed);
+    let islands = topology::islands(plant, &breakers);
+    let load_on: Vec<bool> = (0..plant.loads.len())
+        .map(|l| op.load_mw.get(l).copied().unwrap_or(0.0) > 0.0)
+        .collect();
+    let machine_on: Vec<bool> = (0..plant.generators.len())
+        .map(|g| op.online.get(g).copied().unwrap_or(false))
+        .collect();
+    (breakers, islands, load_on, machine_on)
+}
+
+/// Machine outputs (MW) a run starts from; see [`initial_dispatch`].
+pub fn initial_outputs(plant: &Plant, case: &Case, op_idx: usize) -> Vec<f64> {
+    let (_, islands, load_on, machine_on) = start_state(plant, case, op_idx);
+    initial_dispatch(plant, op_idx, &islands, &load_on, &machine_on).0
+}
+
+/// Machine outputs at t = 0 and the `InitialDeficit` events: the operating point's dispatch,
+/// with each separated island's imbalance `Σ load − Σ dispatch` taken up by its governed machines
+/// by the rule of [`crate::screening`] (its module doc): isochronous machines first, each within
+/// its room; then the droop machines in proportion to S/R, each within its room (water-filling).
+/// What cannot be carried stays as an initial deficit.
+fn initial_dispatch(
+    plant: &Plant,
+    op_idx: usize,
+    islands: &[Island],
+    load_on: &[bool],
+    machine_on: &[bool],
+) -> (Vec<f64>, Vec<LoggedEvent>) {
+    let op = &plant.operating_points[op_idx];
+    let mut p_ref: Vec<f64> = (0..plant.generators.len())
+        .map(|g| {
+            if machine_on[g] {
+                op.output_mw.get(g).copied().unwrap_or(0.0)
+            } else {
+                0.0
+            }
+        })
+        .collect();
+    let mut events = Vec::new();
+    for (i, isl) in islands.iter().enumerate() {
+        if isl.on_utility {
+            continue;
+        }
+        let load: f64 = plant
+            .loads
+            .iter()
+            .enumerate()
+            .filter(|(l, ld)| load_on[*l] && isl.contains(ld.section))
+            .map(|(l, _)| op.load_mw[l])
+            .sum();
+        let gens: Vec<usize> = (0..plant.generators.len())
+            .filter(|g| machine_on[*g] && isl.contains(plant.generators[*g].section))
+            .collect();
+        let gen: f64 = gens.iter().map(|g| p_ref[*g]).sum();
+        let remainder = share_imbalance(plant, &gens, &mut p_ref, load - gen);
+        if remainder.abs() > 1e-9 && !gens.is_empty() {
+            events.push(LoggedEvent {
+                at_s: 0.0,
+                what: EventKind::InitialDeficit {
+                    island: i,
+                    mw: remainder,
+                },
+            });
+        }
+    }
+    (p_ref, events)
+}
+
+/// Share an imbalance (positive: more load than dispatch) over the governed machines `gens`:
+/// isochronous ones first in index order, then droop ones in proportion to S/R, all within
+/// [min_mw, max_mw]; returns what could not be carried.
+fn share_imbalance(plant: &Plant, gens: &[usize], p_ref: &mut [f64], mut imbalance: f64) -> f64 {
+    let governed =
+        |g: &usize| plant.generators[*g].governor.prime_mover != crate::model::PrimeMover::Fixed;
+    let room = |g: usize, p: f64, up: bool| {
+        let gen = &plant.generators[g];
+        if up {
+            (gen.max_mw - p).max(0.0)
+        } else {
+            (p - gen.min_mw).max(0.0)
+        }
+    };
+    for &g in gens.iter().filter(|g| governed(g)) {
+        if !plant.generators[g].governor.isochronous || imbalance.abs() <= 1e-12 {
+            continue;
+        }
+        let take = imbalance.abs().min(room(g, p_ref[g], imbalance > 0.0));
+        let take = take.copysign(imbalance);
+        p_ref[g] += take;
+        imbalance -= take;
+    }
+    let gain = |g: usize| {
+        let gen = &plant.generators[g];
+        crate::model::base::droop_gain_mw_per_pu(gen.rating_mva, gen.governor.droop_pct)
+    };
+    let mut free: Vec<usize> = gens
         .iter()
         .copied()
-        .filter(|g| plant.generators[*g].governor.prime_mover != crate::model::PrimeMover::Fixed)
+        .filter(|g| {
+            governed(g)
+                && !plant.generators[*g].governor.isochronous
+                && plant.generators[*g].governor.droop_pct > 0.0
+                && gain(*g) > 0.0
+        })
         .collect();
-    let mut free: Vec<usize> = governed;
     for _ in 0..=free.len() {
         if imbalance.abs() <= 1e-12 || free.is_empty() {
             break;
         }
-        let total: f64 = free.iter().map(|g| plant.generators[*g].rating_mva).sum();
+        let total: f64 = free.iter().map(|&g| gain(g)).sum();
         if total <= 0.0 {
             break;
         }
         let mut carried = 0.0;
         let mut still = Vec::new();
         for &g in &free {
-            let gen = &plant.generators[g];
-            let want = p_ref[g] + imbalance * gen.rating_mva / total;
-            let got = want
-                .max(gen.min_mw.min(p_ref[g]))
-                .min(gen.max_mw.max(p_ref[g]));
-            carried += got - p_ref[g];
-            p_ref[g] = got;
-            if got == want {
+            let want = imbalance * gain(g) / total;
+            let cap = room(g, p_ref[g], imbalance > 0.0);
+            let got = want.abs().min(cap).copysign(imbalance);
+            carried += got;
+            p_ref[g] += got;
+            if want.abs() < cap {
                 still.push(g);
             }
         }

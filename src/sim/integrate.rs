@@ -5,19 +5,34 @@
 //! (a state component against a level) for a change of side at the step end, or a hidden
 //! excursion inside the step judged from the cubic Hermite interpolant of the step's end values
 //! and slopes; on a hit it stops, and [`Segment::locate`] finds the crossing by bisection on the
-//! dense output.
+//! dense output. The same test against the edges of each watched band ([`Band`]) ends a segment
+//! integrated with a relaxed step cap as soon as the state comes near a level.
+//!
+//! The state is a fixed-size `SVector` of the smallest of 16, 32, 64 or 128 entries that holds
+//! it (monomorphised, so no stage allocates); entries past the plant's own are padding with zero
+//! derivative, and the tolerances are scaled by √(n/N) so that the solver's RMS error norm, and
+//! with it every step size, is the one of the unpadded system. Larger plants use a `DVector`.
+//! Must not: know relays, islands or events (it sees a derivative function and levels).
 
-use super::rhs::{derivatives, scratch_for, Conditions, PlantEquations};
+use super::rhs::SegmentEquations;
 use ode_solvers::continuous_output_model::ContinuousOutputModel;
 use ode_solvers::dop_shared::{OutputType, System};
-use ode_solvers::{DVector, Dopri5};
-use std::cell::{Cell, RefCell};
+use ode_solvers::{DVector, Dopri5, SVector};
+use std::cell::Cell;
 
 /// A state component watched against a level.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct StateGuard {
     pub index: usize,
     pub level: f64,
+}
+
+/// A state component that must stay inside `[lo, hi]` for the segment to continue.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Band {
+    pub index: usize,
+    pub lo: f64,
+    pub hi: f64,
 }
 
 /// Options of the stepper.
@@ -30,57 +45,105 @@ pub struct StepOptions {
 
 /// One integrated segment.
 pub struct Segment {
+    n: usize,
     /// Accepted step ends including the start point.
     pub times: Vec<f64>,
-    pub states: Vec<DVector<f64>>,
-    dense: ContinuousOutputModel<f64, DVector<f64>>,
+    /// Flat: `n` values per point.
+    states: Vec<f64>,
+    /// dy/dt at each point, flat like `states`.
+    slopes: Vec<f64>,
+    dense: Dense,
     /// The solver stopped early because a guard looked crossed in the last step.
     pub guard_hit: bool,
+    /// The solver stopped early because a watched component left its band.
+    pub band_left: bool,
+}
+
+enum Dense {
+    S16(ContinuousOutputModel<f64, SVector<f64, 16>>),
+    S32(ContinuousOutputModel<f64, SVector<f64, 32>>),
+    S64(ContinuousOutputModel<f64, SVector<f64, 64>>),
+    S128(ContinuousOutputModel<f64, SVector<f64, 128>>),
+    Dyn(ContinuousOutputModel<f64, DVector<f64>>),
+}
+
+/// What `solout` keeps; filled while the solver owns the system.
+struct Observer<'a> {
+    n: usize,
+    guards: &'a [StateGuard],
+    bands: &'a [Band],
+    prev_t: f64,
+    prev_y: Vec<f64>,
+    prev_dy: Vec<f64>,
+    times: &'a mut Vec<f64>,
+    states: &'a mut Vec<f64>,
+    slopes: &'a mut Vec<f64>,
+    guard_hit: &'a Cell<bool>,
+    band_left: &'a Cell<bool>,
 }
 
 struct Plant<'a> {
-    eq: &'a PlantEquations,
-    cond: &'a Conditions,
-    scratch: RefCell<Vec<f64>>,
-    guards: &'a [StateGuard],
-    prev_t: f64,
-    prev_y: DVector<f64>,
-    prev_dy: DVector<f64>,
-    hit: &'a Cell<bool>,
+    eq: &'a SegmentEquations,
+    obs: Observer<'a>,
 }
 
-impl System<f64, DVector<f64>> for Plant<'_> {
-    fn system(&self, _t: f64, y: &DVector<f64>, dy: &mut DVector<f64>) {
-        let mut s = self.scratch.borrow_mut();
-        derivatives(self.eq, self.cond, &mut s, y.as_slice(), dy.as_mut_slice());
-    }
-
-    fn solout(&mut self, t: f64, y: &DVector<f64>, dy: &DVector<f64>) -> bool {
+impl Observer<'_> {
+    fn accepted(&mut self, t: f64, y: &[f64], dy: &[f64]) -> bool {
+        let (y, dy) = (&y[..self.n], &dy[..self.n]);
         let h = t - self.prev_t;
-        let hit = self.guards.iter().any(|g| {
-            crosses_in_step(
-                g,
-                h,
-                self.prev_y[g.index],
-                self.prev_dy[g.index],
-                y[g.index],
-                dy[g.index],
-            )
-        });
+        let (py, pdy) = (&self.prev_y, &self.prev_dy);
+        let crosses = |i: usize, level: f64| crosses_level(level, h, py[i], pdy[i], y[i], dy[i]);
+        let hit = self.guards.iter().any(|g| crosses(g.index, g.level));
+        let left = !hit
+            && self
+                .bands
+                .iter()
+                .any(|b| crosses(b.index, b.lo) || crosses(b.index, b.hi));
         self.prev_t = t;
-        self.prev_y.copy_from(y);
-        self.prev_dy.copy_from(dy);
+        self.prev_y.copy_from_slice(y);
+        self.prev_dy.copy_from_slice(dy);
+        self.times.push(t);
+        self.states.extend_from_slice(y);
+        self.slopes.extend_from_slice(dy);
         if hit {
-            self.hit.set(true);
+            self.guard_hit.set(true);
         }
-        hit
+        if left {
+            self.band_left.set(true);
+        }
+        hit || left
     }
 }
+
+macro_rules! system_for {
+    ($v:ty) => {
+        impl System<f64, $v> for Plant<'_> {
+            fn system(&self, _t: f64, y: &$v, dy: &mut $v) {
+                let n = self.obs.n;
+                self.eq
+                    .derivatives(&y.as_slice()[..n], &mut dy.as_mut_slice()[..n]);
+            }
+
+            fn solout(&mut self, t: f64, y: &$v, dy: &$v) -> bool {
+                self.obs.accepted(t, y.as_slice(), dy.as_slice())
+            }
+        }
+    };
+}
+system_for!(SVector<f64, 16>);
+system_for!(SVector<f64, 32>);
+system_for!(SVector<f64, 64>);
+system_for!(SVector<f64, 128>);
+system_for!(DVector<f64>);
 
 /// Whether a guard changes side over a step, judged from the end values and the Hermite cubic.
 pub fn crosses_in_step(g: &StateGuard, h: f64, y0: f64, d0: f64, y1: f64, d1: f64) -> bool {
-    let below0 = y0 < g.level;
-    if (y1 < g.level) != below0 {
+    crosses_level(g.level, h, y0, d0, y1, d1)
+}
+
+fn crosses_level(level: f64, h: f64, y0: f64, d0: f64, y1: f64, d1: f64) -> bool {
+    let below0 = y0 < level;
+    if (y1 < level) != below0 {
         return true;
     }
     if d0 * d1 >= 0.0 {
@@ -89,7 +152,7 @@ pub fn crosses_in_step(g: &StateGuard, h: f64, y0: f64, d0: f64, y1: f64, d1: f6
     hermite_extrema(h, y0, d0, y1, d1)
         .into_iter()
         .flatten()
-        .any(|v| (v < g.level) != below0)
+        .any(|v| (v < level) != below0)
 }
 
 /// Values of the cubic Hermite interpolant at its interior stationary points (at most two).
@@ -120,83 +183,199 @@ fn hermite_extrema(h: f64, y0: f64, d0: f64, y1: f64, d1: f64) -> [Option<f64>; 
     [inside((-b + sq) / (2.0 * a)), inside((-b - sq) / (2.0 * a))]
 }
 
-/// Integrate from `t0` to `t_end` (exactly) unless a guard stops the solver first.
+/// Integrate from `t0` to `t_end` (exactly) unless a guard or a band stops the solver first.
 pub fn integrate(
-    eq: &PlantEquations,
-    cond: &Conditions,
+    eq: &SegmentEquations,
     t0: f64,
-    y0: &DVector<f64>,
+    y0: &[f64],
     t_end: f64,
     guards: &[StateGuard],
+    bands: &[Band],
     opt: &StepOptions,
 ) -> Result<Segment, String> {
-    let hit = Cell::new(false);
-    let mut dy0 = DVector::zeros(y0.len());
-    let mut scratch = scratch_for(cond);
-    derivatives(eq, cond, &mut scratch, y0.as_slice(), dy0.as_mut_slice());
-    let sys = Plant {
-        eq,
-        cond,
-        scratch: RefCell::new(scratch),
-        guards,
-        prev_t: t0,
-        prev_y: y0.clone(),
-        prev_dy: dy0,
-        hit: &hit,
-    };
-    let h_max = opt.max_step_s.min(t_end - t0).max(1e-9);
-    let mut solver = Dopri5::from_param(
-        sys,
-        t0,
-        t_end,
-        h_max,
-        y0.clone(),
-        opt.rtol,
-        opt.atol,
-        0.9,
-        0.04,
-        0.2,
-        10.0,
-        h_max,
-        0.0,
-        1_000_000,
-        1000,
-        OutputType::Continuous,
-    );
-    let mut dense = ContinuousOutputModel::default();
-    solver
-        .integrate_with_continuous_output_model(&mut dense)
-        .map_err(|e| e.to_string())?;
-    // With continuous output the solver stores step ends only; the start point goes first.
-    let (t_steps, y_steps) = solver.results().get();
-    let mut times = Vec::with_capacity(t_steps.len() + 1);
-    let mut states = Vec::with_capacity(t_steps.len() + 1);
+    let n = y0.len();
+    let mut dy0 = vec![0.0; n];
+    eq.derivatives(y0, &mut dy0);
+    let guard_hit = Cell::new(false);
+    let band_left = Cell::new(false);
+    let mut times = Vec::with_capacity(64);
+    let mut states = Vec::with_capacity(64 * n);
+    let mut slopes = Vec::with_capacity(64 * n);
     times.push(t0);
-    states.push(y0.clone());
-    times.extend_from_slice(t_steps);
-    states.extend(y_steps.iter().cloned());
+    states.extend_from_slice(y0);
+    slopes.extend_from_slice(&dy0);
+    let obs = Observer {
+        n,
+        guards,
+        bands,
+        prev_t: t0,
+        prev_y: y0.to_vec(),
+        prev_dy: dy0,
+        times: &mut times,
+        states: &mut states,
+        slopes: &mut slopes,
+        guard_hit: &guard_hit,
+        band_left: &band_left,
+    };
+    let sys = Plant { eq, obs };
+    let h_max = opt.max_step_s.min(t_end - t0).max(1e-9);
+    macro_rules! solve {
+        ($size:literal, $variant:ident, $runner:ident) => {{
+            let mut y = SVector::<f64, $size>::zeros();
+            y.as_mut_slice()[..n].copy_from_slice(y0);
+            Dense::$variant($runner(sys, t0, t_end, h_max, y, opt, n, $size)?)
+        }};
+    }
+    let dense = match n {
+        0..=16 => solve!(16, S16, run16),
+        17..=32 => solve!(32, S32, run32),
+        33..=64 => solve!(64, S64, run64),
+        65..=128 => solve!(128, S128, run128),
+        _ => {
+            let y = DVector::from_column_slice(y0);
+            Dense::Dyn(run_dyn(sys, t0, t_end, h_max, y, opt, n, n)?)
+        }
+    };
     Ok(Segment {
+        n,
         times,
         states,
+        slopes,
         dense,
-        guard_hit: hit.get(),
+        guard_hit: guard_hit.get(),
+        band_left: band_left.get(),
     })
 }
 
+macro_rules! dopri5_runner {
+    ($name:ident, $v:ty) => {
+        #[allow(clippy::too_many_arguments)]
+        fn $name(
+            sys: Plant<'_>,
+            t0: f64,
+            t_end: f64,
+            h_max: f64,
+            y: $v,
+            opt: &StepOptions,
+            n: usize,
+            padded: usize,
+        ) -> Result<ContinuousOutputModel<f64, $v>, String> {
+            // Padding entries have zero error; scaling both tolerances by √(n/N) makes the RMS
+            // norm over N entries equal the one over the n real entries.
+            let scale = if padded > n && n > 0 {
+                (n as f64 / padded as f64).sqrt()
+            } else {
+                1.0
+            };
+            let mut solver = Dopri5::from_param(
+                sys,
+                t0,
+                t_end,
+                h_max,
+                y,
+                opt.rtol * scale,
+                opt.atol * scale,
+                0.9,
+                0.04,
+                0.2,
+                10.0,
+                h_max,
+                0.0,
+                1_000_000,
+                u32::MAX,
+                OutputType::Continuous,
+            );
+            let mut dense = ContinuousOutputModel::new();
+            solver
+                .integrate_with_continuous_output_model(&mut dense)
+                .map_err(|e| e.to_string())?;
+            Ok(dense)
+        }
+    };
+}
+
+dopri5_runner!(run16, SVector<f64, 16>);
+dopri5_runner!(run32, SVector<f64, 32>);
+dopri5_runner!(run64, SVector<f64, 64>);
+dopri5_runner!(run128, SVector<f64, 128>);
+dopri5_runner!(run_dyn, DVector<f64>);
+
 impl Segment {
-    /// State at `t` inside the segment (clamped to its ends).
-    pub fn at(&self, t: f64) -> DVector<f64> {
+    /// Number of stored points (start point and every accepted step end).
+    pub fn n_points(&self) -> usize {
+        self.times.len()
+    }
+
+    pub fn state(&self, k: usize) -> &[f64] {
+        &self.states[k * self.n..(k + 1) * self.n]
+    }
+
+    pub fn slope(&self, k: usize) -> &[f64] {
+        &self.slopes[k * self.n..(k + 1) * self.n]
+    }
+
+    pub fn last_state(&self) -> &[f64] {
+        self.state(self.n_points() - 1)
+    }
+
+    /// State at `t` inside the segment (clamped to its ends), written to `out`.
+    pub fn at_into(&self, t: f64, out: &mut [f64]) {
         let first = self.times[0];
         let last = self.times[self.times.len() - 1];
         if t <= first {
-            return self.states[0].clone();
+            out.copy_from_slice(self.state(0));
+            return;
         }
         if t >= last {
-            return self.states[self.states.len() - 1].clone();
+            out.copy_from_slice(self.last_state());
+            return;
         }
-        self.dense
-            .evaluate(t)
-            .unwrap_or_else(|| self.states[self.states.len() - 1].clone())
+        let n = self.n;
+        let done = match &self.dense {
+            Dense::S16(d) => d
+                .evaluate(t)
+                .map(|v| out.copy_from_slice(&v.as_slice()[..n])),
+            Dense::S32(d) => d
+                .evaluate(t)
+                .map(|v| out.copy_from_slice(&v.as_slice()[..n])),
+            Dense::S64(d) => d
+                .evaluate(t)
+                .map(|v| out.copy_from_slice(&v.as_slice()[..n])),
+            Dense::S128(d) => d
+                .evaluate(t)
+                .map(|v| out.copy_from_slice(&v.as_slice()[..n])),
+            Dense::Dyn(d) => d.evaluate(t).map(|v| out.copy_from_slice(v.as_slice())),
+        };
+        if done.is_none() {
+            out.copy_from_slice(self.last_state());
+        }
+    }
+
+    /// State at `t` inside the segment (clamped to its ends).
+    pub fn at(&self, t: f64) -> Vec<f64> {
+        let mut out = vec![0.0; self.n];
+        self.at_into(t, &mut out);
+        out
+    }
+
+    /// One component at `t` (clamped to the segment's ends).
+    pub fn component_at(&self, t: f64, i: usize) -> f64 {
+        let first = self.times[0];
+        let last = self.times[self.times.len() - 1];
+        if t <= first {
+            return self.state(0)[i];
+        }
+        if t >= last {
+            return self.last_state()[i];
+        }
+        let v = match &self.dense {
+            Dense::S16(d) => d.evaluate(t).map(|v| v[i]),
+            Dense::S32(d) => d.evaluate(t).map(|v| v[i]),
+            Dense::S64(d) => d.evaluate(t).map(|v| v[i]),
+            Dense::S128(d) => d.evaluate(t).map(|v| v[i]),
+            Dense::Dyn(d) => d.evaluate(t).map(|v| v[i]),
+        };
+        v.unwrap_or_else(|| self.last_state()[i])
     }
 
     /// The earliest guard crossing inside the last step, as the first time on the new side
@@ -207,19 +386,18 @@ impl Segment {
             return None;
         }
         let (ta, tb) = (self.times[n - 2], self.times[n - 1]);
-        let ya = &self.states[n - 2];
+        let ya = self.state(n - 2);
         const N_SUB: usize = 16;
         let mut best: Option<f64> = None;
-        let subs: Vec<(f64, DVector<f64>)> = (1..=N_SUB)
-            .map(|k| {
-                let t = if k == N_SUB {
-                    tb
-                } else {
-                    ta + (tb - ta) * k as f64 / N_SUB as f64
-                };
-                (t, self.at(t))
-            })
-            .collect();
+        let mut subs: Vec<(f64, Vec<f64>)> = Vec::with_capacity(N_SUB);
+        for k in 1..=N_SUB {
+            let t = if k == N_SUB {
+                tb
+            } else {
+                ta + (tb - ta) * k as f64 / N_SUB as f64
+            };
+            subs.push((t, self.at(t)));
+        }
         for g in guards {
             let below0 = ya[g.index] < g.level;
             let mut lo = ta;
@@ -237,7 +415,7 @@ impl Segment {
             }
             while hi - lo > tol_s {
                 let mid = 0.5 * (lo + hi);
-                if (self.at(mid)[g.index] < g.level) != below0 {
+                if (self.component_at(mid, g.index) < g.level) != below0 {
                     hi = mid;
                 } else {
                     lo = mid;

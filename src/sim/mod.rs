@@ -17,8 +17,13 @@ use serde::Serialize;
 /// Options of a run.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct SimConfig {
-    /// Largest integration step, seconds (0.02).
+    /// Largest integration step while anything is pending, seconds (0.02): a relay picked up or
+    /// timing, a watched level near, or frequency changing fast. It is also held below half the
+    /// shortest relay delay or breaker time of the run.
     pub max_step_s: f64,
+    /// Largest integration step while nothing is pending, seconds (0.5). Set it equal to
+    /// `max_step_s` for a fixed cap throughout.
+    pub quiet_max_step_s: f64,
     pub rtol: f64,
     pub atol: f64,
     /// Keep sampled frequencies in [`Run::trace`].
@@ -41,6 +46,7 @@ impl Default for SimConfig {
     fn default() -> Self {
         SimConfig {
             max_step_s: 0.02,
+            quiet_max_step_s: 0.5,
             rtol: 1e-6,
             atol: 1e-9,
             record_trace: false,
@@ -211,4 +217,12 @@ pub fn simulate(
     config: &SimConfig,
 ) -> Run {
     engine::run(plant, case, operating_point, scheme, config)
+}
+
+/// Machine outputs (MW, by generator; 0 when offline) that a replay of `case` at
+/// `operating_point` starts from: the operating point's dispatch, and for an island separated at
+/// t = 0 its imbalance taken up as [`crate::screening`] does (isochronous machines first, then
+/// droop machines in proportion to S/R, each within its limits).
+pub fn initial_dispatch_mw(plant: &Plant, case: &Case, operating_point: usize) -> Vec<f64> {
+    engine::initial_outputs(plant, case, operating_point)
 }

@@ -5,24 +5,52 @@
 //! stationary points (found where dΔω/dt changes sign between step ends and refined by
 //! golden-section search on the dense output), so island and run extremes are exact to the
 //! integrator's accuracy rather than to the sample spacing.
+//!
+//! Samples on the fixed grid `k·dt` are not taken while the run goes: the integrated segments
+//! are kept, and a sample is evaluated on their dense output only when it is needed, i.e. for
+//! the trace when one is asked for, and for the windowed ROCOF only where it can matter: a window
+//! whose frequency range (bounded by the step ends and stationary points inside it, between
+//! which the frequency is monotone) divided by its width cannot exceed the largest ROCOF found so
+//! far is skipped without changing the result. Must not: decide events or change the state.
 
 use super::integrate::Segment;
-use super::rhs::{derivatives, scratch_for, speed_index, Conditions, IslandMode, PlantEquations};
-use ode_solvers::DVector;
+use super::rhs::speed_index;
+use std::collections::VecDeque;
+
+/// Grid points are tested for skipping in blocks of this many.
+const BLOCK: usize = 10;
 
 pub struct Recorder {
     pub nominal_hz: f64,
     pub sample_interval_s: f64,
-    next_sample: u64,
-    pub t_samples: Vec<f64>,
-    pub section_hz: Vec<Vec<f64>>,
-    pub shed_samples: Vec<f64>,
+    n_sections: usize,
+    y0: Vec<f64>,
+    /// Kept segments in time order, each valid on (from, to].
+    kept: Vec<Kept>,
     /// Per section: (t, Hz) at segment ends and stationary points.
     pub candidates: Vec<Vec<(f64, f64)>>,
+    /// Per section, time-ordered: (t, Hz) at the start, every step end, every stationary point
+    /// and every segment end. Between two consecutive knots the frequency is monotone.
+    knots: Vec<Vec<(f64, f64)>>,
     recover_pu: f64,
     below: Vec<bool>,
     /// Per section: last time it came back above the recovery level.
     pub last_up_s: Vec<Option<f64>>,
+}
+
+struct Kept {
+    seg: Segment,
+    to: f64,
+    y_to: Vec<f64>,
+    shed_mw: f64,
+}
+
+/// Grid samples evaluated on demand.
+pub struct Samples<'a> {
+    rec: &'a Recorder,
+    /// Number of grid points.
+    pub len: usize,
+    cache: Vec<Vec<f64>>,
 }
 
 impl Recorder {
@@ -35,11 +63,11 @@ impl Recorder {
         Recorder {
             nominal_hz,
             sample_interval_s,
-            next_sample: 0,
-            t_samples: Vec::new(),
-            section_hz: vec![Vec::new(); n_sections],
-            shed_samples: Vec::new(),
+            n_sections,
+            y0: Vec::new(),
+            kept: Vec::new(),
             candidates: vec![Vec::new(); n_sections],
+            knots: vec![Vec::new(); n_sections],
             recover_pu: (recover_hz - nominal_hz) / nominal_hz,
             below: vec![false; n_sections],
             last_up_s: vec![None; n_sections],
@@ -51,80 +79,57 @@ impl Recorder {
     }
 
     /// The state at the start of the run.
-    pub fn start(&mut self, y0: &DVector<f64>, shed_mw: f64) {
-        for s in 0..self.section_hz.len() {
+    pub fn start(&mut self, y0: &[f64]) {
+        self.y0 = y0.to_vec();
+        for s in 0..self.n_sections {
             let dw = y0[speed_index(s)];
             self.below[s] = dw < self.recover_pu;
             let v = self.hz(dw);
             self.candidates[s].push((0.0, v));
+            self.knots[s].push((0.0, v));
         }
-        self.take_sample(0.0, y0, shed_mw);
-        self.next_sample = 1;
     }
 
-    fn take_sample(&mut self, t: f64, y: &DVector<f64>, shed_mw: f64) {
-        self.t_samples.push(t);
-        for s in 0..self.section_hz.len() {
-            let v = self.hz(y[speed_index(s)]);
-            self.section_hz[s].push(v);
-        }
-        self.shed_samples.push(shed_mw);
-    }
-
-    /// Record a segment that ends at `t_stop` with state `y_stop`.
+    /// Record a segment that ends at `t_stop` with state `y_stop` and slope `dy_stop`;
+    /// `frozen[s]` says section `s` is held in this segment.
     pub fn segment(
         &mut self,
-        seg: &Segment,
-        eq: &PlantEquations,
-        cond: &Conditions,
+        seg: Segment,
+        frozen: &[bool],
         t_stop: f64,
-        y_stop: &DVector<f64>,
+        y_stop: &[f64],
+        dy_stop: &[f64],
         shed_mw: f64,
     ) {
-        // Samples on the fixed grid k·dt.
-        loop {
-            let t = self.next_sample as f64 * self.sample_interval_s;
-            if t > t_stop + 1e-12 {
-                break;
-            }
-            let y = if t >= t_stop {
-                y_stop.clone()
+        let n_before = (0..seg.n_points())
+            .take_while(|&k| seg.times[k] < t_stop)
+            .count();
+        let point = |k: usize| -> (f64, &[f64], &[f64]) {
+            if k < n_before {
+                (seg.times[k], seg.state(k), seg.slope(k))
             } else {
-                seg.at(t)
-            };
-            self.take_sample(t, &y, shed_mw);
-            self.next_sample += 1;
-        }
-        // Step points up to t_stop.
-        let mut pts: Vec<(f64, &DVector<f64>)> = seg
-            .times
-            .iter()
-            .zip(&seg.states)
-            .filter(|(t, _)| **t < t_stop)
-            .map(|(t, y)| (*t, y))
-            .collect();
-        pts.push((t_stop, y_stop));
-        let mut scratch = scratch_for(cond);
-        let mut dys: Vec<DVector<f64>> = Vec::with_capacity(pts.len());
-        for (_, y) in &pts {
-            let mut dy = DVector::zeros(y.len());
-            derivatives(eq, cond, &mut scratch, y.as_slice(), dy.as_mut_slice());
-            dys.push(dy);
-        }
-        for s in 0..self.section_hz.len() {
-            if cond.modes[cond.island_of_section[s]] == IslandMode::Frozen {
+                (t_stop, y_stop, dy_stop)
+            }
+        };
+        for s in 0..self.n_sections {
+            if frozen[s] {
                 continue;
             }
             let iw = speed_index(s);
-            for k in 1..pts.len() {
-                let (ta, ya) = pts[k - 1];
-                let (tb, yb) = pts[k];
-                let (da, db) = (dys[k - 1][iw], dys[k][iw]);
+            for k in 1..=n_before {
+                let (ta, ya, da) = point(k - 1);
+                let (tb, yb, db) = point(k);
+                let (da, db) = (da[iw], db[iw]);
                 if da * db < 0.0 {
                     let minimum = da < 0.0;
-                    let (t, v) = golden(seg, iw, ta, tb, minimum);
+                    let (t, v) = golden(&seg, iw, ta, tb, minimum);
                     let hz = self.hz(v);
                     self.candidates[s].push((t, hz));
+                    self.knots[s].push((t, hz));
+                }
+                if k < n_before {
+                    let hz = self.hz(yb[iw]);
+                    self.knots[s].push((tb, hz));
                 }
                 let below_b = yb[iw] < self.recover_pu;
                 if below_b != self.below[s] {
@@ -134,7 +139,7 @@ impl Recorder {
                         if ya[iw] < self.recover_pu {
                             while hi - lo > 1e-6 {
                                 let mid = 0.5 * (lo + hi);
-                                if seg.at(mid)[iw] < self.recover_pu {
+                                if seg.component_at(mid, iw) < self.recover_pu {
                                     lo = mid;
                                 } else {
                                     hi = mid;
@@ -148,11 +153,160 @@ impl Recorder {
             }
             let hz = self.hz(y_stop[iw]);
             self.candidates[s].push((t_stop, hz));
+            self.knots[s].push((t_stop, hz));
         }
+        self.kept.push(Kept {
+            seg,
+            to: t_stop,
+            y_to: y_stop.to_vec(),
+            shed_mw,
+        });
     }
 
     pub fn ends_below(&self, section: usize) -> bool {
         self.below[section]
+    }
+
+    /// The sample grid up to `t_end` (points `k·dt` with `k·dt ≤ t_end`).
+    pub fn samples(&self, t_end: f64) -> Samples<'_> {
+        let dt = self.sample_interval_s;
+        let mut len = 1;
+        while (len as f64) * dt <= t_end + 1e-12 {
+            len += 1;
+        }
+        Samples {
+            rec: self,
+            len,
+            cache: vec![Vec::new(); self.n_sections],
+        }
+    }
+
+    /// The kept segment a grid time belongs to (the first one ending at or after it).
+    fn kept_at(&self, t: f64) -> Option<&Kept> {
+        let i = self.kept.partition_point(|k| k.to + 1e-12 < t);
+        self.kept.get(i)
+    }
+
+    fn state_component_at(&self, t: f64, i: usize) -> f64 {
+        if t <= 0.0 {
+            return self.y0[i];
+        }
+        match self.kept_at(t) {
+            Some(k) if t >= k.to => k.y_to[i],
+            Some(k) => k.seg.component_at(t, i),
+            None => self.kept.last().map_or(self.y0[i], |k| k.y_to[i]),
+        }
+    }
+
+    fn shed_at(&self, t: f64) -> f64 {
+        if t <= 0.0 {
+            return 0.0;
+        }
+        self.kept_at(t)
+            .or(self.kept.last())
+            .map_or(0.0, |k| k.shed_mw)
+    }
+}
+
+impl Samples<'_> {
+    pub fn time(&self, k: usize) -> f64 {
+        k as f64 * self.rec.sample_interval_s
+    }
+
+    /// Frequency of section `s` at grid point `k`, Hz.
+    pub fn hz(&mut self, s: usize, k: usize) -> f64 {
+        if self.cache[s].is_empty() {
+            self.cache[s] = vec![f64::NAN; self.len];
+        }
+        let v = self.cache[s][k];
+        if !v.is_nan() {
+            return v;
+        }
+        let t = self.time(k);
+        let v = self.rec.hz(self.rec.state_component_at(t, speed_index(s)));
+        self.cache[s][k] = v;
+        v
+    }
+
+    pub fn shed_mw(&self, k: usize) -> f64 {
+        self.rec.shed_at(self.time(k))
+    }
+
+    /// Max over grid points `t` with `W ≤ t`, `from < t ≤ to` of |f(t) − f(t − W)|/W on section
+    /// `s`, `f(t − W)` interpolated linearly between grid samples.
+    pub fn windowed_rocof(&mut self, s: usize, window: f64, from: f64, to: f64) -> f64 {
+        let dt = self.rec.sample_interval_s;
+        let w = window / dt;
+        let back_index = |i: usize| {
+            let p = (i as f64 - w).max(0.0);
+            let lo = p.floor() as usize;
+            (lo, p - lo as f64)
+        };
+        let included = |t: f64| !(t < window - 1e-12 || t <= from || t > to + 1e-12);
+        let knots = &self.rec.knots[s];
+        let mut best: f64 = 0.0;
+        // Sliding max/min of knot values over knot index windows whose ends only move forward.
+        let mut maxq: VecDeque<usize> = VecDeque::new();
+        let mut minq: VecDeque<usize> = VecDeque::new();
+        let mut pushed = 0;
+        // Grid points that count: the first one past `from` and not before `window`, up to `to`.
+        let i_min = (0..self.len)
+            .position(|i| included(self.time(i)))
+            .unwrap_or(self.len);
+        let i_end = (i_min..self.len)
+            .rev()
+            .find(|&i| included(self.time(i)))
+            .map_or(i_min, |i| i + 1);
+        let mut block_start = i_min;
+        while block_start < i_end {
+            let block_end = (block_start + BLOCK).min(i_end);
+            let (first, last) = (block_start, block_end - 1);
+            let t_lo = self.time(back_index(first).0);
+            let t_hi = self.time(last);
+            let skip = if knots.is_empty() {
+                false
+            } else {
+                // Knots covering [t_lo, t_hi]: the last one at or before t_lo up to the first one
+                // at or after t_hi (clamped to the ends of the list).
+                let j_lo = knots.partition_point(|k| k.0 <= t_lo).saturating_sub(1);
+                let j_hi = knots.partition_point(|k| k.0 < t_hi).min(knots.len() - 1);
+                while pushed <= j_hi {
+                    let v = knots[pushed].1;
+                    while maxq.back().is_some_and(|&b| knots[b].1 <= v) {
+                        maxq.pop_back();
+                    }
+                    maxq.push_back(pushed);
+                    while minq.back().is_some_and(|&b| knots[b].1 >= v) {
+                        minq.pop_back();
+                    }
+                    minq.push_back(pushed);
+                    pushed += 1;
+                }
+                while maxq.front().is_some_and(|&f| f < j_lo) {
+                    maxq.pop_front();
+                }
+                while minq.front().is_some_and(|&f| f < j_lo) {
+                    minq.pop_front();
+                }
+                match (maxq.front(), minq.front()) {
+                    (Some(&a), Some(&b)) => (knots[a].1 - knots[b].1) / window <= best,
+                    _ => false,
+                }
+            };
+            if !skip {
+                for i in first..=last {
+                    let (lo, frac) = back_index(i);
+                    let back = if lo + 1 < self.len && frac != 0.0 {
+                        self.hz(s, lo) * (1.0 - frac) + self.hz(s, lo + 1) * frac
+                    } else {
+                        self.hz(s, lo)
+                    };
+                    best = best.max(((self.hz(s, i) - back) / window).abs());
+                }
+            }
+            block_start = block_end;
+        }
+        best
     }
 }
 
@@ -160,7 +314,7 @@ impl Recorder {
 fn golden(seg: &Segment, i: usize, mut a: f64, mut b: f64, minimum: bool) -> (f64, f64) {
     let r = 0.5 * (5f64.sqrt() - 1.0);
     let sign = if minimum { 1.0 } else { -1.0 };
-    let f = |t: f64| sign * seg.at(t)[i];
+    let f = |t: f64| sign * seg.component_at(t, i);
     let mut c = b - r * (b - a);
     let mut d = a + r * (b - a);
     let (mut fc, mut fd) = (f(c), f(d));
@@ -180,5 +334,5 @@ fn golden(seg: &Segment, i: usize, mut a: f64, mut b: f64, minimum: bool) -> (f6
         }
     }
     let t = 0.5 * (a + b);
-    (t, seg.at(t)[i])
+    (t, seg.component_at(t, i))
 }

@@ -76,12 +76,17 @@ pub fn rocof_index(section: usize) -> usize {
     3 * section + 2
 }
 
-/// Scratch space for [`derivatives`]: three sums per island.
+/// Scratch space for [`derivatives`] (kept for callers of the slice form; the work itself is
+/// done by [`SegmentEquations`], which needs none).
 pub fn scratch_for(cond: &Conditions) -> Vec<f64> {
     vec![0.0; 3 * cond.modes.len()]
 }
 
 /// dy/dt for the plant. `scratch` must come from [`scratch_for`].
+///
+/// This is [`SegmentEquations::derivatives`] after specialising the equations to `cond`; the
+/// integrator calls the specialised form directly so that the per-segment constants (stored
+/// energy, connected load by frequency exponent, constant-power steps) are summed once.
 pub fn derivatives(
     eq: &PlantEquations,
     cond: &Conditions,
@@ -89,63 +94,165 @@ pub fn derivatives(
     y: &[f64],
     dy: &mut [f64],
 ) {
-    let n_isl = cond.modes.len();
     scratch.iter_mut().for_each(|v| *v = 0.0);
-    let (pm, rest) = scratch.split_at_mut(n_isl);
-    let (pe, energy) = rest.split_at_mut(n_isl);
-    for (i, m) in eq.machines.iter().enumerate() {
-        let n = m.governor.n_states();
-        let xs = &y[m.offset..m.offset + n];
-        let isl = cond.island_of_section[m.section];
-        let frozen = cond.modes[isl] == IslandMode::Frozen;
-        if !cond.machine_on[i] || frozen {
-            dy[m.offset..m.offset + n].iter_mut().for_each(|v| *v = 0.0);
-            continue;
+    SegmentEquations::new(eq, cond).derivatives(y, dy);
+}
+
+/// The plant equations with one segment's discrete conditions folded in.
+///
+/// Same equations as docs/models.md §3–§5; only the order of summation differs from a plain
+/// loop over loads (connected loads of one island with the same frequency exponent are summed
+/// before the exponent is applied, which is exact because the load model is linear in `P0·v²`).
+#[derive(Debug, Clone, PartialEq)]
+pub struct SegmentEquations {
+    pub n_states: usize,
+    machines: Vec<ActiveMachine>,
+    islands: Vec<IslandEquations>,
+    /// Per section: its island.
+    island_of_section: Vec<usize>,
+    frequency_lag_s: f64,
+    rocof_window_s: f64,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+struct ActiveMachine {
+    governor: Governor,
+    offset: usize,
+    n: usize,
+    speed: usize,
+    island: usize,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+struct IslandEquations {
+    mode: IslandMode,
+    /// Stored energy of running machines and connected loads with inertia, MW·s.
+    energy_mws: f64,
+    /// Load that does not depend on frequency (exponent 0, constant-power steps), MW.
+    constant_mw: f64,
+    /// (frequency exponent, Σ P0·v² of the connected loads with it), MW.
+    by_exponent: Vec<(f64, f64)>,
+    /// Speed index of the island's first section (all its sections carry the same value).
+    speed: usize,
+}
+
+impl SegmentEquations {
+    pub fn new(eq: &PlantEquations, cond: &Conditions) -> SegmentEquations {
+        let mut first_section = vec![usize::MAX; cond.modes.len()];
+        for (s, &isl) in cond.island_of_section.iter().enumerate() {
+            if first_section[isl] == usize::MAX {
+                first_section[isl] = s;
+            }
         }
-        let dw = y[speed_index(m.section)];
-        m.governor
-            .derivatives(dw, xs, &mut dy[m.offset..m.offset + n]);
-        pm[isl] += m.governor.power_mw(dw, xs);
-        energy[isl] += m.stored_mws;
-    }
-    for (l, ld) in eq.loads.iter().enumerate() {
-        if !cond.load_on[l] {
-            continue;
-        }
-        let isl = cond.island_of_section[ld.section];
-        if cond.modes[isl] != IslandMode::Free {
-            continue;
-        }
-        let dw = y[speed_index(ld.section)];
-        pe[isl] += load::power_mw(ld.p0_mw, ld.freq_exp, dw, cond.v_sq[ld.section]);
-        energy[isl] += ld.stored_mws;
-    }
-    for s in 0..eq.n_sections {
-        let isl = cond.island_of_section[s];
-        if cond.modes[isl] == IslandMode::Free {
-            pe[isl] += cond.step_mw[s];
-        }
-    }
-    for s in 0..eq.n_sections {
-        let isl = cond.island_of_section[s];
-        let (iw, im, ir) = (speed_index(s), measured_index(s), rocof_index(s));
-        let dw = match cond.modes[isl] {
-            IslandMode::Frozen => {
-                dy[iw] = 0.0;
-                dy[im] = 0.0;
-                dy[ir] = 0.0;
+        let mut islands: Vec<IslandEquations> = cond
+            .modes
+            .iter()
+            .zip(&first_section)
+            .map(|(&mode, &s)| IslandEquations {
+                mode,
+                energy_mws: 0.0,
+                constant_mw: 0.0,
+                by_exponent: Vec::new(),
+                speed: speed_index(if s == usize::MAX { 0 } else { s }),
+            })
+            .collect();
+        let mut machines = Vec::new();
+        for (i, m) in eq.machines.iter().enumerate() {
+            let isl = cond.island_of_section[m.section];
+            if !cond.machine_on[i] || cond.modes[isl] == IslandMode::Frozen {
                 continue;
             }
-            IslandMode::Utility { slope_pu_per_s } => slope_pu_per_s,
-            IslandMode::Free if energy[isl] > 0.0 => {
-                swing::acceleration_pu_per_s(pm[isl], pe[isl], energy[isl])
+            islands[isl].energy_mws += m.stored_mws;
+            machines.push(ActiveMachine {
+                governor: m.governor,
+                offset: m.offset,
+                n: m.governor.n_states(),
+                speed: speed_index(m.section),
+                island: isl,
+            });
+        }
+        for (l, ld) in eq.loads.iter().enumerate() {
+            let isl = cond.island_of_section[ld.section];
+            if !cond.load_on[l] || cond.modes[isl] != IslandMode::Free {
+                continue;
             }
-            IslandMode::Free => 0.0,
+            let island = &mut islands[isl];
+            island.energy_mws += ld.stored_mws;
+            let p = ld.p0_mw * cond.v_sq[ld.section];
+            if ld.freq_exp == 0.0 {
+                island.constant_mw += p;
+            } else if let Some(g) = island.by_exponent.iter_mut().find(|g| g.0 == ld.freq_exp) {
+                g.1 += p;
+            } else {
+                island.by_exponent.push((ld.freq_exp, p));
+            }
+        }
+        for s in 0..eq.n_sections {
+            let isl = cond.island_of_section[s];
+            if cond.modes[isl] == IslandMode::Free {
+                islands[isl].constant_mw += cond.step_mw[s];
+            }
+        }
+        SegmentEquations {
+            n_states: eq.n_states,
+            machines,
+            islands,
+            island_of_section: cond.island_of_section.clone(),
+            frequency_lag_s: eq.frequency_lag_s,
+            rocof_window_s: eq.rocof_window_s,
+        }
+    }
+
+    /// dy/dt at `y` (both of length `n_states`).
+    pub fn derivatives(&self, y: &[f64], dy: &mut [f64]) {
+        const ON_STACK: usize = 8;
+        let n_isl = self.islands.len();
+        let mut pm_stack = [0.0; ON_STACK];
+        let mut pm_heap = Vec::new();
+        let pm: &mut [f64] = if n_isl <= ON_STACK {
+            &mut pm_stack[..n_isl]
+        } else {
+            pm_heap.resize(n_isl, 0.0);
+            &mut pm_heap
         };
-        dy[iw] = dw;
-        let dm = measurement::measured_derivative(y[iw], dw, y[im], eq.frequency_lag_s);
-        dy[im] = dm;
-        dy[ir] = measurement::rocof_derivative(dm, y[ir], eq.rocof_window_s);
+        dy.iter_mut().for_each(|v| *v = 0.0);
+        for m in &self.machines {
+            let xs = &y[m.offset..m.offset + m.n];
+            let dw = y[m.speed];
+            m.governor
+                .derivatives(dw, xs, &mut dy[m.offset..m.offset + m.n]);
+            pm[m.island] += m.governor.power_mw(dw, xs);
+        }
+        for (i, isl) in self.islands.iter().enumerate() {
+            let dw_dt = match isl.mode {
+                IslandMode::Frozen => continue,
+                IslandMode::Utility { slope_pu_per_s } => slope_pu_per_s,
+                IslandMode::Free if isl.energy_mws > 0.0 => {
+                    let dw = y[isl.speed];
+                    let pe = isl
+                        .by_exponent
+                        .iter()
+                        .fold(isl.constant_mw, |acc, &(k, p)| {
+                            acc + load::power_mw(p, k, dw, 1.0)
+                        });
+                    swing::acceleration_pu_per_s(pm[i], pe, isl.energy_mws)
+                }
+                IslandMode::Free => 0.0,
+            };
+            // Reuse the island slot for the section loop below.
+            pm[i] = dw_dt;
+        }
+        for (s, &isl) in self.island_of_section.iter().enumerate() {
+            if self.islands[isl].mode == IslandMode::Frozen {
+                continue;
+            }
+            let (iw, im, ir) = (speed_index(s), measured_index(s), rocof_index(s));
+            let dw = pm[isl];
+            dy[iw] = dw;
+            let dm = measurement::measured_derivative(y[iw], dw, y[im], self.frequency_lag_s);
+            dy[im] = dm;
+            dy[ir] = measurement::rocof_derivative(dm, y[ir], self.rocof_window_s);
+        }
     }
 }
 
