@@ -775,7 +775,9 @@ fn load_functions_report_io_and_size_limit() {
     let r = load_plant(&big);
     let _ = std::fs::remove_file(&big);
     match r {
-        Err(Error::Input(d)) => assert!(d[0].message.contains("input size limit of 4 MiB")),
+        Err(Error::Input(d)) => assert!(d[0]
+            .message
+            .contains("input size limit max_file_bytes = 4194304 bytes (4.0 MiB)")),
         other => panic!("expected the size limit, got {other:?}"),
     }
     let p = load_plant(&dir().join("base_plant.yaml")).unwrap();

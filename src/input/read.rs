@@ -4,6 +4,7 @@
 //! Owns the [`Reader`] (file name, locator and the growing list of diagnostics) and the wording of
 //! serde's type errors. It must not check meaning (ranges, ids); that is [`super::validate`].
 
+use super::limits::{self, Limit, Limits};
 use super::locate::{FieldPath, Locator, Seg};
 use super::Diagnostic;
 use serde::de::DeserializeOwned;
@@ -21,7 +22,13 @@ pub enum Slot<T> {
 pub struct Reader {
     file: String,
     locator: Locator,
+    pub limits: Limits,
     pub diagnostics: Vec<Diagnostic>,
+    /// Diagnostics past [`limits::MAX_DIAGNOSTICS`], counted but not kept.
+    pub suppressed: usize,
+    /// A list was refused for its length; its items were not read, so the validators stop
+    /// before cross-checks that would report every reference to them as unknown.
+    pub over_limit: bool,
 }
 
 /// Whether a diagnostic points at a key (unknown or misplaced field) or at a value.
@@ -32,8 +39,17 @@ pub enum At {
 }
 
 impl Reader {
-    /// Parses the YAML syntax; a syntax error is the one diagnostic of the file.
-    pub fn open(text: &str, file: &str) -> Result<(Reader, Mapping), Vec<Diagnostic>> {
+    /// Parses the YAML syntax; a syntax error (or a text above the size limit) is the one
+    /// diagnostic of the file.
+    pub fn open(
+        text: &str,
+        file: &str,
+        limits: &Limits,
+    ) -> Result<(Reader, Mapping), Vec<Diagnostic>> {
+        let bytes = text.len() as u64;
+        if limits.exceeded(limits::FILE_BYTES, bytes) {
+            return Err(vec![size_diagnostic(file, limits, Some(bytes))]);
+        }
         let value: Value = match serde_yaml::from_str(text) {
             Ok(v) => v,
             Err(e) => {
@@ -58,7 +74,10 @@ impl Reader {
         let reader = Reader {
             file: file.to_string(),
             locator: Locator::new(text),
+            limits: limits.clone(),
             diagnostics: Vec::new(),
+            suppressed: 0,
+            over_limit: false,
         };
         match value {
             Value::Mapping(m) => Ok((reader, m)),
@@ -95,8 +114,17 @@ impl Reader {
         }
     }
 
+    /// Whether the list of kept diagnostics is full; callers may skip costly hints then.
+    pub fn full(&self) -> bool {
+        self.diagnostics.len() >= limits::MAX_DIAGNOSTICS
+    }
+
     /// Records a mistake in the value at `path`.
     pub fn error(&mut self, path: &FieldPath, message: String, help: impl Into<Option<String>>) {
+        if self.full() {
+            self.suppressed += 1;
+            return;
+        }
         let d = self.make(path, At::Value, message, help.into());
         self.diagnostics.push(d);
     }
@@ -108,6 +136,10 @@ impl Reader {
         message: String,
         help: impl Into<Option<String>>,
     ) {
+        if self.full() {
+            self.suppressed += 1;
+            return;
+        }
         let d = self.make(path, At::Key, message, help.into());
         self.diagnostics.push(d);
     }
@@ -167,13 +199,15 @@ impl Reader {
         }
     }
 
-    /// A top-level list, each item on its own. `None` when absent (and reported if `required`) or
-    /// when the field is not a list at all.
+    /// A top-level list, each item on its own. `None` when absent (and reported if `required`),
+    /// when the field is not a list at all, or when it has more items than `limit` allows (then
+    /// no item is read, so that an oversized list costs one message and little time).
     pub fn list<T: DeserializeOwned>(
         &mut self,
         map: &Mapping,
         key: &str,
         required: bool,
+        limit: Limit,
     ) -> Option<Vec<Slot<T>>> {
         let path = FieldPath::root().key(key);
         let seq = match map.get(key) {
@@ -197,6 +231,17 @@ impl Reader {
                 return None;
             }
         };
+        let n = seq.len() as u64;
+        if self.limits.exceeded(limit, n) {
+            let subject = format!("`{key}` lists");
+            self.error(
+                &path,
+                limits::over_limit_message(&self.limits, limit, &subject, n),
+                limits::over_limit_help(limit, n),
+            );
+            self.over_limit = true;
+            return None;
+        }
         let mut out = Vec::with_capacity(seq.len());
         for (i, item) in seq.iter().enumerate() {
             let item_path = path.index(i);
@@ -274,6 +319,29 @@ impl Reader {
     }
 }
 
+/// The one diagnostic of a text or file above the size limit; `bytes` is its size when known
+/// (a file is read only up to one byte past the limit).
+pub fn size_diagnostic(file: &str, limits: &Limits, bytes: Option<u64>) -> Diagnostic {
+    let limit = limits::FILE_BYTES;
+    let max = limits.get(limit);
+    let has = match bytes {
+        Some(n) => format!("; it has {n} bytes"),
+        None => String::new(),
+    };
+    Diagnostic {
+        file: file.to_string(),
+        line: None,
+        column: None,
+        path: String::new(),
+        message: format!(
+            "the file is larger than the input size limit {} = {max} bytes ({:.1} MiB){has}",
+            limit.name,
+            max as f64 / (1024.0 * 1024.0),
+        ),
+        help: Some(limits::over_limit_help(limit, bytes.unwrap_or(max + 1))),
+    }
+}
+
 /// serde_path_to_error already ends the path with an unknown field's name; a missing field's
 /// name is not in the path. Appends the name only when it is not already there.
 fn push_once(path: &mut FieldPath, name: &str) {
@@ -347,7 +415,8 @@ mod tests {
 
     #[test]
     fn syntax_error_is_one_diagnostic_with_a_place() {
-        let Err(d) = Reader::open("stages:\n  - id: \"open\n", "s.yaml") else {
+        let Err(d) = Reader::open("stages:\n  - id: \"open\n", "s.yaml", &Limits::defaults())
+        else {
             panic!("expected a syntax error");
         };
         assert_eq!(d.len(), 1);
@@ -358,9 +427,9 @@ mod tests {
     #[test]
     fn type_errors_in_two_items_are_both_reported() {
         let text = "stages:\n  - { id: a, delay_s: fast, sheds: [x] }\n  - { id: b, delay_s: 0.1, sheds: x }\n";
-        let (mut r, map) = Reader::open(text, "s.yaml").unwrap();
+        let (mut r, map) = Reader::open(text, "s.yaml", &Limits::defaults()).unwrap();
         let items = r
-            .list::<crate::input::raw::RawStage>(&map, "stages", true)
+            .list::<crate::input::raw::RawStage>(&map, "stages", true, limits::STAGES)
             .unwrap();
         assert_eq!(items.len(), 2);
         assert_eq!(r.diagnostics.len(), 2);
@@ -373,8 +442,8 @@ mod tests {
     #[test]
     fn unknown_field_points_at_the_key_and_suggests() {
         let text = "stages:\n  - id: a\n    dealy_s: 0.1\n    sheds: [x]\n";
-        let (mut r, map) = Reader::open(text, "s.yaml").unwrap();
-        r.list::<crate::input::raw::RawStage>(&map, "stages", true);
+        let (mut r, map) = Reader::open(text, "s.yaml", &Limits::defaults()).unwrap();
+        r.list::<crate::input::raw::RawStage>(&map, "stages", true, limits::STAGES);
         let d = &r.diagnostics[0];
         assert_eq!(d.path, "stages[0].dealy_s");
         assert_eq!((d.line, d.column), (Some(3), Some(5)));

@@ -8,7 +8,7 @@ use super::*;
 /// Validates a cases file against its plant; `None` when any diagnostic was recorded.
 pub fn cases(r: &mut Reader, map: &Mapping, plant: &Plant) -> Option<CaseSet> {
     r.check_top_keys(map, &["cases"]);
-    let list: Vec<Slot<RawCase>> = r.list(map, "cases", true)?;
+    let list: Vec<Slot<RawCase>> = r.list(map, "cases", true, limits::CASES)?;
     if list.is_empty() {
         r.error(
             &FieldPath::root().key("cases"),
@@ -59,15 +59,28 @@ fn case(r: &mut Reader, p: &FieldPath, c: &RawCase, plant: &Plant) -> Case {
         applies_to = (0..plant.operating_points.len()).collect();
     }
     let duration_s = c.duration_s.unwrap_or(d::CASE_DURATION_S);
-    let duration_ok = c.duration_s.is_none()
+    let mut duration_ok = c.duration_s.is_none()
         || num(
             r,
             &p.key("duration_s"),
             duration_s,
             Lo::Above(0.0),
-            Hi::AtMost(3600.0),
+            Hi::Any,
             " s",
         );
+    let max_duration_s = r.limits.get(limits::CASE_DURATION_S);
+    if duration_ok && duration_s > max_duration_s as f64 {
+        let limit = limits::CASE_DURATION_S;
+        r.error(
+            &p.key("duration_s"),
+            format!(
+                "duration_s {duration_s} s is above the limit {} = {max_duration_s} s of simulated time",
+                limit.name
+            ),
+            limits::over_limit_help(limit, duration_s.ceil() as u64),
+        );
+        duration_ok = false;
+    }
     let weight = c.weight.unwrap_or(d::CASE_WEIGHT);
     if c.weight.is_some() {
         num(r, &p.key("weight"), weight, Lo::AtLeast(0.0), Hi::Any, "");
@@ -80,8 +93,23 @@ fn case(r: &mut Reader, p: &FieldPath, c: &RawCase, plant: &Plant) -> Case {
         );
     }
 
+    let raw_events = within_limit(
+        r,
+        &p.key("events"),
+        &c.events,
+        limits::EVENTS_PER_CASE,
+        &c.id,
+    );
+    let raw_profile = within_limit(
+        r,
+        &p.key("utility_hz"),
+        &c.utility_hz,
+        limits::PROFILE_POINTS,
+        &c.id,
+    );
+
     let mut events: Vec<CaseEvent> = Vec::new();
-    for (k, e) in c.events.iter().enumerate() {
+    for (k, e) in raw_events.iter().enumerate() {
         let ep = p.key("events").index(k);
         if num(r, &ep.key("at_s"), e.at_s, Lo::AtLeast(0.0), Hi::Any, " s")
             && duration_ok
@@ -235,7 +263,7 @@ fn case(r: &mut Reader, p: &FieldPath, c: &RawCase, plant: &Plant) -> Case {
     }
     let f0 = plant.nominal_hz;
     let mut last_t: Option<f64> = None;
-    for (k, pt) in c.utility_hz.iter().enumerate() {
+    for (k, pt) in raw_profile.iter().enumerate() {
         let pp = p.key("utility_hz").index(k);
         if num(r, &pp.key("at_s"), pt.at_s, Lo::AtLeast(0.0), Hi::Any, " s") {
             if let Some(t) = last_t {
@@ -292,4 +320,23 @@ fn case(r: &mut Reader, p: &FieldPath, c: &RawCase, plant: &Plant) -> Case {
         events,
         utility_profile,
     }
+}
+
+/// The items of a list inside a case, or none when there are more than `limit` allows (reported
+/// once, on the list).
+fn within_limit<'a, T>(
+    r: &mut Reader,
+    path: &FieldPath,
+    items: &'a [T],
+    limit: limits::Limit,
+    case_id: &str,
+) -> &'a [T] {
+    let n = items.len() as u64;
+    if !r.limits.exceeded(limit, n) {
+        return items;
+    }
+    let subject = format!("case `{case_id}` has");
+    let message = limits::over_limit_message(&r.limits, limit, &subject, n);
+    r.error(path, message, limits::over_limit_help(limit, n));
+    &[]
 }

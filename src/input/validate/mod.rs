@@ -18,6 +18,7 @@ pub use plant::plant;
 pub use scheme::scheme;
 
 use super::defaults as d;
+use super::limits;
 use super::locate::{FieldPath, Seg};
 use super::raw::*;
 use super::read::{quoted_list, Reader, Slot};
@@ -223,6 +224,11 @@ impl Ids {
 
 /// Reports an id that names nothing of its kind.
 fn unknown_id(r: &mut Reader, path: &FieldPath, kind: &str, id: &str, known: &[&str]) {
+    if r.full() {
+        // The message would not be kept; skip the edit distances over every known id.
+        r.error(path, String::new(), None);
+        return;
+    }
     let near = near_matches(id, known.iter().copied());
     let msg = if known.is_empty() {
         format!("unknown {kind} `{id}`; the plant has no {kind}s")

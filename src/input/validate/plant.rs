@@ -126,14 +126,19 @@ const PLANT_KEYS: &[&str] = &[
 pub fn plant(r: &mut Reader, map: &Mapping) -> Option<Plant> {
     r.check_top_keys(map, PLANT_KEYS);
     let header: Option<PlantHeader> = r.required(map, "plant");
-    let sections_raw: Option<Vec<Slot<String>>> = r.list(map, "sections", false);
-    let ties_raw: Vec<Slot<RawTie>> = r.list(map, "ties", false).unwrap_or_default();
+    let sections_raw: Option<Vec<Slot<String>>> = r.list(map, "sections", false, limits::SECTIONS);
+    let ties_raw: Vec<Slot<RawTie>> = r.list(map, "ties", false, limits::TIES).unwrap_or_default();
     let utility_given = !matches!(map.get("utility"), None | Some(serde_yaml::Value::Null));
     let utility_raw: Option<RawUtility> = r.optional(map, "utility");
-    let gens_raw: Option<Vec<Slot<RawGenerator>>> = r.list(map, "generators", true);
-    let loads_raw: Option<Vec<Slot<RawLoad>>> = r.list(map, "loads", true);
-    let ops_raw: Option<Vec<Slot<RawOperatingPoint>>> = r.list(map, "operating_points", false);
+    let gens_raw: Option<Vec<Slot<RawGenerator>>> =
+        r.list(map, "generators", true, limits::GENERATORS);
+    let loads_raw: Option<Vec<Slot<RawLoad>>> = r.list(map, "loads", true, limits::LOADS);
+    let ops_raw: Option<Vec<Slot<RawOperatingPoint>>> =
+        r.list(map, "operating_points", false, limits::OPERATING_POINTS);
     let criteria_raw: Option<RawCriteria> = r.optional(map, "criteria");
+    if r.over_limit {
+        return None;
+    }
     // Structurally whole: every item deserialized and every section reference resolved.
     let mut whole = r.diagnostics.is_empty();
 

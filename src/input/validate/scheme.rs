@@ -9,7 +9,7 @@ pub fn scheme(r: &mut Reader, map: &Mapping, plant: &Plant, default_name: &str) 
     r.check_top_keys(map, &["name", "measurement", "stages"]);
     let name: Option<String> = r.optional(map, "name");
     let raw_m: Option<RawMeasurement> = r.optional(map, "measurement");
-    let list: Option<Vec<Slot<RawStage>>> = r.list(map, "stages", true);
+    let list: Option<Vec<Slot<RawStage>>> = r.list(map, "stages", true, limits::STAGES);
     let mut measurement = Measurement::default();
     if let Some(m) = raw_m {
         let p = FieldPath::root().key("measurement");
