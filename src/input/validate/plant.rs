@@ -275,6 +275,30 @@ pub fn plant(r: &mut Reader, map: &Mapping) -> Option<Plant> {
         whole = false;
     }
 
+    // Empty lists: a plant study needs machines and loads (an empty list is a typo or a stub,
+    // never a plant).
+    for (key, empty, help) in [
+        (
+            "generators",
+            matches!(&gens_raw, Some(l) if l.is_empty()),
+            "add at least one generator; nadir studies plants with their own generation",
+        ),
+        (
+            "loads",
+            matches!(&loads_raw, Some(l) if l.is_empty()),
+            "add at least one load, e.g. `- { id: pumps, section: main, p_mw: 2, rank: 1 }`",
+        ),
+    ] {
+        if empty {
+            r.error(
+                &FieldPath::root().key(key),
+                format!("the {key} list is empty"),
+                help.to_string(),
+            );
+            whole = false;
+        }
+    }
+
     // Generators.
     let gens_raw = gens_raw.unwrap_or_default();
     let mut gen_ids = Ids::new("generator");
