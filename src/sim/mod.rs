@@ -1,1 +1,214 @@
-//! The simulation loop (filled by the simulator work).
+//! The simulation: replay one case at one operating point with a shedding scheme.
+//!
+//! Owns the run loop, the closed [`event::Event`] set, the integration seam and the [`Run`]
+//! record. Same inputs give the same `Run`, bit for bit (no global state, no threads, fixed
+//! iteration orders). Physics lives in [`crate::dynamics`], relay logic in [`crate::relay`];
+//! this module composes them ([`rhs`]) and owns time.
+
+mod engine;
+pub mod event;
+pub mod integrate;
+mod record;
+pub mod rhs;
+
+use crate::model::{Case, Plant, Scheme};
+use serde::Serialize;
+
+/// Options of a run.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SimConfig {
+    /// Largest integration step, seconds (0.02).
+    pub max_step_s: f64,
+    pub rtol: f64,
+    pub atol: f64,
+    /// Keep sampled frequencies in [`Run::trace`].
+    pub record_trace: bool,
+    /// Sample spacing for the trace and the windowed ROCOF, seconds (0.01).
+    pub sample_interval_s: f64,
+    /// An island whose frequency falls below this fraction of nominal has collapsed (0.85).
+    pub collapse_fraction: f64,
+    /// Window of the reported ROCOF (|f(t) − f(t − W)|/W on the samples), seconds (0.5).
+    pub rocof_window_s: f64,
+    /// Level for [`Run::recovered_above_at_s`]; `None` means 0.99 of nominal.
+    pub recover_above_hz: Option<f64>,
+    /// Crossing-location tolerance, seconds (1e-6).
+    pub locate_tol_s: f64,
+    /// Discrete events after which a run stops as an event storm (1000, plus the case's own).
+    pub max_events: usize,
+}
+
+impl Default for SimConfig {
+    fn default() -> Self {
+        SimConfig {
+            max_step_s: 0.02,
+            rtol: 1e-6,
+            atol: 1e-9,
+            record_trace: false,
+            sample_interval_s: 0.01,
+            collapse_fraction: 0.85,
+            rocof_window_s: 0.5,
+            recover_above_hz: None,
+            locate_tol_s: 1e-6,
+            max_events: 1000,
+        }
+    }
+}
+
+/// Why a run ended (or, for collapse and blackout, what went wrong first; the other islands
+/// are still simulated to the end time).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub enum StopReason {
+    EndTime,
+    Collapse { island: usize, at_s: f64 },
+    Blackout { island: usize, at_s: f64 },
+    NumericalFault { at_s: f64, detail: String },
+}
+
+/// The result of one replay.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Run {
+    pub stop: StopReason,
+    pub islands: Vec<IslandSummary>,
+    /// Lowest frequency of any island, and when.
+    pub nadir_hz: f64,
+    pub nadir_at_s: f64,
+    /// Highest frequency of the nadir's section after the nadir, and when.
+    pub peak_after_nadir_hz: f64,
+    pub peak_at_s: f64,
+    /// Max |f(t) − f(t − W)|/W over sections and samples, W = `SimConfig.rocof_window_s`.
+    pub max_rocof_hz_per_s: f64,
+    /// Lowest final frequency of the islands still alive at the end.
+    pub final_hz: f64,
+    pub recovered_above_at_s: Option<f64>,
+    pub events: Vec<LoggedEvent>,
+    pub shed_mw: f64,
+    pub trace: Option<Trace>,
+}
+
+/// One island over its lifetime (an island is new whenever its sections or its utility
+/// connection change).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct IslandSummary {
+    /// Creation order.
+    pub index: usize,
+    pub sections: Vec<String>,
+    pub on_utility: bool,
+    pub from_s: f64,
+    pub to_s: f64,
+    pub nadir_hz: f64,
+    pub nadir_at_s: f64,
+    pub peak_hz: f64,
+    pub peak_at_s: f64,
+    pub final_hz: f64,
+    pub max_rocof_hz_per_s: f64,
+    /// Load MW opened by stages while the load was in this island.
+    pub shed_mw: f64,
+    pub end: IslandEnd,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub enum IslandEnd {
+    /// Still there at the end of the run.
+    Running,
+    /// Replaced by other islands (split or utility connection changed).
+    Changed,
+    Collapsed,
+    Blackout,
+}
+
+/// A logged discrete change.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct LoggedEvent {
+    pub at_s: f64,
+    pub what: EventKind,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub enum EventKind {
+    InitialDeficit {
+        island: usize,
+        mw: f64,
+    },
+    BreakerOpened {
+        breaker: String,
+        cause: Cause,
+    },
+    LoadStep {
+        section: String,
+        mw: f64,
+    },
+    VoltageDip {
+        section: String,
+        remaining_pu: f64,
+        duration_s: f64,
+    },
+    VoltageRestored {
+        section: String,
+    },
+    StagePickup {
+        stage: String,
+    },
+    StageReset {
+        stage: String,
+    },
+    StageTripCommand {
+        stage: String,
+    },
+    LoadsOpened {
+        stage: String,
+        loads: Vec<String>,
+        mw: f64,
+    },
+    LoadDroppedOut {
+        load: String,
+        mw: f64,
+    },
+    ProtectionPickup {
+        element: String,
+    },
+    ProtectionReset {
+        element: String,
+    },
+    GeneratorTripped {
+        generator: String,
+        element: String,
+        cascade: bool,
+    },
+    IslandFormed {
+        island: usize,
+        sections: Vec<String>,
+        on_utility: bool,
+    },
+    Collapse {
+        island: usize,
+    },
+    Blackout {
+        island: usize,
+    },
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub enum Cause {
+    Case,
+    Protection { element: String },
+}
+
+/// Sampled frequencies.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Trace {
+    pub t_s: Vec<f64>,
+    /// By section: frequency of the island holding it.
+    pub section_hz: Vec<Vec<f64>>,
+    pub shed_mw: Vec<f64>,
+}
+
+/// Replay `case` at `operating_point` (index) with `scheme`.
+pub fn simulate(
+    plant: &Plant,
+    case: &Case,
+    operating_point: usize,
+    scheme: &Scheme,
+    config: &SimConfig,
+) -> Run {
+    engine::run(plant, case, operating_point, scheme, config)
+}

@@ -1,0 +1,85 @@
+//! The command line: clap definitions, one file per verb, and how errors are shown.
+//!
+//! Owns argument parsing, choosing a verb and turning library results into text. Must not do
+//! physics (that lives in the library) and nothing in the library imports this module.
+//! `anyhow` is used here and in main.rs only, to add context such as which file was being read.
+//!
+//! To add a verb: write `src/cli/<verb>.rs` with an `Args` struct (clap derive, its doc comment
+//! is the `--help`) and a `run(args) -> anyhow::Result<Outcome>`, then add one variant to
+//! [`Command`] and one arm to [`run`].
+
+pub mod check;
+pub mod schema;
+
+use clap::{Parser, Subcommand};
+
+/// Under-frequency load-shedding checks for plants with their own generation.
+///
+/// Results are screening and study aids: settings must be reviewed by a qualified protection
+/// engineer, coordinated with the grid operator, and conform to local codes.
+#[derive(Debug, Parser)]
+#[command(name = "nadir", version, about, long_about = None)]
+pub struct Cli {
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// The verbs.
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Screening figures: balance, reserve, inertia, deficits, initial ROCOF, steady frequency
+    /// and the load each stage sheds.
+    Check(check::CheckArgs),
+    /// Write the JSON Schemas of the plant, cases and scheme files.
+    Schema(schema::SchemaArgs),
+}
+
+/// How a verb that ran to the end came out.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Outcome {
+    /// Exit code 0.
+    Pass,
+    /// A criterion or audit rule fails: exit code 1 (used by the verbs that judge criteria).
+    #[allow(dead_code)]
+    Fail,
+}
+
+/// Runs the chosen verb.
+pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
+    match cli.command {
+        Command::Check(args) => check::run(args),
+        Command::Schema(args) => schema::run(args),
+    }
+}
+
+/// `nadir: ` and the cause chain joined by `: `; input diagnostics each on their own line.
+pub fn render_error(err: &anyhow::Error) -> String {
+    let mut out = String::from("nadir: ");
+    let mut first = true;
+    for cause in err.chain() {
+        if let Some(nadir::Error::Input(list)) = cause.downcast_ref::<nadir::Error>() {
+            for d in list {
+                out.push('\n');
+                out.push_str(&d.to_string());
+            }
+            break;
+        }
+        if !first {
+            out.push_str(": ");
+        }
+        out.push_str(&cause.to_string());
+        first = false;
+    }
+    out
+}
+
+/// Writes a verb's output to standard output. A closed pipe (`nadir check … | head`) ends the
+/// output quietly instead of panicking as `println!` would.
+pub fn write_stdout(text: &str) -> anyhow::Result<()> {
+    use std::io::Write;
+    let mut out = std::io::stdout().lock();
+    match out.write_all(text.as_bytes()).and_then(|()| out.flush()) {
+        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Ok(()),
+        other => Ok(other?),
+    }
+}
