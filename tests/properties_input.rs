@@ -2,7 +2,8 @@
 //! swapped, numbers replaced by extreme values, keys renamed) never make parsing or validation
 //! panic, and every refusal comes with at least one diagnostic, each with a message.
 //!
-//! The seeds are the small valid files of tests/bad_input/ (a plant, a cases file, a scheme).
+//! The seeds are the small valid files of tests/bad_input/ (a plant, a cases file, a scheme) and
+//! the demo plant of examples/biorefinery/.
 //! Failures found by proptest are kept in proptest-regressions/ and replayed first.
 
 use nadir::input::{parse_cases, parse_plant, parse_scheme, Diagnostic};
@@ -249,6 +250,17 @@ proptest! {
         let seed = T.get_or_init(|| read("scheme_ok.yaml"));
         let text = mutated(seed, &ms);
         assert_well_formed(parse_scheme(&text, "s.yaml", base_plant()))?;
+    }
+
+    #[test]
+    fn mutated_demo_plant_never_panics(ms in prop::collection::vec(mutation(), 1..4)) {
+        static T: OnceLock<String> = OnceLock::new();
+        let seed = T.get_or_init(|| {
+            let p = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("examples/biorefinery/plant.yaml");
+            std::fs::read_to_string(p).unwrap()
+        });
+        let text = mutated(seed, &ms);
+        assert_well_formed(parse_plant(&text, "demo.yaml"))?;
     }
 
     #[test]
