@@ -1157,7 +1157,6 @@ fn every_count_limit_is_enforced_and_named() {
     // Each limit lowered to 1 and met by a file with two items: the message names the limit.
     let plant = base_plant();
     let base = read("base_plant.yaml");
-    let two_ops = base.replace("import_mw: 4.0\n", "import_mw: 4.0\n");
     let plant_checks = [
         (limits::LOADS, "loads", "`loads` lists 4 loads"),
         (
@@ -1174,7 +1173,7 @@ fn every_count_limit_is_enforced_and_named() {
     ];
     for (limit, path, fragment) in plant_checks {
         let l = Limits::defaults().with(limit, 1);
-        let d = parse_plant_with(&two_ops, "p.yaml", &l).unwrap_err();
+        let d = parse_plant_with(&base, "p.yaml", &l).unwrap_err();
         assert_eq!(d.len(), 1, "{}: {d:?}", limit.name);
         assert_eq!(d[0].path, path);
         assert!(d[0].message.contains(fragment), "{}", d[0]);

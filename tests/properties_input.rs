@@ -141,7 +141,7 @@ fn keys(text: &str) -> Vec<(usize, usize)> {
     let b = text.as_bytes();
     let mut out = Vec::new();
     for (i, &c) in b.iter().enumerate() {
-        if c == b':' && b.get(i + 1).is_none_or(|n| *n == b' ' || *n == b'\n') {
+        if c == b':' && matches!(b.get(i + 1), None | Some(b' ' | b'\n')) {
             let mut s = i;
             while s > 0 && (b[s - 1].is_ascii_alphanumeric() || b[s - 1] == b'_') {
                 s -= 1;
