@@ -4,10 +4,19 @@
 //! The file name's prefix says which parser reads it (`plant_`, `cases_`, `scheme_`); cases and
 //! scheme files are read against tests/bad_input/base_plant.yaml. A check fails when a diagnostic
 //! is missing and also when an unexpected one appears.
+//!
+//! Every check also times the parse and fails past one second ([`TIME_BOUND`]). That bound is a
+//! guard against a blow-up (an alias bomb expanded, a quadratic check on a huge list), not a
+//! benchmark: the files parse in about a millisecond in a debug build. Inputs too large to commit
+//! (a file of tens of MB, lists past the count limits) are generated into a temporary directory.
 
-use nadir::input::{parse_cases, parse_plant, parse_scheme, Diagnostic};
+use nadir::input::{
+    limits, load_plant, parse_cases, parse_cases_with, parse_plant, parse_plant_with, parse_scheme,
+    parse_scheme_with, Diagnostic, Limits, MAX_FILE_BYTES,
+};
 use nadir::model::Plant;
 use std::path::PathBuf;
+use std::time::{Duration, Instant};
 
 fn dir() -> PathBuf {
     PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("tests/bad_input")
@@ -24,14 +33,29 @@ fn base_plant() -> Plant {
     }
 }
 
+/// Generous bound on one file's parse, in a debug build on a shared 2-core machine.
+const TIME_BOUND: Duration = Duration::from_secs(1);
+
 fn diagnostics(name: &str) -> Vec<Diagnostic> {
     let text = read(name);
+    let plant = base_plant();
+    let start = Instant::now();
+    let got = diagnostics_of(name, &text, &plant);
+    let took = start.elapsed();
+    assert!(
+        took < TIME_BOUND,
+        "{name}: parse took {took:?}, bound {TIME_BOUND:?}"
+    );
+    got
+}
+
+fn diagnostics_of(name: &str, text: &str, plant: &Plant) -> Vec<Diagnostic> {
     let result = if name.starts_with("plant_") {
-        parse_plant(&text, name).map(|_| ())
+        parse_plant(text, name).map(|_| ())
     } else if name.starts_with("cases_") {
-        parse_cases(&text, name, &base_plant()).map(|_| ())
+        parse_cases(text, name, plant).map(|_| ())
     } else if name.starts_with("scheme_") {
-        parse_scheme(&text, name, &base_plant()).map(|_| ())
+        parse_scheme(text, name, plant).map(|_| ())
     } else {
         panic!("{name}: file name must start with plant_, cases_ or scheme_");
     };
@@ -42,14 +66,16 @@ fn diagnostics(name: &str) -> Vec<Diagnostic> {
 }
 
 /// Every expected `(line, path, fragment)` must match one diagnostic (fragment searched in the
-/// message and help), and every diagnostic must be expected.
+/// message and help), and every diagnostic must be expected. Line 0 stands for a diagnostic of
+/// the whole file, which has no line.
 fn check(name: &str, expected: &[(usize, &str, &str)]) {
     let got = diagnostics(name);
     let shown: Vec<String> = got.iter().map(|d| d.to_string()).collect();
     let shown = shown.join("\n");
     for (line, path, fragment) in expected {
+        let want_line = (*line > 0).then_some(*line);
         let hit = got.iter().any(|d| {
-            d.line == Some(*line)
+            d.line == want_line
                 && d.path == *path
                 && (d.message.contains(fragment)
                     || d.help.as_deref().is_some_and(|h| h.contains(fragment)))
@@ -67,7 +93,11 @@ fn check(name: &str, expected: &[(usize, &str, &str)]) {
     );
     for d in &got {
         assert_eq!(d.file, name);
-        assert!(d.column.is_some(), "{name}: no column in {d}");
+        assert_eq!(
+            d.column.is_some(),
+            d.line.is_some(),
+            "{name}: line without column in {d}"
+        );
         assert!(
             !d.message.ends_with('.')
                 && d.message.chars().next().is_some_and(|c| !c.is_uppercase()),
@@ -764,7 +794,6 @@ fn odd_documents_never_panic() {
 
 #[test]
 fn load_functions_report_io_and_size_limit() {
-    use nadir::input::{load_plant, MAX_FILE_BYTES};
     use nadir::Error;
     match load_plant(std::path::Path::new("/nonexistent/plant.yaml")) {
         Err(Error::Io { path, .. }) => assert_eq!(path, "/nonexistent/plant.yaml"),
@@ -775,7 +804,9 @@ fn load_functions_report_io_and_size_limit() {
     let r = load_plant(&big);
     let _ = std::fs::remove_file(&big);
     match r {
-        Err(Error::Input(d)) => assert!(d[0].message.contains("input size limit of 4 MiB")),
+        Err(Error::Input(d)) => assert!(d[0]
+            .message
+            .contains("input size limit max_file_bytes = 4194304 bytes (4.0 MiB)")),
         other => panic!("expected the size limit, got {other:?}"),
     }
     let p = load_plant(&dir().join("base_plant.yaml")).unwrap();
@@ -813,4 +844,510 @@ operating_points:
     // Limited to the point that can run islanded, the same case is accepted.
     let only = "cases:\n  - id: c\n    start: islanded\n    only_at: [all-running]\n    events: [ { at_s: 0, trip: gs } ]\n";
     assert!(parse_cases(only, "c.yaml", &plant).is_ok());
+}
+
+// ---------------------------------------------------------------- syntax, shape and reader guards
+
+#[test]
+fn syntax_errors_name_the_place_and_the_fix() {
+    check(
+        "plant_syntax_tab.yaml",
+        &[(3, "", "indent with spaces; yaml does not allow tabs")],
+    );
+    check(
+        "scheme_syntax_bracket.yaml",
+        &[(
+            3,
+            "",
+            "did not find expected ',' or ']' at line 3 column 62",
+        )],
+    );
+    check(
+        "cases_duplicate_key.yaml",
+        &[(4, "", "cases[1]: duplicate entry with key \"id\"")],
+    );
+    check(
+        "plant_two_documents.yaml",
+        &[(0, "", "keep one document per file")],
+    );
+}
+
+#[test]
+fn documents_that_are_not_a_mapping_or_are_empty() {
+    check(
+        "plant_list_document.yaml",
+        &[(
+            1,
+            "",
+            "the file holds a list, expected a mapping of top-level fields",
+        )],
+    );
+    check("plant_empty_file.yaml", &[(0, "", "the file is empty")]);
+    check(
+        "scheme_stage_wrong_shape.yaml",
+        &[(2, "stages", "`stages` is a mapping, expected a list")],
+    );
+}
+
+#[test]
+fn alias_bomb_is_refused_quickly() {
+    // 9^9 strings if expanded; serde_yaml stops at its repetition limit (docs/guarantees.md).
+    check(
+        "plant_alias_bomb.yaml",
+        &[(0, "", "the file expands aliases beyond the reader's limit")],
+    );
+}
+
+#[test]
+fn deep_nesting_is_refused_at_its_place() {
+    check(
+        "plant_deep_nesting.yaml",
+        &[(2, "", "the file nests deeper than the reader's limit")],
+    );
+    // Far deeper, generated: still one message, no stack overflow, within the time bound.
+    let text = format!("plant: {}{}\n", "[".repeat(200_000), "]".repeat(200_000));
+    let start = Instant::now();
+    let d = parse_plant(&text, "deep.yaml").unwrap_err();
+    assert!(start.elapsed() < TIME_BOUND, "took {:?}", start.elapsed());
+    assert_eq!(d.len(), 1, "{d:?}");
+    assert!(d[0].message.contains("nests deeper"), "{}", d[0]);
+    assert_eq!(d[0].line, Some(1));
+}
+
+// ---------------------------------------------------------------- missing, empty, non-finite
+
+#[test]
+fn missing_required_fields_are_all_named() {
+    check(
+        "plant_missing_fields.yaml",
+        &[
+            (1, "plant.nominal_hz", "missing field `nominal_hz`"),
+            (
+                3,
+                "generators[0].rating_mva",
+                "add `rating_mva`; it has no default",
+            ),
+            (9, "loads[0].p_mw", "missing field `p_mw`"),
+        ],
+    );
+}
+
+#[test]
+fn empty_lists_are_refused() {
+    check(
+        "plant_empty_lists.yaml",
+        &[
+            (2, "generators", "the generators list is empty"),
+            (3, "loads", "the loads list is empty"),
+        ],
+    );
+    check(
+        "cases_empty.yaml",
+        &[(1, "cases", "the cases list is empty")],
+    );
+}
+
+#[test]
+fn nan_and_infinity_are_refused_with_the_field() {
+    check(
+        "plant_nan_inf.yaml",
+        &[
+            (
+                5,
+                "generators[0].rating_mva",
+                "rating_mva is inf, expected a finite number",
+            ),
+            (
+                6,
+                "generators[0].inertia_s",
+                "inertia_s is NaN, expected a finite number",
+            ),
+            (
+                8,
+                "generators[0].governor.droop_pct",
+                "droop_pct is -inf, expected a finite number",
+            ),
+            (10, "loads[0].p_mw", "p_mw is NaN, expected a finite number"),
+        ],
+    );
+    check(
+        "cases_nan_times.yaml",
+        &[
+            (
+                3,
+                "cases[0].duration_s",
+                "duration_s is inf, expected a finite number",
+            ),
+            (
+                4,
+                "cases[0].events[0].at_s",
+                "at_s is NaN, expected a finite number",
+            ),
+        ],
+    );
+    check(
+        "scheme_nan_settings.yaml",
+        &[
+            (
+                2,
+                "stages[0].pickup_hz",
+                "pickup_hz is NaN, expected a finite number",
+            ),
+            (
+                2,
+                "stages[0].delay_s",
+                "delay_s is inf, expected a finite number",
+            ),
+        ],
+    );
+}
+
+#[test]
+fn contradictory_settings() {
+    check(
+        "plant_ties_contradict.yaml",
+        &[(
+            14,
+            "operating_points[0].ties_closed[0]",
+            "tie `t1` is listed in both ties_open and ties_closed",
+        )],
+    );
+    check(
+        "plant_generator_dispatch_order.yaml",
+        &[(
+            8,
+            "generators[0].min_mw",
+            "min_mw 4 MW is above max_mw 3 MW",
+        )],
+    );
+}
+
+#[test]
+fn cases_type_errors_in_three_cases() {
+    check(
+        "cases_event_type_errors.yaml",
+        &[
+            (
+                3,
+                "cases[0].start",
+                "unknown variant `floating`, expected `connected` or `islanded`",
+            ),
+            (
+                6,
+                "cases[1].events[0].at_s",
+                "write a number, without units or quotes",
+            ),
+            (
+                8,
+                "cases[2].events[0].trip",
+                "invalid type: sequence, expected a string",
+            ),
+        ],
+    );
+}
+
+// ---------------------------------------------------------------- limits
+
+/// A valid plant text with `n` loads on one section, for the count limits.
+fn plant_with_loads(n: usize) -> String {
+    let mut t = String::from(
+        "plant: { name: generated, nominal_hz: 50 }\n\
+         generators:\n  - { id: g, section: main, rating_mva: 9000, inertia_s: 3, output_mw: 1, \
+         governor: { model: steam, droop_pct: 5 } }\nloads:\n",
+    );
+    for i in 0..n {
+        t.push_str(&format!(
+            "  - {{ id: l{i}, section: main, p_mw: 0.0004, rank: 1 }}\n"
+        ));
+    }
+    t
+}
+
+fn timed<T>(what: &str, f: impl FnOnce() -> T) -> T {
+    let start = Instant::now();
+    let out = f();
+    let took = start.elapsed();
+    assert!(
+        took < TIME_BOUND,
+        "{what}: took {took:?}, bound {TIME_BOUND:?}"
+    );
+    out
+}
+
+#[test]
+fn case_duration_above_the_limit_says_how_to_raise_it() {
+    check(
+        "cases_duration_limit.yaml",
+        &[(
+            3,
+            "cases[0].duration_s",
+            "duration_s 7200 s is above the limit max_case_duration_s = 3600 s",
+        )],
+    );
+    let d = diagnostics("cases_duration_limit.yaml");
+    assert!(d[0]
+        .help
+        .as_deref()
+        .unwrap()
+        .contains("environment variable NADIR_MAX_CASE_DURATION_S=7200"));
+    // Raised, the same file is accepted.
+    let raised = Limits::defaults().with(limits::CASE_DURATION_S, 7200);
+    let text = read("cases_duration_limit.yaml");
+    assert!(parse_cases_with(&text, "c.yaml", &base_plant(), &raised).is_ok());
+}
+
+#[test]
+fn default_count_limits_on_generated_files() {
+    // 2001 loads: one message on the list, no item read, no cascade.
+    let text = plant_with_loads(2001);
+    let d = timed("2001 loads", || parse_plant(&text, "big.yaml")).unwrap_err();
+    assert_eq!(d.len(), 1, "{d:?}");
+    // The place of a list is its first item, as for other list diagnostics.
+    assert_eq!((d[0].path.as_str(), d[0].line), ("loads", Some(5)));
+    assert_eq!(
+        d[0].message,
+        "`loads` lists 2001 loads, above the limit max_loads = 2000"
+    );
+    assert!(d[0]
+        .help
+        .as_deref()
+        .unwrap()
+        .contains("NADIR_MAX_LOADS=2001"));
+    // 2000 is within the limit and valid.
+    let text = plant_with_loads(2000);
+    let p = timed("2000 loads", || parse_plant(&text, "ok.yaml")).unwrap();
+    assert_eq!(p.loads.len(), 2000);
+
+    let plant = base_plant();
+    let mut stages = String::from("stages:\n");
+    for i in 0..65 {
+        stages.push_str(&format!(
+            "  - {{ id: s{i}, pickup_hz: 49, delay_s: 0.1, sheds: [dryer] }}\n"
+        ));
+    }
+    let d = timed("65 stages", || parse_scheme(&stages, "s.yaml", &plant)).unwrap_err();
+    assert_eq!(d.len(), 1, "{d:?}");
+    assert_eq!((d[0].path.as_str(), d[0].line), ("stages", Some(2)));
+    assert!(d[0]
+        .message
+        .contains("65 stages, above the limit max_stages = 64"));
+    assert!(d[0]
+        .help
+        .as_deref()
+        .unwrap()
+        .contains("NADIR_MAX_STAGES=65"));
+
+    let mut cases = String::from("cases:\n  - id: many\n    duration_s: 200\n    events:\n");
+    for i in 0..101 {
+        cases.push_str(&format!("      - {{ at_s: {i}, trip: eng-1 }}\n"));
+    }
+    let d = timed("101 events", || parse_cases(&cases, "c.yaml", &plant)).unwrap_err();
+    assert_eq!(d.len(), 1, "{d:?}");
+    assert_eq!(
+        (d[0].path.as_str(), d[0].line),
+        ("cases[0].events", Some(5))
+    );
+    assert!(d[0]
+        .message
+        .contains("case `many` has 101 events, above the limit max_events_per_case = 100"));
+}
+
+#[test]
+fn every_count_limit_is_enforced_and_named() {
+    // Each limit lowered to 1 and met by a file with two items: the message names the limit.
+    let plant = base_plant();
+    let base = read("base_plant.yaml");
+    let plant_checks = [
+        (limits::LOADS, "loads", "`loads` lists 4 loads"),
+        (
+            limits::GENERATORS,
+            "generators",
+            "`generators` lists 2 generators",
+        ),
+        (limits::SECTIONS, "sections", "`sections` lists 2 sections"),
+        (
+            limits::OPERATING_POINTS,
+            "operating_points",
+            "`operating_points` lists 2 operating points",
+        ),
+    ];
+    for (limit, path, fragment) in plant_checks {
+        let l = Limits::defaults().with(limit, 1);
+        let d = parse_plant_with(&base, "p.yaml", &l).unwrap_err();
+        assert_eq!(d.len(), 1, "{}: {d:?}", limit.name);
+        assert_eq!(d[0].path, path);
+        assert!(d[0].message.contains(fragment), "{}", d[0]);
+        assert!(
+            d[0].message.contains(&format!("{} = 1", limit.name)),
+            "{}",
+            d[0]
+        );
+        assert!(d[0].help.as_deref().unwrap().contains(limit.env));
+    }
+    let one_tie = Limits::defaults().with(limits::TIES, 0);
+    let d = parse_plant_with(&base, "p.yaml", &one_tie).unwrap_err();
+    assert!(d[0].message.contains("max_ties = 0"), "{d:?}");
+
+    let cases = read("cases_ok.yaml");
+    let l = Limits::defaults().with(limits::CASES, 2);
+    let d = parse_cases_with(&cases, "c.yaml", &plant, &l).unwrap_err();
+    assert!(d[0]
+        .message
+        .contains("`cases` lists 3 cases, above the limit max_cases = 2"));
+    let l = Limits::defaults().with(limits::EVENTS_PER_CASE, 1);
+    let d = parse_cases_with(&cases, "c.yaml", &plant, &l).unwrap_err();
+    assert_eq!(d.len(), 1, "{d:?}");
+    assert_eq!(d[0].path, "cases[1].events");
+    let profile =
+        "cases:\n  - id: p\n    events: []\n    utility_hz: [ { at_s: 0, hz: 50 }, { at_s: 1, hz: 49.5 } ]\n";
+    let l = Limits::defaults().with(limits::PROFILE_POINTS, 1);
+    let d = parse_cases_with(profile, "c.yaml", &plant, &l).unwrap_err();
+    assert!(d[0].message.contains("max_profile_points = 1"), "{d:?}");
+
+    let l = Limits::defaults().with(limits::FILE_BYTES, 10);
+    let d = parse_scheme_with(&read("scheme_ok.yaml"), "s.yaml", &plant, &l).unwrap_err();
+    assert!(d[0].message.contains("max_file_bytes = 10 bytes"), "{d:?}");
+    assert!(d[0]
+        .help
+        .as_deref()
+        .unwrap()
+        .contains("NADIR_MAX_FILE_BYTES="));
+}
+
+#[test]
+fn huge_file_is_refused_before_it_is_read() {
+    use nadir::Error;
+    let dir = temp_dir("huge");
+    // 40 MB, sparse: refused from its metadata length, so the test costs neither the disk space
+    // nor the time of writing it.
+    let path = dir.join("plant_huge.yaml");
+    let f = std::fs::File::create(&path).unwrap();
+    f.set_len(40 * 1024 * 1024).unwrap();
+    drop(f);
+    let r = timed("40 MB file", || load_plant(&path));
+    match r {
+        Err(Error::Input(d)) => {
+            assert_eq!(d.len(), 1);
+            assert!(d[0]
+                .message
+                .contains("larger than the input size limit max_file_bytes"));
+            assert!(d[0].message.contains("it has 41943040 bytes"), "{}", d[0]);
+            assert!(d[0]
+                .help
+                .as_deref()
+                .unwrap()
+                .contains("NADIR_MAX_FILE_BYTES=41943040"));
+        }
+        other => panic!("expected the size limit, got {other:?}"),
+    }
+    // An endless device has no length: reading stops one byte past the limit.
+    let zero = std::path::Path::new("/dev/zero");
+    if zero.exists() {
+        match timed("/dev/zero", || load_plant(zero)) {
+            Err(Error::Input(d)) => assert!(d[0].message.contains("input size limit")),
+            other => panic!("expected the size limit, got {other:?}"),
+        }
+    }
+    // Just under the limit, a real file of ordinary lines is parsed (and refused for its count).
+    // This one is not held to the one-second bound: the two yaml passes (serde_yaml, then the
+    // locator) take about 1.2 s in a release build and about 4.5 s in a debug one on this
+    // machine. The 20 s bound only guards that the path stays linear in the size (the quadratic
+    // flow nesting of the parser underneath would take minutes).
+    let text = plant_with_loads(70_000);
+    assert!(text.len() as u64 <= MAX_FILE_BYTES, "{}", text.len());
+    std::fs::write(&path, &text).unwrap();
+    let start = Instant::now();
+    match load_plant(&path) {
+        Err(Error::Input(d)) => assert!(d[0].message.contains("max_loads"), "{d:?}"),
+        other => panic!("expected the load limit, got {other:?}"),
+    }
+    assert!(
+        start.elapsed() < Duration::from_secs(20),
+        "{:?}",
+        start.elapsed()
+    );
+    // Not utf-8.
+    std::fs::write(&path, b"plant: \xff\xfe\n").unwrap();
+    match load_plant(&path) {
+        Err(Error::Input(d)) => {
+            assert!(d[0]
+                .message
+                .contains("not utf-8 text (invalid byte at offset 7)"))
+        }
+        other => panic!("expected not utf-8, got {other:?}"),
+    }
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn many_mistakes_are_capped_with_a_count() {
+    // 3000 loads each with a negative power: 1000 kept, the rest counted in one closing entry.
+    let mut text = String::from(
+        "plant: { name: t, nominal_hz: 50 }\ngenerators:\n  - { id: g, section: main, rating_mva: 5, inertia_s: 3, output_mw: 1, governor: { model: steam, droop_pct: 5 } }\nloads:\n",
+    );
+    for i in 0..1500 {
+        text.push_str(&format!(
+            "  - {{ id: l{i}, section: nowhere, p_mw: -1, rank: 1 }}\n"
+        ));
+    }
+    let d = timed("3000 mistakes", || parse_plant(&text, "m.yaml")).unwrap_err();
+    assert_eq!(d.len(), limits::MAX_DIAGNOSTICS + 1);
+    assert_eq!(
+        d.last().unwrap().message,
+        "2000 more mistake(s) not shown; only the first 1000 are listed"
+    );
+}
+
+fn temp_dir(what: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("nadir-test-{what}-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    dir
+}
+
+// ---------------------------------------------------------------- the corpus as a whole
+
+#[test]
+fn corpus_has_forty_bad_files_each_refused_with_place_and_fix() {
+    const VALID: [&str; 3] = ["base_plant.yaml", "cases_ok.yaml", "scheme_ok.yaml"];
+    let plant = base_plant();
+    let mut n_bad = 0;
+    let mut names: Vec<String> = std::fs::read_dir(dir())
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .filter(|n| n.ends_with(".yaml"))
+        .collect();
+    names.sort();
+    for name in &names {
+        let text = read(name);
+        let start = Instant::now();
+        let d = if name == "base_plant.yaml" {
+            parse_plant(&text, name).err().unwrap_or_default()
+        } else {
+            diagnostics_of(name, &text, &plant)
+        };
+        assert!(
+            start.elapsed() < TIME_BOUND,
+            "{name}: {:?}",
+            start.elapsed()
+        );
+        if VALID.contains(&name.as_str()) {
+            assert!(d.is_empty(), "{name} must be valid: {d:?}");
+            continue;
+        }
+        n_bad += 1;
+        assert!(
+            !d.is_empty(),
+            "{name}: accepted, but it is in the bad-input corpus"
+        );
+        for x in &d {
+            assert!(!x.message.is_empty() && x.help.is_some(), "{name}: {x}");
+            assert_eq!(x.file, *name);
+        }
+        // A place: a line, or a file-wide mistake (syntax guards, empty file) said as such.
+        assert!(
+            d.iter().all(|x| x.line.is_some() || x.path.is_empty()),
+            "{name}: a field diagnostic without a line: {d:?}"
+        );
+    }
+    assert!(n_bad >= 40, "only {n_bad} bad files in tests/bad_input");
 }

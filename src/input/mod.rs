@@ -4,6 +4,7 @@
 //! this module knows that YAML exists.
 
 pub mod defaults;
+pub mod limits;
 mod locate;
 pub mod raw;
 mod read;
@@ -11,37 +12,63 @@ mod validate;
 
 use crate::error::Error;
 use crate::model::{CaseSet, Plant, Scheme};
+pub use limits::{Limit, Limits};
 use read::Reader;
 use std::fmt;
 use std::io::Read;
 use std::path::Path;
 
-/// Largest input file read, in bytes (4 MiB): far above any real plant, small enough that a wrong
-/// file (a log, a binary) is refused before parsing.
-pub const MAX_FILE_BYTES: u64 = 4 * 1024 * 1024;
+/// Largest input file read by default, in bytes (4 MiB); see [`limits::FILE_BYTES`].
+pub const MAX_FILE_BYTES: u64 = limits::FILE_BYTES.default;
 
-/// Validates a plant file's text; `file` is the name used in messages.
+/// Validates a plant file's text; `file` is the name used in messages. Limits come from the
+/// environment ([`Limits::from_env`]).
 pub fn parse_plant(text: &str, file: &str) -> Result<Plant, Vec<Diagnostic>> {
-    let (mut r, map) = Reader::open(text, file)?;
+    parse_plant_with(text, file, &env_limits(file)?)
+}
+
+/// Validates a cases file's text against its plant.
+pub fn parse_cases(text: &str, file: &str, plant: &Plant) -> Result<CaseSet, Vec<Diagnostic>> {
+    parse_cases_with(text, file, plant, &env_limits(file)?)
+}
+
+/// Validates a scheme file's text against its plant. A scheme without `name` is named after the
+/// file's stem.
+pub fn parse_scheme(text: &str, file: &str, plant: &Plant) -> Result<Scheme, Vec<Diagnostic>> {
+    parse_scheme_with(text, file, plant, &env_limits(file)?)
+}
+
+/// [`parse_plant`] under the given limits instead of the environment's.
+pub fn parse_plant_with(text: &str, file: &str, limits: &Limits) -> Result<Plant, Vec<Diagnostic>> {
+    let (mut r, map) = Reader::open(text, file, limits)?;
     match validate::plant(&mut r, &map) {
         Some(p) if r.diagnostics.is_empty() => Ok(p),
         _ => Err(nonempty(r, file)),
     }
 }
 
-/// Validates a cases file's text against its plant.
-pub fn parse_cases(text: &str, file: &str, plant: &Plant) -> Result<CaseSet, Vec<Diagnostic>> {
-    let (mut r, map) = Reader::open(text, file)?;
+/// [`parse_cases`] under the given limits instead of the environment's.
+pub fn parse_cases_with(
+    text: &str,
+    file: &str,
+    plant: &Plant,
+    limits: &Limits,
+) -> Result<CaseSet, Vec<Diagnostic>> {
+    let (mut r, map) = Reader::open(text, file, limits)?;
     match validate::cases(&mut r, &map, plant) {
         Some(c) if r.diagnostics.is_empty() => Ok(c),
         _ => Err(nonempty(r, file)),
     }
 }
 
-/// Validates a scheme file's text against its plant. A scheme without `name` is named after the
-/// file's stem.
-pub fn parse_scheme(text: &str, file: &str, plant: &Plant) -> Result<Scheme, Vec<Diagnostic>> {
-    let (mut r, map) = Reader::open(text, file)?;
+/// [`parse_scheme`] under the given limits instead of the environment's.
+pub fn parse_scheme_with(
+    text: &str,
+    file: &str,
+    plant: &Plant,
+    limits: &Limits,
+) -> Result<Scheme, Vec<Diagnostic>> {
+    let (mut r, map) = Reader::open(text, file, limits)?;
     let stem = Path::new(file)
         .file_stem()
         .and_then(|s| s.to_str())
@@ -70,10 +97,30 @@ pub fn load_scheme(path: &Path, plant: &Plant) -> Result<Scheme, Error> {
     parse_scheme(&text, &file, plant).map_err(Error::Input)
 }
 
-/// A validator that returns `None` has always recorded why; this guards that promise.
-fn nonempty(r: Reader, file: &str) -> Vec<Diagnostic> {
-    if r.diagnostics.is_empty() {
+/// The environment's limits; a malformed `NADIR_MAX_*` variable is a diagnostic of the file being
+/// read, since the file cannot be checked without knowing its limits.
+fn env_limits(file: &str) -> Result<Limits, Vec<Diagnostic>> {
+    Limits::from_env().map_err(|e| {
         vec![Diagnostic {
+            file: file.to_string(),
+            line: None,
+            column: None,
+            path: String::new(),
+            message: e.to_string(),
+            help: Some(format!(
+                "unset {} to use the default, or set it to a whole number such as 5000",
+                e.env
+            )),
+        }]
+    })
+}
+
+/// A validator that returns `None` has always recorded why; this guards that promise. Diagnostics
+/// past the cap are summed up in one last entry.
+fn nonempty(r: Reader, file: &str) -> Vec<Diagnostic> {
+    let mut list = r.diagnostics;
+    if list.is_empty() {
+        list.push(Diagnostic {
             file: file.to_string(),
             line: None,
             column: None,
@@ -81,52 +128,70 @@ fn nonempty(r: Reader, file: &str) -> Vec<Diagnostic> {
             message: "internal error (please report): validation failed without a diagnostic"
                 .to_string(),
             help: None,
-        }]
-    } else {
-        r.diagnostics
+        });
     }
+    if r.suppressed > 0 {
+        list.push(Diagnostic {
+            file: file.to_string(),
+            line: None,
+            column: None,
+            path: String::new(),
+            message: format!(
+                "{} more mistake(s) not shown; only the first {} are listed",
+                r.suppressed,
+                limits::MAX_DIAGNOSTICS
+            ),
+            help: Some(
+                "fix the mistakes shown (or check that this is the intended file) and run again"
+                    .to_string(),
+            ),
+        });
+    }
+    list
 }
 
+/// Reads a file as text, refusing one above the size limit before reading it: first by its
+/// metadata length, then (for pipes and devices, whose length is unknown) by reading at most one
+/// byte past the limit. Memory use is bounded by the limit either way.
 fn read_capped(path: &Path) -> Result<(String, String), Error> {
     let file = path.display().to_string();
+    let limits = env_limits(&file).map_err(Error::Input)?;
+    let max = limits.get(limits::FILE_BYTES);
     let io = |source| Error::Io {
         path: file.clone(),
         source,
     };
     let f = std::fs::File::open(path).map_err(io)?;
+    let meta = f.metadata().map_err(io)?;
+    if meta.is_file() && meta.len() > max {
+        return Err(Error::Input(vec![read::size_diagnostic(
+            &file,
+            &limits,
+            Some(meta.len()),
+        )]));
+    }
     let mut bytes = Vec::new();
-    // Read one byte past the cap so that an oversized file (or an endless device) is noticed
-    // without reading it all.
-    f.take(MAX_FILE_BYTES + 1)
+    f.take(max.saturating_add(1))
         .read_to_end(&mut bytes)
         .map_err(io)?;
-    let whole = |message: String, help: &str| {
-        Error::Input(vec![Diagnostic {
+    if bytes.len() as u64 > max {
+        return Err(Error::Input(vec![read::size_diagnostic(
+            &file, &limits, None,
+        )]));
+    }
+    match String::from_utf8(bytes) {
+        Ok(text) => Ok((text, file)),
+        Err(e) => Err(Error::Input(vec![Diagnostic {
             file: file.clone(),
             line: None,
             column: None,
             path: String::new(),
-            message,
-            help: Some(help.to_string()),
-        }])
-    };
-    if bytes.len() as u64 > MAX_FILE_BYTES {
-        return Err(whole(
-            format!(
-                "the file is larger than the input size limit of 4 MiB ({MAX_FILE_BYTES} bytes)"
-            ),
-            "check that this is the intended file; plant, cases and scheme files are small",
-        ));
-    }
-    match String::from_utf8(bytes) {
-        Ok(text) => Ok((text, file)),
-        Err(e) => Err(whole(
-            format!(
+            message: format!(
                 "the file is not utf-8 text (invalid byte at offset {})",
                 e.utf8_error().valid_up_to()
             ),
-            "save the file as utf-8",
-        )),
+            help: Some("save the file as utf-8".to_string()),
+        }])),
     }
 }
 

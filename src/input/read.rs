@@ -4,6 +4,7 @@
 //! Owns the [`Reader`] (file name, locator and the growing list of diagnostics) and the wording of
 //! serde's type errors. It must not check meaning (ranges, ids); that is [`super::validate`].
 
+use super::limits::{self, Limit, Limits};
 use super::locate::{FieldPath, Locator, Seg};
 use super::Diagnostic;
 use serde::de::DeserializeOwned;
@@ -21,7 +22,13 @@ pub enum Slot<T> {
 pub struct Reader {
     file: String,
     locator: Locator,
+    pub limits: Limits,
     pub diagnostics: Vec<Diagnostic>,
+    /// Diagnostics past [`limits::MAX_DIAGNOSTICS`], counted but not kept.
+    pub suppressed: usize,
+    /// A list was refused for its length; its items were not read, so the validators stop
+    /// before cross-checks that would report every reference to them as unknown.
+    pub over_limit: bool,
 }
 
 /// Whether a diagnostic points at a key (unknown or misplaced field) or at a value.
@@ -32,8 +39,30 @@ pub enum At {
 }
 
 impl Reader {
-    /// Parses the YAML syntax; a syntax error is the one diagnostic of the file.
-    pub fn open(text: &str, file: &str) -> Result<(Reader, Mapping), Vec<Diagnostic>> {
+    /// Parses the YAML syntax; a syntax error (or a text above the size limit) is the one
+    /// diagnostic of the file.
+    pub fn open(
+        text: &str,
+        file: &str,
+        limits: &Limits,
+    ) -> Result<(Reader, Mapping), Vec<Diagnostic>> {
+        let bytes = text.len() as u64;
+        if limits.exceeded(limits::FILE_BYTES, bytes) {
+            return Err(vec![size_diagnostic(file, limits, Some(bytes))]);
+        }
+        if let Some((line, column)) = flow_nesting_beyond(text, MAX_FLOW_DEPTH) {
+            return Err(vec![Diagnostic {
+                file: file.to_string(),
+                line: Some(line),
+                column: Some(column),
+                path: String::new(),
+                message: format!(
+                    "the file nests deeper than the reader's limit (more than {MAX_FLOW_DEPTH} \
+                     open brackets at line {line} column {column})"
+                ),
+                help: Some(syntax_help("recursion limit exceeded").to_string()),
+            }]);
+        }
         let value: Value = match serde_yaml::from_str(text) {
             Ok(v) => v,
             Err(e) => {
@@ -46,19 +75,18 @@ impl Reader {
                     line,
                     column,
                     path: String::new(),
-                    message: format!("the file is not valid yaml: {e}"),
-                    help: Some(
-                        "fix the yaml syntax near the place shown; check indentation, colons, \
-                         brackets and quotes"
-                            .to_string(),
-                    ),
+                    message: syntax_message(&e.to_string()),
+                    help: Some(syntax_help(&e.to_string()).to_string()),
                 }]);
             }
         };
         let reader = Reader {
             file: file.to_string(),
             locator: Locator::new(text),
+            limits: limits.clone(),
             diagnostics: Vec::new(),
+            suppressed: 0,
+            over_limit: false,
         };
         match value {
             Value::Mapping(m) => Ok((reader, m)),
@@ -95,8 +123,17 @@ impl Reader {
         }
     }
 
+    /// Whether the list of kept diagnostics is full; callers may skip costly hints then.
+    pub fn full(&self) -> bool {
+        self.diagnostics.len() >= limits::MAX_DIAGNOSTICS
+    }
+
     /// Records a mistake in the value at `path`.
     pub fn error(&mut self, path: &FieldPath, message: String, help: impl Into<Option<String>>) {
+        if self.full() {
+            self.suppressed += 1;
+            return;
+        }
         let d = self.make(path, At::Value, message, help.into());
         self.diagnostics.push(d);
     }
@@ -108,6 +145,10 @@ impl Reader {
         message: String,
         help: impl Into<Option<String>>,
     ) {
+        if self.full() {
+            self.suppressed += 1;
+            return;
+        }
         let d = self.make(path, At::Key, message, help.into());
         self.diagnostics.push(d);
     }
@@ -167,13 +208,15 @@ impl Reader {
         }
     }
 
-    /// A top-level list, each item on its own. `None` when absent (and reported if `required`) or
-    /// when the field is not a list at all.
+    /// A top-level list, each item on its own. `None` when absent (and reported if `required`),
+    /// when the field is not a list at all, or when it has more items than `limit` allows (then
+    /// no item is read, so that an oversized list costs one message and little time).
     pub fn list<T: DeserializeOwned>(
         &mut self,
         map: &Mapping,
         key: &str,
         required: bool,
+        limit: Limit,
     ) -> Option<Vec<Slot<T>>> {
         let path = FieldPath::root().key(key);
         let seq = match map.get(key) {
@@ -197,6 +240,17 @@ impl Reader {
                 return None;
             }
         };
+        let n = seq.len() as u64;
+        if self.limits.exceeded(limit, n) {
+            let subject = format!("`{key}` lists");
+            self.error(
+                &path,
+                limits::over_limit_message(&self.limits, limit, &subject, n),
+                limits::over_limit_help(limit, n),
+            );
+            self.over_limit = true;
+            return None;
+        }
         let mut out = Vec::with_capacity(seq.len());
         for (i, item) in seq.iter().enumerate() {
             let item_path = path.index(i);
@@ -274,6 +328,138 @@ impl Reader {
     }
 }
 
+/// Flow brackets (`[`, `{`) open at once beyond which a file is refused before parsing. The yaml
+/// parser underneath (libyaml) takes time quadratic in flow nesting (measured: 20 000 levels, a
+/// 40 kB file, take 1.5 s; 200 000 levels take over 3 minutes), so depth is counted first, in one
+/// pass. serde_yaml refuses any nesting past 128 anyway; the margin covers brackets inside plain
+/// block scalars, which this scan counts although yaml does not.
+pub const MAX_FLOW_DEPTH: usize = 200;
+
+/// The place (1-based line and column) where more than `max` flow brackets are open, skipping
+/// quoted scalars and comments. A quote opens a quoted scalar only where a token can start, as in
+/// yaml, so an apostrophe inside a word (`operator's`) does not hide the brackets after it.
+fn flow_nesting_beyond(text: &str, max: usize) -> Option<(usize, usize)> {
+    #[derive(PartialEq)]
+    enum In {
+        Plain,
+        Single,
+        Double,
+        Comment,
+    }
+    let mut state = In::Plain;
+    let mut depth: usize = 0;
+    let (mut line, mut column) = (1usize, 0usize);
+    // Whether the previous character lets a token (a quote, a comment) start here.
+    let mut at_token_start = true;
+    let mut escaped = false;
+    for c in text.chars() {
+        column += 1;
+        if c == '\n' {
+            line += 1;
+            column = 0;
+            if state == In::Comment {
+                state = In::Plain;
+            }
+            at_token_start = true;
+            continue;
+        }
+        match state {
+            In::Comment => {}
+            In::Single => {
+                // `''` inside a single-quoted scalar closes and reopens: same net effect.
+                if c == '\'' {
+                    state = In::Plain;
+                }
+            }
+            In::Double => {
+                if escaped {
+                    escaped = false;
+                } else if c == '\\' {
+                    escaped = true;
+                } else if c == '"' {
+                    state = In::Plain;
+                }
+            }
+            In::Plain => {
+                match c {
+                    '#' if at_token_start => state = In::Comment,
+                    '\'' if at_token_start => state = In::Single,
+                    '"' if at_token_start => state = In::Double,
+                    '[' | '{' => {
+                        depth += 1;
+                        if depth > max {
+                            return Some((line, column));
+                        }
+                    }
+                    ']' | '}' => depth = depth.saturating_sub(1),
+                    _ => {}
+                }
+                at_token_start =
+                    c.is_whitespace() || matches!(c, '[' | '{' | ',' | ':' | '-' | '?');
+                continue;
+            }
+        }
+        at_token_start = false;
+    }
+    None
+}
+
+/// What is wrong: a syntax error, or one of the reader's guards (alias expansion, nesting depth),
+/// which refuse files that are valid yaml but far beyond any input.
+fn syntax_message(e: &str) -> String {
+    if e.contains("repetition limit exceeded") {
+        format!("the file expands aliases beyond the reader's limit ({e})")
+    } else if e.contains("recursion limit exceeded") {
+        format!("the file nests deeper than the reader's limit ({e})")
+    } else {
+        format!("the file is not valid yaml: {e}")
+    }
+}
+
+/// The fix for a syntax error, by what serde_yaml (libyaml) says; the reader's own guards against
+/// alias bombs and deep nesting get their own words.
+fn syntax_help(message: &str) -> &'static str {
+    if message.contains("repetition limit exceeded") {
+        "the file expands aliases (`*name`) into far more values than any input needs, as an \
+         alias-expansion bomb does; write the values out or use fewer nested aliases"
+    } else if message.contains("recursion limit exceeded") {
+        "the file nests lists or mappings more than 128 levels deep; no input needs more than a \
+         few levels, so check for a runaway bracket or indentation"
+    } else if message.contains("more than one document") {
+        "keep one document per file: remove the `---` line and everything after it, or split \
+         the documents into separate files"
+    } else if message.contains("duplicate entry with key") {
+        "each key may appear once in a mapping; remove or rename the repeated key"
+    } else if message.contains("tab character") {
+        "indent with spaces; yaml does not allow tabs for indentation"
+    } else {
+        "fix the yaml syntax near the place shown; check indentation, colons, brackets and quotes"
+    }
+}
+
+/// The one diagnostic of a text or file above the size limit; `bytes` is its size when known
+/// (a file is read only up to one byte past the limit).
+pub fn size_diagnostic(file: &str, limits: &Limits, bytes: Option<u64>) -> Diagnostic {
+    let limit = limits::FILE_BYTES;
+    let max = limits.get(limit);
+    let has = match bytes {
+        Some(n) => format!("; it has {n} bytes"),
+        None => String::new(),
+    };
+    Diagnostic {
+        file: file.to_string(),
+        line: None,
+        column: None,
+        path: String::new(),
+        message: format!(
+            "the file is larger than the input size limit {} = {max} bytes ({:.1} MiB){has}",
+            limit.name,
+            max as f64 / (1024.0 * 1024.0),
+        ),
+        help: Some(limits::over_limit_help(limit, bytes.unwrap_or(max + 1))),
+    }
+}
+
 /// serde_path_to_error already ends the path with an unknown field's name; a missing field's
 /// name is not in the path. Appends the name only when it is not already there.
 fn push_once(path: &mut FieldPath, name: &str) {
@@ -347,7 +533,8 @@ mod tests {
 
     #[test]
     fn syntax_error_is_one_diagnostic_with_a_place() {
-        let Err(d) = Reader::open("stages:\n  - id: \"open\n", "s.yaml") else {
+        let Err(d) = Reader::open("stages:\n  - id: \"open\n", "s.yaml", &Limits::defaults())
+        else {
             panic!("expected a syntax error");
         };
         assert_eq!(d.len(), 1);
@@ -356,11 +543,28 @@ mod tests {
     }
 
     #[test]
+    fn flow_nesting_scan_skips_quotes_and_comments() {
+        assert_eq!(flow_nesting_beyond("a: [[[]]]", 3), None);
+        assert_eq!(flow_nesting_beyond("a: [[[[]]]]", 3), Some((1, 7)));
+        assert_eq!(
+            flow_nesting_beyond("a: \"[[[[\"\nb: '{{{{' # [[[[\n", 3),
+            None
+        );
+        // An apostrophe inside a word opens nothing, so the brackets after it still count.
+        assert_eq!(flow_nesting_beyond("a: it's\nb: [[[[]]]]", 3), Some((2, 7)));
+        // Closing brackets inside a string cannot cancel real ones.
+        assert_eq!(
+            flow_nesting_beyond("a: [ \"]]\", [ \"]]\", [ \"]]\", [ ] ] ] ]", 3),
+            Some((1, 28))
+        );
+    }
+
+    #[test]
     fn type_errors_in_two_items_are_both_reported() {
         let text = "stages:\n  - { id: a, delay_s: fast, sheds: [x] }\n  - { id: b, delay_s: 0.1, sheds: x }\n";
-        let (mut r, map) = Reader::open(text, "s.yaml").unwrap();
+        let (mut r, map) = Reader::open(text, "s.yaml", &Limits::defaults()).unwrap();
         let items = r
-            .list::<crate::input::raw::RawStage>(&map, "stages", true)
+            .list::<crate::input::raw::RawStage>(&map, "stages", true, limits::STAGES)
             .unwrap();
         assert_eq!(items.len(), 2);
         assert_eq!(r.diagnostics.len(), 2);
@@ -373,8 +577,8 @@ mod tests {
     #[test]
     fn unknown_field_points_at_the_key_and_suggests() {
         let text = "stages:\n  - id: a\n    dealy_s: 0.1\n    sheds: [x]\n";
-        let (mut r, map) = Reader::open(text, "s.yaml").unwrap();
-        r.list::<crate::input::raw::RawStage>(&map, "stages", true);
+        let (mut r, map) = Reader::open(text, "s.yaml", &Limits::defaults()).unwrap();
+        r.list::<crate::input::raw::RawStage>(&map, "stages", true, limits::STAGES);
         let d = &r.diagnostics[0];
         assert_eq!(d.path, "stages[0].dealy_s");
         assert_eq!((d.line, d.column), (Some(3), Some(5)));

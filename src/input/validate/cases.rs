@@ -1,0 +1,342 @@
+//! The cases file: disturbance cases checked against their plant (operating points, breakers,
+//! sections, event times, utility frequency profiles, islanded starts).
+//!
+//! Owns the cases' validation messages. It must not change the plant; it only reads it.
+
+use super::*;
+
+/// Validates a cases file against its plant; `None` when any diagnostic was recorded.
+pub fn cases(r: &mut Reader, map: &Mapping, plant: &Plant) -> Option<CaseSet> {
+    r.check_top_keys(map, &["cases"]);
+    let list: Vec<Slot<RawCase>> = r.list(map, "cases", true, limits::CASES)?;
+    if list.is_empty() {
+        r.error(
+            &FieldPath::root().key("cases"),
+            "the cases list is empty".to_string(),
+            "add at least one case, e.g. `- { id: utility-loss, events: [ { at_s: 0, open: utility } ] }`".to_string(),
+        );
+    }
+    let mut ids = Ids::new("case");
+    let mut out = Vec::new();
+    for (i, slot) in list.iter().enumerate() {
+        let p = FieldPath::root().key("cases").index(i);
+        match slot {
+            Slot::Ok(c) => {
+                ids.add(r, &c.id, i, &p.key("id"), "case");
+                out.push(case(r, &p, c, plant));
+            }
+            Slot::Broken(Some(id)) => ids.add(r, id, i, &p.key("id"), "case"),
+            Slot::Broken(None) => {}
+        }
+    }
+    r.diagnostics.is_empty().then_some(CaseSet { cases: out })
+}
+
+fn case(r: &mut Reader, p: &FieldPath, c: &RawCase, plant: &Plant) -> Case {
+    let PlantIds {
+        sections,
+        generators: gens,
+        ties,
+        operating_points: ops,
+        ..
+    } = plant_ids(plant);
+    let start = match c.start {
+        RawStart::Connected => Start::Connected,
+        RawStart::Islanded => Start::Islanded,
+    };
+    let mut applies_to: Vec<usize> = Vec::new();
+    for (k, id) in c.only_at.iter().enumerate() {
+        match plant.operating_point_index(id) {
+            Some(i) => {
+                if !applies_to.contains(&i) {
+                    applies_to.push(i);
+                }
+            }
+            None => unknown_id(r, &p.key("only_at").index(k), "operating point", id, &ops),
+        }
+    }
+    if c.only_at.is_empty() {
+        applies_to = (0..plant.operating_points.len()).collect();
+    }
+    let duration_s = c.duration_s.unwrap_or(d::CASE_DURATION_S);
+    let mut duration_ok = c.duration_s.is_none()
+        || num(
+            r,
+            &p.key("duration_s"),
+            duration_s,
+            Lo::Above(0.0),
+            Hi::Any,
+            " s",
+        );
+    let max_duration_s = r.limits.get(limits::CASE_DURATION_S);
+    if duration_ok && duration_s > max_duration_s as f64 {
+        let limit = limits::CASE_DURATION_S;
+        r.error(
+            &p.key("duration_s"),
+            format!(
+                "duration_s {duration_s} s is above the limit {} = {max_duration_s} s of simulated time",
+                limit.name
+            ),
+            limits::over_limit_help(limit, duration_s.ceil() as u64),
+        );
+        duration_ok = false;
+    }
+    let weight = c.weight.unwrap_or(d::CASE_WEIGHT);
+    if c.weight.is_some() {
+        num(r, &p.key("weight"), weight, Lo::AtLeast(0.0), Hi::Any, "");
+    }
+    if c.events.is_empty() && c.utility_hz.is_empty() {
+        r.error(
+            &p.key("events"),
+            format!("case `{}` has no events and no utility_hz profile", c.id),
+            "add the disturbance, e.g. `events: [ { at_s: 0, open: utility } ]`".to_string(),
+        );
+    }
+
+    let raw_events = within_limit(
+        r,
+        &p.key("events"),
+        &c.events,
+        limits::EVENTS_PER_CASE,
+        &c.id,
+    );
+    let raw_profile = within_limit(
+        r,
+        &p.key("utility_hz"),
+        &c.utility_hz,
+        limits::PROFILE_POINTS,
+        &c.id,
+    );
+
+    let mut events: Vec<CaseEvent> = Vec::new();
+    for (k, e) in raw_events.iter().enumerate() {
+        let ep = p.key("events").index(k);
+        if num(r, &ep.key("at_s"), e.at_s, Lo::AtLeast(0.0), Hi::Any, " s")
+            && duration_ok
+            && e.at_s >= duration_s
+        {
+            r.error(
+                &ep.key("at_s"),
+                format!(
+                    "event at {} s is not within the case's duration of {duration_s} s",
+                    e.at_s
+                ),
+                "move the event earlier or lengthen duration_s".to_string(),
+            );
+        }
+        let given: Vec<&str> = [
+            ("open", e.open.is_some()),
+            ("trip", e.trip.is_some()),
+            ("load_step", e.load_step.is_some()),
+            ("voltage_dip", e.voltage_dip.is_some()),
+        ]
+        .iter()
+        .filter(|(_, s)| *s)
+        .map(|(n, _)| *n)
+        .collect();
+        if given.len() != 1 {
+            let has = if given.is_empty() {
+                "none".to_string()
+            } else {
+                given.join(" and ")
+            };
+            r.error(
+                &ep,
+                format!(
+                    "an event takes exactly one of open, trip, load_step, voltage_dip; this one has {has}"
+                ),
+                "write one event per action; several may share the same at_s".to_string(),
+            );
+            continue;
+        }
+        let action = if let Some(id) = &e.open {
+            let fp = ep.key("open");
+            match what_is(plant, id) {
+                Named::Breaker(BreakerRef::Utility) => {
+                    if start == Start::Islanded {
+                        r.error(
+                            &fp,
+                            format!(
+                                "case `{}` starts islanded, so the utility breaker `{id}` is already open",
+                                c.id
+                            ),
+                            "remove this event, or start the case connected".to_string(),
+                        );
+                    }
+                    Some(Action::Open(BreakerRef::Utility))
+                }
+                Named::Breaker(BreakerRef::Tie(i)) => Some(Action::Open(BreakerRef::Tie(i))),
+                Named::Breaker(BreakerRef::Generator(_)) => {
+                    r.error(
+                        &fp,
+                        format!("`{id}` is a generator; open takes the utility breaker or a tie"),
+                        format!("write `trip: {id}` to trip a generator"),
+                    );
+                    None
+                }
+                other => {
+                    let mut known: Vec<&str> = plant
+                        .utility
+                        .iter()
+                        .map(|u| u.breaker_id.as_str())
+                        .collect();
+                    known.extend(ties.iter().copied());
+                    not_a_breaker(
+                        r,
+                        &fp,
+                        id,
+                        other,
+                        &known,
+                        "open takes the utility breaker or a tie",
+                    );
+                    None
+                }
+            }
+        } else if let Some(id) = &e.trip {
+            match plant.generator_index(id) {
+                Some(g) => Some(Action::Open(BreakerRef::Generator(g))),
+                None => {
+                    let fp = ep.key("trip");
+                    if let Named::Breaker(_) = what_is(plant, id) {
+                        r.error(
+                            &fp,
+                            format!("`{id}` is not a generator; trip takes a generator id"),
+                            format!("write `open: {id}` to open the utility breaker or a tie"),
+                        );
+                    } else {
+                        unknown_id(r, &fp, "generator", id, &gens);
+                    }
+                    None
+                }
+            }
+        } else if let Some(ls) = &e.load_step {
+            let lp = ep.key("load_step");
+            let section = plant.section_index(&ls.section);
+            if section.is_none() {
+                unknown_id(r, &lp.key("section"), "section", &ls.section, &sections);
+            }
+            num(r, &lp.key("mw"), ls.mw, Lo::Any, Hi::Any, " MW");
+            section.map(|section| Action::LoadStep { section, mw: ls.mw })
+        } else if let Some(vd) = &e.voltage_dip {
+            let vp = ep.key("voltage_dip");
+            let section = plant.section_index(&vd.section);
+            if section.is_none() {
+                unknown_id(r, &vp.key("section"), "section", &vd.section, &sections);
+            }
+            num(
+                r,
+                &vp.key("remaining_pu"),
+                vd.remaining_pu,
+                Lo::AtLeast(0.0),
+                Hi::AtMost(1.0),
+                " pu",
+            );
+            time_constant(r, &vp.key("duration_s"), vd.duration_s);
+            section.map(|section| Action::VoltageDip {
+                section,
+                remaining_pu: vd.remaining_pu,
+                duration_s: vd.duration_s,
+            })
+        } else {
+            None
+        };
+        if let Some(action) = action {
+            events.push(CaseEvent {
+                at_s: e.at_s,
+                action,
+            });
+        }
+    }
+    // Stable: events at the same time keep their file order.
+    events.sort_by(|a, b| a.at_s.total_cmp(&b.at_s));
+
+    let mut utility_profile = Vec::new();
+    if !c.utility_hz.is_empty() && plant.utility.is_none() {
+        r.error(
+            &p.key("utility_hz"),
+            format!(
+                "case `{}` gives a utility_hz profile but the plant has no utility",
+                c.id
+            ),
+            "remove utility_hz".to_string(),
+        );
+    }
+    let f0 = plant.nominal_hz;
+    let mut last_t: Option<f64> = None;
+    for (k, pt) in raw_profile.iter().enumerate() {
+        let pp = p.key("utility_hz").index(k);
+        if num(r, &pp.key("at_s"), pt.at_s, Lo::AtLeast(0.0), Hi::Any, " s") {
+            if let Some(t) = last_t {
+                if pt.at_s <= t {
+                    r.error(
+                        &pp.key("at_s"),
+                        format!(
+                            "utility_hz point at {} s does not come after the previous point at {t} s",
+                            pt.at_s
+                        ),
+                        "list the profile points in increasing time".to_string(),
+                    );
+                }
+            }
+            last_t = Some(pt.at_s);
+        }
+        num(
+            r,
+            &pp.key("hz"),
+            pt.hz,
+            Lo::AtLeast(0.8 * f0),
+            Hi::AtMost(1.2 * f0),
+            " Hz",
+        );
+        utility_profile.push((pt.at_s, pt.hz));
+    }
+
+    if start == Start::Islanded {
+        for &k in &applies_to {
+            for island in &topology::islands(plant, &BreakerState::initial(plant, k, false)) {
+                if let Some((load, _)) = dead_island(plant, k, island) {
+                    r.error(
+                        &p.key("start"),
+                        format!(
+                            "case `{}` starts islanded, but at operating point `{}` section(s) {} carry {load} MW of load with no generator online",
+                            c.id,
+                            plant.operating_points[k].id,
+                            section_list(plant, island)
+                        ),
+                        "limit the case with only_at to operating points that can run islanded".to_string(),
+                    );
+                }
+            }
+        }
+    }
+
+    Case {
+        id: c.id.clone(),
+        description: c.description.clone().unwrap_or_default(),
+        start,
+        applies_to,
+        duration_s,
+        weight,
+        events,
+        utility_profile,
+    }
+}
+
+/// The items of a list inside a case, or none when there are more than `limit` allows (reported
+/// once, on the list).
+fn within_limit<'a, T>(
+    r: &mut Reader,
+    path: &FieldPath,
+    items: &'a [T],
+    limit: limits::Limit,
+    case_id: &str,
+) -> &'a [T] {
+    let n = items.len() as u64;
+    if !r.limits.exceeded(limit, n) {
+        return items;
+    }
+    let subject = format!("case `{case_id}` has");
+    let message = limits::over_limit_message(&r.limits, limit, &subject, n);
+    r.error(path, message, limits::over_limit_help(limit, n));
+    &[]
+}

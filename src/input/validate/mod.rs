@@ -1,0 +1,394 @@
+//! Raw types to model types: every check of meaning (ranges, ids, cross references, islands) and
+//! every default, collecting all diagnostics of a file before giving up.
+//!
+//! Owns the wording of validation messages. It must not read text or know YAML positions beyond
+//! asking the [`Reader`] to place a field path. A model value is built only when the file is
+//! structurally whole; checks that need the whole plant (islands, isochronous machines) run only
+//! then, so that one broken item never causes a cascade of follow-on messages.
+//!
+//! This file holds the helpers every file format shares (number ranges, id registries, "did you
+//! mean" hints, island helpers); one submodule per file format holds its checks.
+
+mod cases;
+mod plant;
+mod scheme;
+
+pub use cases::cases;
+pub use plant::plant;
+pub use scheme::scheme;
+
+use super::defaults as d;
+use super::limits;
+use super::locate::{FieldPath, Seg};
+use super::raw::*;
+use super::read::{quoted_list, Reader, Slot};
+use crate::model::*;
+use crate::topology::{self, BreakerState, Island};
+use serde_yaml::Mapping;
+use std::collections::{BTreeMap, HashMap};
+
+// ---------------------------------------------------------------- shared helpers
+
+#[derive(Debug, Clone, Copy)]
+enum Lo {
+    Any,
+    Above(f64),
+    AtLeast(f64),
+}
+
+#[derive(Debug, Clone, Copy)]
+enum Hi {
+    Any,
+    Below(f64),
+    AtMost(f64),
+}
+
+fn field_name(path: &FieldPath) -> String {
+    match path.0.last() {
+        Some(Seg::Key(k)) => k.clone(),
+        _ => path.to_string(),
+    }
+}
+
+fn range_text(name: &str, lo: Lo, hi: Hi, unit: &str) -> String {
+    let lo_text = match lo {
+        Lo::Any => None,
+        Lo::Above(a) => Some((a, "<", ">")),
+        Lo::AtLeast(a) => Some((a, "≤", "≥")),
+    };
+    let hi_text = match hi {
+        Hi::Any => None,
+        Hi::Below(b) => Some((b, "<")),
+        Hi::AtMost(b) => Some((b, "≤")),
+    };
+    match (lo_text, hi_text) {
+        (None, None) => format!("any finite {name}"),
+        (Some((a, _, rev)), None) => format!("{name} {rev} {a}{unit}"),
+        (None, Some((b, op))) => format!("{name} {op} {b}{unit}"),
+        (Some((a, op_lo, _)), Some((b, op_hi))) => {
+            format!("{a} {op_lo} {name} {op_hi} {b}{unit}")
+        }
+    }
+}
+
+/// Checks one number against its allowed range; `unit` is written after values (" s", " Hz").
+/// Zero or negative values where a positive one is needed, values below a plausible floor and
+/// implausibly high values each get their own wording.
+fn num(r: &mut Reader, path: &FieldPath, v: f64, lo: Lo, hi: Hi, unit: &str) -> bool {
+    let name = field_name(path);
+    let allowed = format!("allowed: {}", range_text(&name, lo, hi, unit));
+    if !v.is_finite() {
+        r.error(
+            path,
+            format!("{name} is {v}, expected a finite number"),
+            allowed,
+        );
+        return false;
+    }
+    let low_bad = match lo {
+        Lo::Any => false,
+        Lo::Above(a) => v <= a,
+        Lo::AtLeast(a) => v < a,
+    };
+    if low_bad {
+        let msg = match lo {
+            Lo::Above(0.0) => format!("{name} must be greater than 0, got {v}{unit}"),
+            Lo::AtLeast(0.0) => format!("{name} must not be negative, got {v}{unit}"),
+            _ => format!("{name} {v}{unit} is implausibly low"),
+        };
+        r.error(path, msg, allowed);
+        return false;
+    }
+    let high_bad = match hi {
+        Hi::Any => false,
+        Hi::Below(b) => v >= b,
+        Hi::AtMost(b) => v > b,
+    };
+    if high_bad {
+        r.error(
+            path,
+            format!("{name} {v}{unit} is implausibly high"),
+            allowed,
+        );
+        return false;
+    }
+    true
+}
+
+/// Time delays and time constants: (0, 60] s unless said otherwise.
+fn time_constant(r: &mut Reader, path: &FieldPath, v: f64) -> bool {
+    num(r, path, v, Lo::Above(0.0), Hi::AtMost(60.0), " s")
+}
+
+/// Definite time delays, which may be zero (instantaneous).
+fn delay(r: &mut Reader, path: &FieldPath, v: f64) -> bool {
+    num(r, path, v, Lo::AtLeast(0.0), Hi::AtMost(60.0), " s")
+}
+
+/// Names close to `name`, closest first, at most three: for "did you mean" hints.
+pub fn near_matches<'a>(name: &str, candidates: impl Iterator<Item = &'a str>) -> Vec<&'a str> {
+    let lower = name.to_lowercase();
+    let mut scored: Vec<(usize, &str)> = candidates
+        .filter_map(|c| {
+            let cl = c.to_lowercase();
+            let dist = edit_distance(&lower, &cl);
+            let limit = (name.chars().count().max(c.chars().count()) / 3).max(1);
+            let contains = lower.len() >= 2 && (cl.contains(&lower) || lower.contains(&cl));
+            (dist <= limit || contains).then_some((dist, c))
+        })
+        .collect();
+    scored.sort();
+    scored.into_iter().take(3).map(|(_, c)| c).collect()
+}
+
+fn edit_distance(a: &str, b: &str) -> usize {
+    let a: Vec<char> = a.chars().collect();
+    let b: Vec<char> = b.chars().collect();
+    let mut prev: Vec<usize> = (0..=b.len()).collect();
+    for (i, ca) in a.iter().enumerate() {
+        let mut cur = vec![i + 1; b.len() + 1];
+        for (j, cb) in b.iter().enumerate() {
+            let cost = usize::from(ca != cb);
+            cur[j + 1] = (prev[j] + cost).min(prev[j + 1] + 1).min(cur[j] + 1);
+        }
+        prev = cur;
+    }
+    prev[b.len()]
+}
+
+/// Ids of one kind (or one namespace, such as breakers) with where each was first defined.
+struct Ids {
+    kind: &'static str,
+    entries: HashMap<String, (usize, FieldPath, &'static str)>,
+    order: Vec<String>,
+}
+
+impl Ids {
+    fn new(kind: &'static str) -> Ids {
+        Ids {
+            kind,
+            entries: HashMap::new(),
+            order: Vec::new(),
+        }
+    }
+
+    /// Registers an id; reports a duplicate naming the first place. `what` is the item's own kind
+    /// (for a shared namespace such as breakers).
+    fn add(
+        &mut self,
+        r: &mut Reader,
+        id: &str,
+        index: usize,
+        path: &FieldPath,
+        what: &'static str,
+    ) {
+        if let Some((_, first, first_what)) = self.entries.get(id) {
+            let line = r
+                .line_of(first)
+                .map(|l| format!(" (line {l})"))
+                .unwrap_or_default();
+            let msg = if *first_what == what {
+                format!("duplicate {what} id `{id}`, first defined at {first}{line}")
+            } else {
+                format!(
+                    "duplicate {} id `{id}`: the {first_what} at {first}{line} already uses it",
+                    self.kind
+                )
+            };
+            let kind = if *first_what == what { what } else { self.kind };
+            r.error(path, msg, format!("give each {kind} its own id"));
+            return;
+        }
+        self.entries
+            .insert(id.to_string(), (index, path.clone(), what));
+        self.order.push(id.to_string());
+    }
+
+    /// Registers an id whose duplicates another registry (the breakers) already reports.
+    fn add_quiet(&mut self, id: &str, index: usize, path: &FieldPath, what: &'static str) {
+        if !self.entries.contains_key(id) {
+            self.entries
+                .insert(id.to_string(), (index, path.clone(), what));
+            self.order.push(id.to_string());
+        }
+    }
+
+    fn get(&self, id: &str) -> Option<(usize, &'static str)> {
+        self.entries.get(id).map(|(i, _, w)| (*i, *w))
+    }
+
+    fn known(&self) -> Vec<&str> {
+        self.order.iter().map(String::as_str).collect()
+    }
+}
+
+/// Reports an id that names nothing of its kind.
+fn unknown_id(r: &mut Reader, path: &FieldPath, kind: &str, id: &str, known: &[&str]) {
+    if r.full() {
+        // The message would not be kept; skip the edit distances over every known id.
+        r.error(path, String::new(), None);
+        return;
+    }
+    let near = near_matches(id, known.iter().copied());
+    let msg = if known.is_empty() {
+        format!("unknown {kind} `{id}`; the plant has no {kind}s")
+    } else if known.len() <= 8 {
+        format!(
+            "unknown {kind} `{id}`; known {kind}s: {}",
+            quoted_list(known)
+        )
+    } else if !near.is_empty() {
+        format!(
+            "unknown {kind} `{id}`; did you mean {}?",
+            quoted_list(&near)
+        )
+    } else {
+        format!(
+            "unknown {kind} `{id}`; none of the {} {kind}s has a similar id",
+            known.len()
+        )
+    };
+    let help = match near.first() {
+        Some(m) => format!("did you mean `{m}`? ids are case sensitive"),
+        None => format!("use the id of a {kind} defined in the plant file"),
+    };
+    r.error(path, msg, help);
+}
+
+fn resolve(r: &mut Reader, ids: &Ids, path: &FieldPath, id: &str) -> Option<usize> {
+    match ids.get(id) {
+        Some((i, _)) => Some(i),
+        None => {
+            unknown_id(r, path, ids.kind, id, &ids.known());
+            None
+        }
+    }
+}
+
+// ---------------------------------------------------------------- shared by cases and scheme
+
+/// An island without supply at an operating point: its load in MW and its first load's index.
+fn dead_island(plant: &Plant, op: usize, island: &Island) -> Option<(f64, usize)> {
+    if island.on_utility {
+        return None;
+    }
+    let o = &plant.operating_points[op];
+    let has_gen = plant
+        .generators
+        .iter()
+        .enumerate()
+        .any(|(g, gen)| o.online[g] && island.contains(gen.section));
+    if has_gen {
+        return None;
+    }
+    let mut load = 0.0;
+    let mut first = None;
+    for (i, l) in plant.loads.iter().enumerate() {
+        if island.contains(l.section) && o.load_mw[i] > 0.0 {
+            load += o.load_mw[i];
+            first.get_or_insert(i);
+        }
+    }
+    first.map(|f| (load, f))
+}
+
+fn section_list(plant: &Plant, island: &Island) -> String {
+    let ids: Vec<&str> = island
+        .sections
+        .iter()
+        .map(|&s| plant.sections[s].id.as_str())
+        .collect();
+    quoted_list(&ids)
+}
+
+/// Ids of a plant's things, for checking references from the cases and scheme files.
+struct PlantIds<'a> {
+    sections: Vec<&'a str>,
+    loads: Vec<&'a str>,
+    generators: Vec<&'a str>,
+    ties: Vec<&'a str>,
+    operating_points: Vec<&'a str>,
+}
+
+fn plant_ids(plant: &Plant) -> PlantIds<'_> {
+    PlantIds {
+        sections: plant.sections.iter().map(|s| s.id.as_str()).collect(),
+        loads: plant.loads.iter().map(|s| s.id.as_str()).collect(),
+        generators: plant.generators.iter().map(|s| s.id.as_str()).collect(),
+        ties: plant.ties.iter().map(|s| s.id.as_str()).collect(),
+        operating_points: plant
+            .operating_points
+            .iter()
+            .map(|s| s.id.as_str())
+            .collect(),
+    }
+}
+
+/// What a breaker id names in the plant.
+enum Named {
+    Breaker(BreakerRef),
+    Load,
+    Section,
+    Nothing,
+}
+
+fn what_is(plant: &Plant, id: &str) -> Named {
+    if let Some(u) = &plant.utility {
+        if u.breaker_id == id {
+            return Named::Breaker(BreakerRef::Utility);
+        }
+    }
+    if let Some(i) = plant.ties.iter().position(|t| t.id == id) {
+        return Named::Breaker(BreakerRef::Tie(i));
+    }
+    if let Some(i) = plant.generator_index(id) {
+        return Named::Breaker(BreakerRef::Generator(i));
+    }
+    if plant.load_index(id).is_some() {
+        return Named::Load;
+    }
+    if plant.section_index(id).is_some() {
+        return Named::Section;
+    }
+    Named::Nothing
+}
+fn not_a_breaker(
+    r: &mut Reader,
+    path: &FieldPath,
+    id: &str,
+    named: Named,
+    known: &[&str],
+    takes: &str,
+) {
+    match named {
+        Named::Load => r.error(
+            path,
+            format!("`{id}` is a load, not a breaker; {takes}"),
+            "a load is shed by a stage's sheds list, not opened by name here".to_string(),
+        ),
+        Named::Section => r.error(
+            path,
+            format!("`{id}` is a section, not a breaker; {takes}"),
+            "name the breaker instead".to_string(),
+        ),
+        _ => unknown_id(r, path, "breaker", id, known),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn near_matches_finds_typos_first() {
+        let c = ["steam-tg", "gas-engine", "steam-tg-2"];
+        assert_eq!(near_matches("stean-tg", c.iter().copied())[0], "steam-tg");
+        assert!(near_matches("pump", c.iter().copied()).is_empty());
+    }
+
+    #[test]
+    fn edit_distance_counts_single_changes() {
+        assert_eq!(edit_distance("kitten", "sitting"), 3);
+        assert_eq!(edit_distance("", "ab"), 2);
+    }
+}

@@ -1,0 +1,234 @@
+//! The scheme file: measurement settings and shedding stages checked against their plant (loads,
+//! never-shed marks, generator trips, breakers that arm a stage).
+//!
+//! Owns the scheme's validation messages. It must not change the plant; it only reads it.
+
+use super::*;
+
+pub fn scheme(r: &mut Reader, map: &Mapping, plant: &Plant, default_name: &str) -> Option<Scheme> {
+    r.check_top_keys(map, &["name", "measurement", "stages"]);
+    let name: Option<String> = r.optional(map, "name");
+    let raw_m: Option<RawMeasurement> = r.optional(map, "measurement");
+    let list: Option<Vec<Slot<RawStage>>> = r.list(map, "stages", true, limits::STAGES);
+    let mut measurement = Measurement::default();
+    if let Some(m) = raw_m {
+        let p = FieldPath::root().key("measurement");
+        if let Some(v) = m.frequency_lag_s {
+            num(
+                r,
+                &p.key("frequency_lag_s"),
+                v,
+                Lo::AtLeast(0.0),
+                Hi::AtMost(1.0),
+                " s",
+            );
+            measurement.frequency_lag_s = v;
+        }
+        if let Some(v) = m.rocof_window_s {
+            num(
+                r,
+                &p.key("rocof_window_s"),
+                v,
+                Lo::Above(0.0),
+                Hi::AtMost(5.0),
+                " s",
+            );
+            measurement.rocof_window_s = v;
+        }
+    }
+    let list = list?;
+    if list.is_empty() {
+        r.error(
+            &FieldPath::root().key("stages"),
+            "the stages list is empty".to_string(),
+            "add at least one stage, e.g. `- { id: uf-1, pickup_hz: 49.0, delay_s: 0.1, sheds: [some-load] }`".to_string(),
+        );
+    }
+    let PlantIds {
+        loads: load_list,
+        ties,
+        ..
+    } = plant_ids(plant);
+    let mut breakers: Vec<&str> = plant
+        .utility
+        .iter()
+        .map(|u| u.breaker_id.as_str())
+        .collect();
+    breakers.extend(ties.iter().copied());
+    breakers.extend(plant.generators.iter().map(|g| g.id.as_str()));
+    let f0 = plant.nominal_hz;
+    let mut ids = Ids::new("stage");
+    // Where each load is shed first: (stage id, path).
+    let mut shed_by: HashMap<usize, (String, FieldPath)> = HashMap::new();
+    let mut stages = Vec::new();
+    for (i, slot) in list.iter().enumerate() {
+        let p = FieldPath::root().key("stages").index(i);
+        let s = match slot {
+            Slot::Ok(s) => s,
+            Slot::Broken(id) => {
+                if let Some(id) = id {
+                    ids.add(r, id, i, &p.key("id"), "stage");
+                }
+                continue;
+            }
+        };
+        ids.add(r, &s.id, i, &p.key("id"), "stage");
+        let trigger = match (s.pickup_hz, &s.armed_by) {
+            (Some(_), Some(_)) | (None, None) => {
+                r.error(
+                    &p,
+                    format!(
+                        "stage `{}` needs exactly one of pickup_hz or armed_by; it has {}",
+                        s.id,
+                        if s.pickup_hz.is_some() { "both" } else { "neither" }
+                    ),
+                    "use pickup_hz for an under-frequency stage, armed_by for a stage started by a breaker opening".to_string(),
+                );
+                None
+            }
+            (Some(hz), None) => {
+                let pp = p.key("pickup_hz");
+                if !hz.is_finite() {
+                    num(r, &pp, hz, Lo::Any, Hi::Any, " Hz");
+                } else if hz >= f0 {
+                    r.error(
+                        &pp,
+                        format!("pickup_hz {hz} Hz is not below nominal {f0} Hz; an under-frequency stage must pick up below nominal"),
+                        format!("allowed: {} ≤ pickup_hz < {f0} Hz", 0.8 * f0),
+                    );
+                } else if hz < 0.8 * f0 {
+                    num(r, &pp, hz, Lo::AtLeast(0.8 * f0), Hi::Below(f0), " Hz");
+                } else {
+                    for (g, gen) in plant.generators.iter().enumerate() {
+                        // The highest under-frequency setting at or above the pickup operates first.
+                        let worst = gen
+                            .trips
+                            .iter()
+                            .enumerate()
+                            .filter_map(|(t, trip)| match trip {
+                                FrequencyTrip::Under { hz: th, after_s } if *th >= hz => {
+                                    Some((t, *th, *after_s))
+                                }
+                                _ => None,
+                            })
+                            .max_by(|a, b| a.1.total_cmp(&b.1));
+                        if let Some((t, th, after)) = worst {
+                            r.error(
+                                &pp,
+                                format!(
+                                    "pickup_hz {hz} Hz of stage `{}` is at or below generator `{}`'s own under-frequency trip (generators[{g}].trips[{t}]: below {th} Hz after {after} s); the machine would trip before the stage sheds",
+                                    s.id, gen.id
+                                ),
+                                format!("set the pickup above {th} Hz, or check the machine's protection setting"),
+                            );
+                        }
+                    }
+                }
+                if let Some(v) = s.min_rocof_hz_per_s {
+                    num(
+                        r,
+                        &p.key("min_rocof_hz_per_s"),
+                        v,
+                        Lo::Above(0.0),
+                        Hi::AtMost(20.0),
+                        " Hz/s",
+                    );
+                }
+                Some(StageTrigger::Frequency {
+                    pickup_hz: hz,
+                    min_rocof_hz_per_s: s.min_rocof_hz_per_s,
+                })
+            }
+            (None, Some(id)) => {
+                if s.min_rocof_hz_per_s.is_some() {
+                    r.error_at_key(
+                        &p.key("min_rocof_hz_per_s"),
+                        format!("min_rocof_hz_per_s applies to under-frequency stages only; stage `{}` is armed by `{id}`", s.id),
+                        "remove min_rocof_hz_per_s, or make it a pickup_hz stage".to_string(),
+                    );
+                }
+                match what_is(plant, id) {
+                    Named::Breaker(b) => Some(StageTrigger::Breaker(b)),
+                    other => {
+                        not_a_breaker(
+                            r,
+                            &p.key("armed_by"),
+                            id,
+                            other,
+                            &breakers,
+                            "armed_by takes the utility breaker, a tie or a generator",
+                        );
+                        None
+                    }
+                }
+            }
+        };
+        delay(r, &p.key("delay_s"), s.delay_s);
+        let breaker_s = s.breaker_s.unwrap_or(d::BREAKER_S);
+        if s.breaker_s.is_some() {
+            num(
+                r,
+                &p.key("breaker_s"),
+                breaker_s,
+                Lo::Above(0.0),
+                Hi::AtMost(1.0),
+                " s",
+            );
+        }
+        if s.sheds.is_empty() {
+            r.error(
+                &p.key("sheds"),
+                format!("stage `{}` sheds no load", s.id),
+                "list the load ids this stage opens, or remove the stage".to_string(),
+            );
+        }
+        let mut sheds = Vec::new();
+        for (k, id) in s.sheds.iter().enumerate() {
+            let lp = p.key("sheds").index(k);
+            let Some(l) = plant.load_index(id) else {
+                unknown_id(r, &lp, "load", id, &load_list);
+                continue;
+            };
+            if plant.loads[l].never_shed {
+                r.error(
+                    &lp,
+                    format!("load `{id}` is marked never_shed in the plant, but stage `{}` sheds it", s.id),
+                    "remove it from this stage, or clear never_shed in the plant file if it may be shed".to_string(),
+                );
+            }
+            if let Some((first_stage, first_path)) = shed_by.get(&l) {
+                let line = r
+                    .line_of(first_path)
+                    .map(|n| format!(", line {n}"))
+                    .unwrap_or_default();
+                let msg = if *first_stage == s.id {
+                    format!("load `{id}` is listed twice in stage `{}`", s.id)
+                } else {
+                    format!("load `{id}` is in stage `{}` and already in stage `{first_stage}` ({first_path}{line})", s.id)
+                };
+                r.error(
+                    &lp,
+                    msg,
+                    "a load is shed by one stage only; remove it from all but one".to_string(),
+                );
+                continue;
+            }
+            shed_by.insert(l, (s.id.clone(), lp));
+            sheds.push(l);
+        }
+        if let Some(trigger) = trigger {
+            stages.push(Stage {
+                id: s.id.clone(),
+                trigger,
+                delay_s: s.delay_s,
+                breaker_s,
+                sheds,
+            });
+        }
+    }
+    r.diagnostics.is_empty().then(|| Scheme {
+        name: name.unwrap_or_else(|| default_name.to_string()),
+        measurement,
+        stages,
+    })
+}
