@@ -4,10 +4,10 @@
 //! runs per second for each and their ratio, and checks that nadir's results are identical at
 //! 1 and N threads. Run: `cargo run --release --example bench_vs_scipy [-- --runs N] [--no-scipy]`.
 
-#[path = "../tests/common/mod.rs"]
-mod common;
 #[path = "../tests/scipy_reference/cases.rs"]
 mod cases;
+#[path = "../tests/common/mod.rs"]
+mod common;
 
 use cases::*;
 use nadir::sim::Run;

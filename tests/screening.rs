@@ -80,6 +80,7 @@ fn one_bus(hz: f64, machines: &[Machine], load_mw: f64, k: f64, import_mw: Optio
             },
             trips: vec![],
             undervoltage_trips: vec![],
+            off_frequency_limits: vec![],
         })
         .collect();
     let n = generators.len();

@@ -24,7 +24,7 @@ pub struct AuditArgs {
 pub fn run(args: AuditArgs) -> anyhow::Result<Outcome> {
     let plant = load::plant(&args.plant)?;
     let scheme = load::scheme(&args.scheme, &plant)?;
-    let rules = AuditRules::defaults(plant.nominal_hz);
+    let rules = AuditRules::for_plant(&plant);
     let a = audit::audit(&plant, &scheme, &rules);
     let text = match args.format {
         super::check::Format::Json => serde_json::to_string_pretty(&a)? + "\n",

@@ -131,6 +131,21 @@ pub struct RawGenerator {
     /// Voltage ride-through: the machine trips when the voltage stays below `below_pu` longer than `after_s`.
     #[serde(default)]
     pub undervoltage_trips: Vec<RawUndervoltage>,
+    /// Time the machine may spend in abnormal frequency bands (default: the bands of docs/files.md).
+    #[serde(default)]
+    pub off_frequency_limits: Vec<RawOffFrequencyLimit>,
+}
+
+/// Time a machine may spend with frequency in [low_hz, high_hz).
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawOffFrequencyLimit {
+    /// Lower edge of the band, Hz.
+    pub low_hz: f64,
+    /// Upper edge of the band, Hz.
+    pub high_hz: f64,
+    /// Cumulative time allowed in the band, s (0: none).
+    pub max_s: f64,
 }
 
 /// Prime-mover model name.
@@ -281,6 +296,39 @@ pub struct RawCriteria {
     /// Frequency must stay in a band from a time on.
     #[serde(default)]
     pub settle: Option<RawSettle>,
+    /// Margins every case must have (default: none required).
+    #[serde(default)]
+    pub required_margin: Option<RawRequiredMargin>,
+    /// The plant's own coordination rules that `nadir audit` checks.
+    #[serde(default)]
+    pub coordination: Option<RawCoordination>,
+}
+
+/// Margins every case must have.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawRequiredMargin {
+    /// Each case must hold with its lost import, generation or load step grown by this factor (1.0–2.0; default 1.0).
+    #[serde(default)]
+    pub disturbance_factor: Option<f64>,
+    /// Each case must hold with every inertia constant and load frequency exponent this many percent lower (0–50; default 0).
+    #[serde(default)]
+    pub model_error_pct: Option<f64>,
+}
+
+/// Coordination rules for the audit.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawCoordination {
+    /// Two frequency stages closer than this in pickup, Hz ... (default 0.1).
+    #[serde(default)]
+    pub min_spacing_hz: Option<f64>,
+    /// ... and closer than this in delay, s, are not coordinated (default 0.1).
+    #[serde(default)]
+    pub min_spacing_s: Option<f64>,
+    /// No stage may pick up above this: the lower edge of the plant's normal operating band, Hz (default 0.99·f0).
+    #[serde(default)]
+    pub normal_low_hz: Option<f64>,
 }
 
 /// Recovery criterion.

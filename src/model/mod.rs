@@ -11,7 +11,7 @@ mod scheme;
 
 pub use case::{Action, Case, CaseEvent, CaseSet, Start};
 pub use plant::{
-    Criteria, FrequencyTrip, Generator, Governor, Load, OperatingPoint, Plant, PrimeMover, Section,
-    Tie, UndervoltageTrip, Utility,
+    Criteria, FrequencyTrip, Generator, Governor, Load, OffFrequencyLimit, OperatingPoint, Plant,
+    PrimeMover, Section, Tie, UndervoltageTrip, Utility,
 };
 pub use scheme::{BreakerRef, Measurement, Scheme, Stage, StageTrigger};

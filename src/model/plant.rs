@@ -79,6 +79,16 @@ pub struct Generator {
     pub trips: Vec<FrequencyTrip>,
     /// Voltage ride-through limits: the machine trips when a dip is deeper and longer than any of these.
     pub undervoltage_trips: Vec<UndervoltageTrip>,
+    /// Time the machine may spend in abnormal frequency bands; empty means the default bands.
+    pub off_frequency_limits: Vec<OffFrequencyLimit>,
+}
+
+/// Time a machine may spend with frequency in [low_hz, high_hz).
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct OffFrequencyLimit {
+    pub low_hz: f64,
+    pub high_hz: f64,
+    pub max_s: f64,
 }
 
 /// Speed governing common to every prime mover.
@@ -178,6 +188,11 @@ pub struct Criteria {
     pub required_disturbance_factor: f64,
     /// Every case must hold with inertia and load damping this many percent lower (0: none).
     pub required_model_error_pct: f64,
+    /// Audit: frequency stages closer than this in pickup and `min_spacing_s` in delay clash.
+    pub min_spacing_hz: f64,
+    pub min_spacing_s: f64,
+    /// Audit: no stage may pick up above this.
+    pub normal_low_hz: f64,
 }
 
 impl Criteria {
@@ -195,6 +210,9 @@ impl Criteria {
             settle_high_hz: 1.01 * nominal_hz,
             required_disturbance_factor: 1.0,
             required_model_error_pct: 0.0,
+            min_spacing_hz: 0.1,
+            min_spacing_s: 0.1,
+            normal_low_hz: 0.99 * nominal_hz,
         }
     }
 }

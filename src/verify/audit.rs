@@ -21,6 +21,16 @@ pub struct AuditRules {
 }
 
 impl AuditRules {
+    /// The rules the plant file sets in `criteria.coordination` (or their defaults).
+    pub fn for_plant(plant: &Plant) -> AuditRules {
+        let c = &plant.criteria;
+        AuditRules {
+            min_spacing_hz: c.min_spacing_hz,
+            min_spacing_s: c.min_spacing_s,
+            normal_low_hz: c.normal_low_hz,
+        }
+    }
+
     /// Defaults: 0.1 Hz and 0.1 s spacing (relay accuracy plus margin; common practice, no source)
     /// and the normal band's lower edge at 0.99·f0 (the default settling band of docs/files.md).
     pub fn defaults(nominal_hz: f64) -> AuditRules {

@@ -6,7 +6,7 @@
 
 use super::criteria::{judge, Failure, Observed};
 use super::margins::{self, Margins};
-use super::offnominal::{band_times, default_bands, BandTime};
+use super::offnominal::{band_times, BandTime};
 use crate::model::{Case, CaseSet, Criteria, Plant, Scheme};
 use crate::sim::{self, EventKind, Run, SimConfig, StopReason};
 use rayon::prelude::*;
@@ -107,7 +107,7 @@ pub fn verify_one(
     let run = sim::simulate(plant, case, op, scheme, &sim_config);
     let observed = observe(&run, case, &plant.criteria);
     let mut failures = judge(&observed, &plant.criteria);
-    let off_nominal = band_times(plant, op, &run, &default_bands(plant.nominal_hz));
+    let off_nominal = band_times(plant, op, &run);
     for b in off_nominal.iter().filter(|b| b.exceeded()) {
         failures.push(Failure {
             criterion: "off_nominal",

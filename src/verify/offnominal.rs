@@ -10,17 +10,12 @@
 //! steam-turbine limits after IEEE C37.106 are the manufacturer's curve and must be declared.
 //! Times are accumulated from the run's samples (resolution: the sample interval).
 
-use crate::model::Plant;
+use crate::model::{OffFrequencyLimit, Plant};
 use crate::sim::{EventKind, Run};
 use serde::Serialize;
 
 /// Time a machine may spend with frequency in [low_hz, high_hz).
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
-pub struct Band {
-    pub low_hz: f64,
-    pub high_hz: f64,
-    pub max_s: f64,
-}
+pub type Band = OffFrequencyLimit;
 
 /// The default abnormal bands (see the module doc for their source).
 pub fn default_bands(nominal_hz: f64) -> Vec<Band> {
@@ -69,9 +64,11 @@ impl BandTime {
     }
 }
 
-/// Time each generator running at `op` spent in each band, while connected; bands with no time
-/// are left out. Needs the run's trace; without one the result is empty.
-pub fn band_times(plant: &Plant, op: usize, run: &Run, bands: &[Band]) -> Vec<BandTime> {
+/// Time each generator running at `op` spent in each of its declared bands (or the defaults),
+/// while connected; bands with no time are left out. Needs the run's trace; without one the
+/// result is empty.
+pub fn band_times(plant: &Plant, op: usize, run: &Run) -> Vec<BandTime> {
+    let defaults = default_bands(plant.nominal_hz);
     let Some(trace) = &run.trace else {
         return Vec::new();
     };
@@ -87,6 +84,11 @@ pub fn band_times(plant: &Plant, op: usize, run: &Run, bands: &[Band]) -> Vec<Ba
             .map(|e| e.at_s)
             .unwrap_or(f64::INFINITY);
         let hz = &trace.section_hz[gen.section];
+        let bands = if gen.off_frequency_limits.is_empty() {
+            &defaults
+        } else {
+            &gen.off_frequency_limits
+        };
         for band in bands {
             let mut time_s = 0.0;
             for k in 1..trace.t_s.len() {

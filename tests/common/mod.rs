@@ -27,6 +27,7 @@ pub fn gen(
         },
         trips: vec![],
         undervoltage_trips: vec![],
+        off_frequency_limits: vec![],
     }
 }
 

@@ -70,6 +70,7 @@ mod tests {
             },
             trips: vec![],
             undervoltage_trips: vec![],
+            off_frequency_limits: vec![],
         };
         let g = Governor::new(&gen, 7.0, 50.0);
         let Model::GasTurbine(m) = g.model else {

@@ -506,6 +506,43 @@ fn generator(
         .enumerate()
         .map(|(i, u)| undervoltage(r, &p.key("undervoltage_trips").index(i), u))
         .collect();
+    let off_frequency_limits = g
+        .off_frequency_limits
+        .iter()
+        .enumerate()
+        .map(|(i, b)| {
+            let bp = p.key("off_frequency_limits").index(i);
+            num(
+                r,
+                &bp.key("low_hz"),
+                b.low_hz,
+                Lo::AtLeast(0.0),
+                Hi::Any,
+                " Hz",
+            );
+            num(
+                r,
+                &bp.key("high_hz"),
+                b.high_hz,
+                Lo::Above(b.low_hz),
+                Hi::Any,
+                " Hz",
+            );
+            num(
+                r,
+                &bp.key("max_s"),
+                b.max_s,
+                Lo::AtLeast(0.0),
+                Hi::Any,
+                " s",
+            );
+            OffFrequencyLimit {
+                low_hz: b.low_hz,
+                high_hz: b.high_hz,
+                max_s: b.max_s,
+            }
+        })
+        .collect();
     Some(Generator {
         id: g.id.clone(),
         section: section?,
@@ -517,6 +554,7 @@ fn generator(
         governor,
         trips,
         undervoltage_trips,
+        off_frequency_limits,
     })
 }
 
@@ -1025,6 +1063,65 @@ fn criteria(r: &mut Reader, raw: Option<&RawCriteria>, nominal: Option<f64>) -> 
             Hi::AtMost(3600.0),
             " s",
         );
+    }
+    if let Some(m) = &raw.required_margin {
+        if let Some(v) = m.disturbance_factor {
+            c.required_disturbance_factor = v;
+            num(
+                r,
+                &p.key("required_margin").key("disturbance_factor"),
+                v,
+                Lo::AtLeast(1.0),
+                Hi::AtMost(2.0),
+                "",
+            );
+        }
+        if let Some(v) = m.model_error_pct {
+            c.required_model_error_pct = v;
+            num(
+                r,
+                &p.key("required_margin").key("model_error_pct"),
+                v,
+                Lo::AtLeast(0.0),
+                Hi::AtMost(50.0),
+                " %",
+            );
+        }
+    }
+    if let Some(k) = &raw.coordination {
+        if let Some(v) = k.min_spacing_hz {
+            c.min_spacing_hz = v;
+            num(
+                r,
+                &p.key("coordination").key("min_spacing_hz"),
+                v,
+                Lo::AtLeast(0.0),
+                Hi::AtMost(2.0),
+                " Hz",
+            );
+        }
+        if let Some(v) = k.min_spacing_s {
+            c.min_spacing_s = v;
+            num(
+                r,
+                &p.key("coordination").key("min_spacing_s"),
+                v,
+                Lo::AtLeast(0.0),
+                Hi::AtMost(60.0),
+                " s",
+            );
+        }
+        if let Some(v) = k.normal_low_hz {
+            c.normal_low_hz = v;
+            num(
+                r,
+                &p.key("coordination").key("normal_low_hz"),
+                v,
+                Lo::Above(0.8 * f0),
+                Hi::Below(f0),
+                " Hz",
+            );
+        }
     }
     if nominal.is_none() {
         return c;
