@@ -194,7 +194,7 @@ td.result { white-space: nowrap; }
 figure { margin: 8px 0 18px 0; break-inside: avoid; page-break-inside: avoid; }
 figure svg { width: 100%; height: auto; max-width: 960px; display: block; border: 1px solid #ccc; }
 figcaption { font-size: 9pt; color: #222; margin-top: 3px; max-width: 960px; }
-.signoff td { border: none; padding: 14px 10px 2px 0; }
+.signoff td { border: none; padding: 22px 10px 2px 0; }
 .signoff .line { border-bottom: 1px solid #000; width: 22em; }
 .note { font-size: 9pt; color: #333; }
 @page { size: landscape; margin: 12mm; }
@@ -205,7 +205,7 @@ figcaption { font-size: 9pt; color: #222; margin-top: 3px; max-width: 960px; }
   tr { break-inside: avoid; page-break-inside: avoid; }
   thead { display: table-header-group; }
   h2, h3 { break-after: avoid; page-break-after: avoid; }
-  figure svg { max-width: 100%; max-height: 150mm; }
+  figure svg { width: auto; height: 140mm; max-width: 100%; }
   .caution, .verdict, .signoff { break-inside: avoid; page-break-inside: avoid; }
 }
 "#;
@@ -531,7 +531,7 @@ fn sign_off(h: &mut String, r: &ReportInputs) {
         h,
         "<section class=\"page signoff-block\">\n<h2>Review and sign-off</h2>\n<p>I have reviewed the \
 shedding table <strong>{}</strong> for <strong>{}</strong> against the inputs identified above by their \
-SHA-256, and the results in this report.</p>\n<table class=\"signoff\">\n<tbody>\n\
+SHA&#8209;256, and the results in this report.</p>\n<table class=\"signoff\">\n<tbody>\n\
 <tr><td>Reviewed by (name)</td><td class=\"line\"></td></tr>\n\
 <tr><td>Qualification / role</td><td class=\"line\"></td></tr>\n\
 <tr><td>Date</td><td class=\"line\"></td></tr>\n\
