@@ -13,6 +13,7 @@ pub mod check;
 pub mod compare;
 pub mod load;
 pub mod replay;
+pub mod report;
 pub mod schema;
 pub mod verify;
 
@@ -43,6 +44,9 @@ pub enum Command {
     Audit(audit::AuditArgs),
     /// What a settings change does: the settings difference and both verifications side by side.
     Compare(compare::CompareArgs),
+    /// Write one self-contained HTML report for sign-off: inputs with SHA-256, verdict, plant,
+    /// shedding table, audit, verification matrix with margins and a plot per case.
+    Report(report::ReportArgs),
     /// Write the JSON Schemas of the plant, cases and scheme files.
     Schema(schema::SchemaArgs),
 }
@@ -65,6 +69,7 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
         Command::Replay(args) => replay::run(args),
         Command::Audit(args) => audit::run(args),
         Command::Compare(args) => compare::run(args),
+        Command::Report(args) => report::run(args),
     }
 }
 

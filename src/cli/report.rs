@@ -1,0 +1,183 @@
+//! `nadir report`: one self-contained HTML file for sign-off — screening, audit, verification
+//! matrix with margins and one plot per case — written atomically; exit 1 when any run fails or
+//! the audit finds a violation (the report is written all the same).
+//!
+//! Each input file is read once: the bytes that are hashed for the report are the bytes parsed.
+
+use super::Outcome;
+use anyhow::{bail, Context};
+use nadir::model::{CaseSet, Plant, Scheme};
+use nadir::report::html::{self, CasePlot, InputFile, ReportInputs};
+use nadir::report::svg::FrequencyPlot;
+use nadir::report::write::{write_atomic, Overwrite};
+use nadir::verify::audit::{self, AuditRules};
+use nadir::verify::matrix::{self, sim_config_for, VerifyConfig};
+use std::path::{Path, PathBuf};
+
+/// Write a self-contained HTML report for sign-off: inputs with SHA-256, verdict, plant summary,
+/// shedding table, audit, verification matrix with margins and a frequency plot per case.
+#[derive(Debug, clap::Args)]
+pub struct ReportArgs {
+    /// Plant file (YAML).
+    #[arg(value_name = "PLANT")]
+    pub plant: PathBuf,
+    /// Scheme file (YAML).
+    #[arg(value_name = "SCHEME")]
+    pub scheme: PathBuf,
+    /// Cases file (YAML).
+    #[arg(long, value_name = "CASES")]
+    pub cases: PathBuf,
+    /// The HTML file to write.
+    #[arg(short = 'o', long = "output", value_name = "FILE.html")]
+    pub output: PathBuf,
+    /// Replace the output file if it exists.
+    #[arg(long)]
+    pub force: bool,
+}
+
+pub fn run(args: ReportArgs) -> anyhow::Result<Outcome> {
+    let overwrite = if args.force {
+        Overwrite::Allow
+    } else {
+        Overwrite::Refuse
+    };
+    // Refuse before minutes of simulation, not after; write_atomic checks again at the end.
+    if overwrite == Overwrite::Refuse && args.output.exists() {
+        bail!(
+            "{}: already exists; pass --force to replace it",
+            args.output.display()
+        );
+    }
+    let (plant_text, plant_file) = read_input("plant", &args.plant)?;
+    let plant = nadir::input::parse_plant(&plant_text, &args.plant.display().to_string())
+        .map_err(nadir::Error::Input)
+        .with_context(|| format!("reading plant file {}", args.plant.display()))?;
+    let (cases_text, cases_file) = read_input("cases", &args.cases)?;
+    let cases = nadir::input::parse_cases(&cases_text, &args.cases.display().to_string(), &plant)
+        .map_err(nadir::Error::Input)
+        .with_context(|| format!("reading cases file {}", args.cases.display()))?;
+    let (scheme_text, scheme_file) = read_input("scheme", &args.scheme)?;
+    let scheme =
+        nadir::input::parse_scheme(&scheme_text, &args.scheme.display().to_string(), &plant)
+            .map_err(nadir::Error::Input)
+            .with_context(|| format!("reading scheme file {}", args.scheme.display()))?;
+
+    let screening = nadir::screening::screen(&plant, Some(&cases), Some(&scheme));
+    let rules = AuditRules::defaults(plant.nominal_hz);
+    let audit = audit::audit(&plant, &scheme, &rules);
+    let config = VerifyConfig::default();
+    let pairs = matrix::pairs(&cases).len() as u64;
+    let bar = super::verify::progress_bar(2 * pairs);
+    let m = matrix::verify(&plant, &cases, &scheme, &config, &|| bar.inc(1));
+    let plots = case_plots(&plant, &cases, &scheme, &config, &|| bar.inc(1));
+    bar.finish_and_clear();
+
+    let generated_utc = html::utc_timestamp(run_time_unix_s()?);
+    let files = [plant_file, cases_file, scheme_file];
+    let text = html::render(&ReportInputs {
+        plant: &plant,
+        scheme: &scheme,
+        screening: &screening,
+        audit: &audit,
+        audit_rules: &rules,
+        matrix: &m,
+        plots: &plots,
+        files: &files,
+        generated_utc: &generated_utc,
+        tool_version: env!("CARGO_PKG_VERSION"),
+    });
+    write_atomic(&args.output, text.as_bytes(), overwrite).context("writing the report")?;
+
+    let failed = m.rows.iter().filter(|r| !r.pass).count();
+    let mut out = format!(
+        "Report written to {} ({} runs: {} pass, {failed} fail; {} audit violation(s)).\n",
+        args.output.display(),
+        m.rows.len(),
+        m.rows.len() - failed,
+        audit.violations.len()
+    );
+    out.push_str(super::verify::CAUTION);
+    out.push('\n');
+    super::write_stdout(&out)?;
+    Ok(if failed == 0 && audit.violations.is_empty() {
+        Outcome::Pass
+    } else {
+        Outcome::Fail
+    })
+}
+
+/// Read an input file once, capped like the loaders, and identify it by its bytes.
+fn read_input(role: &str, path: &Path) -> anyhow::Result<(String, InputFile)> {
+    use std::io::Read;
+    let mut bytes = Vec::new();
+    std::fs::File::open(path)
+        .and_then(|f| {
+            f.take(nadir::input::MAX_FILE_BYTES + 1)
+                .read_to_end(&mut bytes)
+        })
+        .with_context(|| format!("reading {role} file {}", path.display()))?;
+    if bytes.len() as u64 > nadir::input::MAX_FILE_BYTES {
+        bail!(
+            "reading {role} file {}: more than the {} bytes an input file may have",
+            path.display(),
+            nadir::input::MAX_FILE_BYTES
+        );
+    }
+    let file = InputFile::from_bytes(role, &path.display().to_string(), &bytes);
+    let text = String::from_utf8(bytes)
+        .with_context(|| format!("reading {role} file {}: not UTF-8 text", path.display()))?;
+    Ok((text, file))
+}
+
+/// One plot per case, every operating point it applies to overlaid.
+fn case_plots(
+    plant: &Plant,
+    cases: &CaseSet,
+    scheme: &Scheme,
+    config: &VerifyConfig,
+    progress: &(dyn Fn() + Sync),
+) -> Vec<CasePlot> {
+    use rayon::prelude::*;
+    let sim_config = sim_config_for(plant, &config.sim);
+    cases
+        .cases
+        .par_iter()
+        .map(|case| {
+            let series = case
+                .applies_to
+                .iter()
+                .filter_map(|&op| {
+                    let run = nadir::sim::simulate(plant, case, op, scheme, &sim_config);
+                    progress();
+                    html::lowest_section_series(&plant.operating_points[op].id, &run)
+                })
+                .collect();
+            CasePlot {
+                case: case.id.clone(),
+                description: case.description.clone(),
+                plot: FrequencyPlot {
+                    title: case.description.clone(),
+                    nominal_hz: plant.nominal_hz,
+                    duration_s: case.duration_s,
+                    series,
+                    levels: super::replay::levels(plant, scheme),
+                },
+            }
+        })
+        .collect()
+}
+
+/// The time the report states: `SOURCE_DATE_EPOCH` when set (reproducible-builds.org
+/// specification, so a rerun can give identical bytes), else the clock.
+fn run_time_unix_s() -> anyhow::Result<u64> {
+    match std::env::var("SOURCE_DATE_EPOCH") {
+        Ok(v) => v
+            .trim()
+            .parse::<u64>()
+            .with_context(|| format!("SOURCE_DATE_EPOCH={v}: not a whole number of seconds")),
+        Err(_) => Ok(std::time::SystemTime::now()
+            .duration_since(std::time::UNIX_EPOCH)
+            .map(|d| d.as_secs())
+            .unwrap_or(0)),
+    }
+}

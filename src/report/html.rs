@@ -1,0 +1,697 @@
+//! The sign-off report: one self-contained HTML file (inline CSS, inline SVG, no fonts, scripts,
+//! images or links to fetch) that a reviewer can read on screen or print on A4 or Letter.
+//!
+//! It formats results that were already computed — the screening figures, the audit, the
+//! verification matrix and one plot per case — and decides nothing: the verdict it states is
+//! counted from the matrix rows and the audit's violations. Every text that comes from an input
+//! file (ids, names, descriptions, messages) is escaped. The run's time is passed in, so the same
+//! inputs and time give the same bytes.
+
+use super::svg::{self, FrequencyPlot, Series};
+use crate::model::{Plant, Scheme};
+use crate::screening::Screening;
+use crate::sim::Run;
+use crate::verify::audit::{Audit, AuditRules};
+use crate::verify::margins::Margin;
+use crate::verify::matrix::Matrix;
+use sha2::{Digest, Sha256};
+use std::fmt::Write;
+
+/// The caution every report carries, in its own box near the top.
+pub const CAUTION: &str = "Simulation results only; settings must be reviewed by a qualified \
+protection engineer, coordinated with the grid operator, and conform to local codes.";
+
+/// One input file as the report identifies it.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct InputFile {
+    /// `plant`, `cases` or `scheme`.
+    pub role: String,
+    /// The path as given on the command line.
+    pub path: String,
+    pub size_bytes: u64,
+    /// Lower-case hexadecimal SHA-256 of the file's bytes (FIPS 180-4).
+    pub sha256_hex: String,
+}
+
+impl InputFile {
+    /// Identify a file from the bytes that were parsed.
+    pub fn from_bytes(role: &str, path: &str, bytes: &[u8]) -> InputFile {
+        InputFile {
+            role: role.to_string(),
+            path: path.to_string(),
+            size_bytes: bytes.len() as u64,
+            sha256_hex: sha256_hex(bytes),
+        }
+    }
+}
+
+/// The plot of one case with every operating point it applies to overlaid.
+#[derive(Debug, Clone, PartialEq)]
+pub struct CasePlot {
+    pub case: String,
+    pub description: String,
+    pub plot: FrequencyPlot,
+}
+
+/// Everything a report shows; all of it computed before.
+#[derive(Debug, Clone, Copy)]
+pub struct ReportInputs<'a> {
+    pub plant: &'a Plant,
+    pub scheme: &'a Scheme,
+    pub screening: &'a Screening,
+    pub audit: &'a Audit,
+    pub audit_rules: &'a AuditRules,
+    pub matrix: &'a Matrix,
+    /// In the cases file's order.
+    pub plots: &'a [CasePlot],
+    pub files: &'a [InputFile],
+    /// When the run was made, e.g. from [`utc_timestamp`].
+    pub generated_utc: &'a str,
+    /// The nadir version that made the report.
+    pub tool_version: &'a str,
+}
+
+/// Lower-case hexadecimal SHA-256 of `bytes`.
+pub fn sha256_hex(bytes: &[u8]) -> String {
+    let digest = Sha256::digest(bytes);
+    let mut s = String::with_capacity(64);
+    for b in digest {
+        let _ = write!(s, "{b:02x}");
+    }
+    s
+}
+
+/// Seconds since 1970-01-01 00:00:00 UTC as `YYYY-MM-DD HH:MM:SS UTC` (proleptic Gregorian
+/// calendar; the day count is H. Hinnant's `civil_from_days`, "chrono-Compatible Low-Level Date
+/// Algorithms", 2013).
+pub fn utc_timestamp(unix_s: u64) -> String {
+    let days = (unix_s / 86_400) as i64;
+    let secs = unix_s % 86_400;
+    let z = days + 719_468;
+    let era = z.div_euclid(146_097);
+    let doe = z.rem_euclid(146_097);
+    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
+    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
+    let mp = (5 * doy + 2) / 153;
+    let day = doy - (153 * mp + 2) / 5 + 1;
+    let month = if mp < 10 { mp + 3 } else { mp - 9 };
+    let year = yoe + era * 400 + i64::from(month <= 2);
+    format!(
+        "{year:04}-{month:02}-{day:02} {:02}:{:02}:{:02} UTC",
+        secs / 3600,
+        (secs % 3600) / 60,
+        secs % 60
+    )
+}
+
+/// The trace of one operating point for an overlaid plot: at each sample, the lowest frequency
+/// of any section (so after a split it follows whichever island is lower), and the cumulative
+/// shed. `None` when the run kept no trace.
+pub fn lowest_section_series(label: &str, run: &Run) -> Option<Series> {
+    let trace = run.trace.as_ref()?;
+    let points = trace
+        .t_s
+        .iter()
+        .enumerate()
+        .map(|(k, &t)| {
+            let low = trace
+                .section_hz
+                .iter()
+                .filter_map(|s| s.get(k).copied())
+                .fold(f64::INFINITY, f64::min);
+            (t, low)
+        })
+        .filter(|p| p.1.is_finite())
+        .collect();
+    let shed_mw = trace
+        .t_s
+        .iter()
+        .copied()
+        .zip(trace.shed_mw.iter().copied())
+        .collect();
+    Some(Series {
+        label: label.to_string(),
+        points,
+        shed_mw,
+    })
+}
+
+/// What the caption under each plot says its lines are.
+pub const PLOT_CAPTION: &str = "One line per operating point. Each line is the lowest frequency \
+of any bus section at each sample (after a split, whichever island is lower); the lower panel is \
+the cumulative load shed. Dotted grey lines: stage pickups; dashed red: frequency limits; dashed \
+green: the recovery level.";
+
+/// The whole report as HTML text.
+pub fn render(r: &ReportInputs) -> String {
+    let mut h = String::with_capacity(256 * 1024);
+    let title = format!("UFLS verification report: {}", r.plant.name);
+    let _ = write!(
+        h,
+        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n\
+<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n<title>{}</title>\n<style>\n{STYLE}</style>\n</head>\n<body>\n",
+        esc(&title)
+    );
+    title_block(&mut h, r);
+    verdict(&mut h, r);
+    caution(&mut h);
+    inputs(&mut h, r);
+    plant_summary(&mut h, r);
+    shedding_table(&mut h, r);
+    audit_section(&mut h, r);
+    matrix_section(&mut h, r);
+    plots(&mut h, r);
+    sign_off(&mut h, r);
+    h.push_str("</body>\n</html>\n");
+    h
+}
+
+const STYLE: &str = r#"body { font-family: "DejaVu Sans", "Liberation Sans", Arial, sans-serif; font-size: 10.5pt;
+  color: #111; margin: 0 auto; padding: 16px 24px; max-width: 1180px; line-height: 1.35; }
+h1 { font-size: 18pt; margin: 0 0 4px 0; }
+h2 { font-size: 13pt; border-bottom: 1.5px solid #333; padding-bottom: 2px; margin: 22px 0 8px 0; }
+h3 { font-size: 11pt; margin: 14px 0 4px 0; }
+p { margin: 4px 0 8px 0; }
+.meta { color: #333; margin: 0 0 10px 0; }
+.meta td { padding: 1px 12px 1px 0; border: none; }
+table { border-collapse: collapse; margin: 4px 0 10px 0; font-size: 9pt; }
+th, td { border: 1px solid #999; padding: 2px 5px; vertical-align: top; text-align: left; }
+th { background: #eee; font-weight: bold; }
+td.n { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
+td.id, .nw { white-space: nowrap; }
+td.hash { font-family: "DejaVu Sans Mono", "Liberation Mono", monospace; font-size: 8pt; word-break: break-all; }
+table.wide { width: 100%; }
+table.matrix { font-size: 8pt; }
+table.matrix td.msg { min-width: 14em; }
+tr.fail td { background: #fde8e6; font-weight: bold; }
+tr.fail td, .caution { -webkit-print-color-adjust: exact; print-color-adjust: exact; }
+tr.fail td.result::before { content: "\2716\00a0"; }
+td.result { white-space: nowrap; }
+.verdict { border: 2px solid #333; padding: 8px 12px; margin: 10px 0; font-size: 11.5pt; }
+.verdict.fail { border-color: #a00; border-width: 3px; }
+.caution { border: 2px solid #8a6d00; background: #fff8dc; padding: 8px 12px; margin: 10px 0; }
+.caution strong { display: block; margin-bottom: 2px; }
+figure { margin: 8px 0 18px 0; break-inside: avoid; page-break-inside: avoid; }
+figure svg { width: 100%; height: auto; max-width: 960px; display: block; border: 1px solid #ccc; }
+figcaption { font-size: 9pt; color: #222; margin-top: 3px; max-width: 960px; }
+.signoff td { border: none; padding: 22px 10px 2px 0; }
+.signoff .line { border-bottom: 1px solid #000; width: 22em; }
+.note { font-size: 9pt; color: #333; }
+@page { size: landscape; margin: 12mm; }
+@media print {
+  body { max-width: none; padding: 0; font-size: 9.5pt; }
+  .page { break-before: page; page-break-before: always; }
+  table { page-break-inside: auto; }
+  tr { break-inside: avoid; page-break-inside: avoid; }
+  thead { display: table-header-group; }
+  h2, h3 { break-after: avoid; page-break-after: avoid; }
+  figure svg { width: auto; height: 140mm; max-width: 100%; }
+  .caution, .verdict, .signoff { break-inside: avoid; page-break-inside: avoid; }
+}
+"#;
+
+fn title_block(h: &mut String, r: &ReportInputs) {
+    let _ = write!(
+        h,
+        "<header>\n<h1>Under-frequency load shedding: verification report</h1>\n<table class=\"meta\">\n\
+<tr><td>Plant</td><td><strong>{}</strong></td></tr>\n<tr><td>Shedding table</td><td><strong>{}</strong></td></tr>\n\
+<tr><td>Run made</td><td>{}</td></tr>\n<tr><td>Made with</td><td>nadir {}</td></tr>\n</table>\n</header>\n",
+        esc(&r.plant.name),
+        esc(&r.scheme.name),
+        esc(r.generated_utc),
+        esc(r.tool_version)
+    );
+}
+
+fn verdict(h: &mut String, r: &ReportInputs) {
+    let total = r.matrix.rows.len();
+    let failed = r.matrix.rows.iter().filter(|x| !x.pass).count();
+    let violations = r.audit.violations.len();
+    let runs = if failed == 0 {
+        format!(
+            "All {} case × operating-point {} hold every criterion",
+            words(total),
+            plural(total, "run", "runs")
+        )
+    } else {
+        format!(
+            "{} of {} case × operating-point runs FAIL ({} {})",
+            capitalised(&words(failed)),
+            words(total),
+            words(total - failed),
+            if total - failed == 1 {
+                "passes"
+            } else {
+                "pass"
+            }
+        )
+    };
+    let audit = if violations == 0 {
+        "the audit of the table against the plant's own rules found no violation".to_string()
+    } else {
+        format!(
+            "the audit found {} {} of the plant's own rules",
+            words(violations),
+            plural(violations, "violation", "violations")
+        )
+    };
+    let ok = failed == 0 && violations == 0;
+    let _ = write!(
+        h,
+        "<section class=\"verdict{}\">\n<strong>Verdict: {}.</strong> {runs}; {audit}. \
+({total} runs: {} pass, {failed} fail; {violations} audit {}.)\n</section>\n",
+        if ok { "" } else { " fail" },
+        if ok {
+            "the table holds every case"
+        } else {
+            "the table DOES NOT hold"
+        },
+        total - failed,
+        plural(violations, "violation", "violations")
+    );
+}
+
+fn caution(h: &mut String) {
+    let _ = write!(
+        h,
+        "<section class=\"caution\">\n<strong>Caution</strong>\n{CAUTION} The figures come from a \
+frequency-only model (one frequency per island; no voltage or angle stability, no network losses, \
+no unbalanced faults) and are study aids; they do not replace a protection study. No setting may \
+be applied on the strength of this report alone.\n</section>\n"
+    );
+}
+
+fn inputs(h: &mut String, r: &ReportInputs) {
+    h.push_str("<section>\n<h2>Inputs</h2>\n<table class=\"wide\">\n<thead><tr><th>file</th><th>path</th><th>bytes</th><th>SHA-256</th></tr></thead>\n<tbody>\n");
+    for f in r.files {
+        let _ = writeln!(
+            h,
+            "<tr><td class=\"id\">{}</td><td>{}</td><td class=\"n\">{}</td><td class=\"hash\">{}</td></tr>",
+            esc(&f.role),
+            esc(&f.path),
+            f.size_bytes,
+            esc(&f.sha256_hex)
+        );
+    }
+    let _ = write!(
+        h,
+        "</tbody>\n</table>\n<p class=\"note\">Tool: nadir {}. A file whose SHA-256 differs from the \
+one above is not the file this report verified.</p>\n</section>\n",
+        esc(r.tool_version)
+    );
+}
+
+fn plant_summary(h: &mut String, r: &ReportInputs) {
+    let p = r.plant;
+    let _ = write!(
+        h,
+        "<section class=\"page\">\n<h2>Plant</h2>\n<p>{} bus {}, {} {}, {} {}, {} operating {}; \
+nominal frequency {} Hz; {} utility connection.</p>\n",
+        p.sections.len(),
+        plural(p.sections.len(), "section", "sections"),
+        p.generators.len(),
+        plural(p.generators.len(), "generator", "generators"),
+        p.loads.len(),
+        plural(p.loads.len(), "load", "loads"),
+        p.operating_points.len(),
+        plural(p.operating_points.len(), "point", "points"),
+        num(p.nominal_hz, 0),
+        if p.utility.is_some() { "with a" } else { "no" }
+    );
+    h.push_str("<h3>Operating points, before any event</h3>\n<table>\n<thead><tr><th>point</th><th>island (sections)</th><th>utility</th><th>load MW</th><th>generation MW</th><th>import MW</th><th>reserve MW</th><th>E_k MW·s</th><th>H_sys s</th></tr></thead>\n<tbody>\n");
+    for pf in &r.screening.operating_points {
+        for (i, isl) in pf.islands.iter().enumerate() {
+            let point = if i == 0 {
+                esc(&pf.operating_point)
+            } else {
+                String::new()
+            };
+            let _ = writeln!(
+                h,
+                "<tr><td class=\"id\">{point}</td><td>{}</td><td>{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td></tr>",
+                esc(&isl.sections.join(" + ")),
+                if isl.on_utility { "connected" } else { "islanded" },
+                num(isl.load_mw, 2),
+                num(isl.generation_mw, 2),
+                num(isl.import_mw, 2),
+                num(isl.spinning_reserve_mw, 2),
+                num(isl.generator_energy_mws + isl.motor_energy_mws, 1),
+                isl.h_sys_s.map(|v| num(v, 2)).unwrap_or_else(|| "—".into())
+            );
+        }
+    }
+    h.push_str("</tbody>\n</table>\n<p class=\"note\">Reserve: headroom of the governed machines. E_k: Σ H·S of the online machines plus Σ H·P of motor loads. H_sys: E_k over the online MVA.</p>\n");
+    let c = &p.criteria;
+    let _ = write!(
+        h,
+        "<h3>Acceptance criteria</h3>\n<table>\n<tbody>\n\
+<tr><td>frequency stays between</td><td class=\"n\">{} – {} Hz</td></tr>\n\
+<tr><td>ROCOF at most (over {} s)</td><td class=\"n\">{} Hz/s</td></tr>\n\
+<tr><td>recovers above</td><td class=\"n\">{} Hz within {} s</td></tr>\n\
+<tr><td>settles within</td><td class=\"n\">{} – {} Hz from {} s</td></tr>\n\
+<tr><td>required disturbance margin</td><td class=\"n\">{}×</td></tr>\n\
+<tr><td>required model-error margin</td><td class=\"n\">{} %</td></tr>\n\
+</tbody>\n</table>\n</section>\n",
+        num(c.min_hz, 2),
+        num(c.max_hz, 2),
+        num(c.rocof_window_s, 2),
+        num(c.max_rocof_hz_per_s, 2),
+        num(c.recover_above_hz, 2),
+        num(c.recover_within_s, 1),
+        num(c.settle_low_hz, 2),
+        num(c.settle_high_hz, 2),
+        num(c.settle_within_s, 1),
+        num(c.required_disturbance_factor, 2),
+        num(c.required_model_error_pct, 0)
+    );
+}
+
+fn shedding_table(h: &mut String, r: &ReportInputs) {
+    let a = r.audit;
+    h.push_str("<section>\n<h2>Shedding table, in operating order</h2>\n<p class=\"note\">Armed stages first, then frequency stages by falling pickup. Each cell: MW the stage opens at that operating point, and in brackets the cumulative MW.</p>\n<table class=\"wide\">\n<thead><tr><th>stage</th><th>trigger</th><th>delay s</th><th>breaker s</th><th>loads (rank)</th>");
+    for op in &a.operating_points {
+        let _ = write!(h, "<th>{} MW (cum.)</th>", esc(op));
+    }
+    h.push_str("</tr></thead>\n<tbody>\n");
+    for s in &a.order {
+        let loads = s
+            .loads
+            .iter()
+            .map(|(id, rank)| format!("{} ({rank})", esc(id)))
+            .collect::<Vec<_>>()
+            .join(", ");
+        let _ = write!(
+            h,
+            "<tr><td class=\"id\">{}</td><td>{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td>{loads}</td>",
+            esc(&s.id),
+            esc(&s.trigger),
+            num(s.delay_s, 2),
+            num(s.breaker_s, 2)
+        );
+        for (mw, cum) in s.mw.iter().zip(&s.cumulative_mw) {
+            let _ = write!(h, "<td class=\"n\">{} ({})</td>", num(*mw, 2), num(*cum, 2));
+        }
+        h.push_str("</tr>\n");
+    }
+    h.push_str("</tbody>\n</table>\n</section>\n");
+}
+
+fn audit_section(h: &mut String, r: &ReportInputs) {
+    let rules = r.audit_rules;
+    let _ = write!(
+        h,
+        "<section>\n<h2>Audit against the plant's own rules</h2>\n<p>Rules: loads shed in rank order; \
+no never-shed load in a stage; no stage empty at any operating point; frequency stages at least {} Hz \
+or {} s apart; no pickup above {} Hz.</p>\n",
+        num(rules.min_spacing_hz, 2),
+        num(rules.min_spacing_s, 2),
+        num(rules.normal_low_hz, 2)
+    );
+    if r.audit.violations.is_empty() {
+        h.push_str("<p><strong>Violations: none.</strong></p>\n");
+    } else {
+        let _ = write!(
+            h,
+            "<p><strong>{} {}:</strong></p>\n<table class=\"wide\">\n<thead><tr><th>rule</th><th>violation</th></tr></thead>\n<tbody>\n",
+            r.audit.violations.len(),
+            plural(r.audit.violations.len(), "violation", "violations")
+        );
+        for v in &r.audit.violations {
+            let _ = writeln!(
+                h,
+                "<tr class=\"fail\"><td class=\"id result\">{}</td><td>{}</td></tr>",
+                esc(v.rule),
+                esc(&v.message)
+            );
+        }
+        h.push_str("</tbody>\n</table>\n");
+    }
+    h.push_str("</section>\n");
+}
+
+fn matrix_section(h: &mut String, r: &ReportInputs) {
+    let m = r.matrix;
+    let failed = m.rows.iter().filter(|x| !x.pass).count();
+    let _ = write!(
+        h,
+        "<section class=\"page\">\n<h2>Verification matrix</h2>\n<p>{} case × operating-point runs; {} pass, {failed} fail. Failing rows are marked ✖ FAIL and set in bold.</p>\n",
+        m.rows.len(),
+        m.rows.len() - failed
+    );
+    h.push_str("<table class=\"wide matrix\">\n<thead><tr><th>case</th><th>point</th><th>result</th><th>nadir Hz</th><th>at s</th><th>peak Hz</th><th>ROCOF Hz/s</th><th>recovered s</th><th>shed MW</th><th>shed %</th><th>stages</th><th>cascades</th><th>disturbance ×</th><th>model error %</th><th>failed criterion</th></tr></thead>\n<tbody>\n");
+    for row in &m.rows {
+        let (dist, model) = match &row.margins {
+            Some(mg) => (
+                margin_cell(&mg.disturbance_factor, "×"),
+                margin_cell(&mg.model_error_pct, ""),
+            ),
+            None => ("-".into(), "-".into()),
+        };
+        let list = |v: &[String]| {
+            if v.is_empty() {
+                "-".to_string()
+            } else {
+                v.iter()
+                    .map(|id| format!("<span class=\"nw\">{}</span>", esc(id)))
+                    .collect::<Vec<_>>()
+                    .join(" ")
+            }
+        };
+        let failures = row
+            .failures
+            .iter()
+            .map(|f| esc(&f.message))
+            .collect::<Vec<_>>()
+            .join("; ");
+        let o = &row.observed;
+        let _ = writeln!(
+            h,
+            "<tr{}><td class=\"id\">{}</td><td class=\"id\">{}</td><td class=\"result\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td>{}</td><td>{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"msg\">{failures}</td></tr>",
+            if row.pass { "" } else { " class=\"fail\"" },
+            esc(&row.case),
+            esc(&row.operating_point),
+            if row.pass { "pass" } else { "FAIL" },
+            num(o.nadir_hz, 2),
+            num(o.nadir_at_s, 2),
+            num(o.max_hz, 2),
+            num(o.max_rocof_hz_per_s, 2),
+            o.recovered_at_s
+                .map(|t| num(t, 2))
+                .unwrap_or_else(|| "never".into()),
+            num(row.shed_mw, 2),
+            num(row.shed_pct, 1),
+            list(&row.stages_operated),
+            list(&row.cascades),
+            esc(&dist),
+            esc(&model)
+        );
+    }
+    h.push_str("</tbody>\n</table>\n<p class=\"note\">Margins: disturbance × is how far the case's lost import, generation or load step could grow before a criterion fails (— where the case has no single disturbance to grow); model error % is how much lower every inertia constant and load damping exponent could be. ≥ means the search range ended with the case still holding.</p>\n</section>\n");
+}
+
+fn plots(h: &mut String, r: &ReportInputs) {
+    h.push_str("<section class=\"page\">\n<h2>Frequency after each case</h2>\n");
+    let _ = writeln!(h, "<p class=\"note\">{PLOT_CAPTION}</p>");
+    for (i, p) in r.plots.iter().enumerate() {
+        // The caption repeats the matrix rows of this case, so a printed plot page stands alone.
+        let results = r
+            .matrix
+            .rows
+            .iter()
+            .filter(|row| row.case == p.case)
+            .map(|row| {
+                format!(
+                    "{}: nadir {} Hz at {} s, {}",
+                    esc(&row.operating_point),
+                    num(row.observed.nadir_hz, 2),
+                    num(row.observed.nadir_at_s, 2),
+                    if row.pass {
+                        "holds"
+                    } else {
+                        "<strong>FAILS</strong>"
+                    }
+                )
+            })
+            .collect::<Vec<_>>()
+            .join("; ");
+        let _ = write!(
+            h,
+            "<figure id=\"case-{}\">\n<h3>{}</h3>\n{}<figcaption>{}. {results}.</figcaption>\n</figure>\n",
+            i + 1,
+            esc(&p.case),
+            svg::render(&p.plot),
+            esc(&p.description)
+        );
+    }
+    h.push_str("</section>\n");
+}
+
+fn sign_off(h: &mut String, r: &ReportInputs) {
+    let _ = write!(
+        h,
+        "<section class=\"page signoff-block\">\n<h2>Review and sign-off</h2>\n<p>I have reviewed the \
+shedding table <strong>{}</strong> for <strong>{}</strong> against the inputs identified above by their \
+SHA&#8209;256, and the results in this report.</p>\n<table class=\"signoff\">\n<tbody>\n\
+<tr><td>Reviewed by (name)</td><td class=\"line\"></td></tr>\n\
+<tr><td>Qualification / role</td><td class=\"line\"></td></tr>\n\
+<tr><td>Date</td><td class=\"line\"></td></tr>\n\
+<tr><td>Signature</td><td class=\"line\"></td></tr>\n\
+<tr><td>Grid operator coordination (reference)</td><td class=\"line\"></td></tr>\n\
+<tr><td>Remarks</td><td class=\"line\"></td></tr>\n\
+</tbody>\n</table>\n<p class=\"note\">{CAUTION}</p>\n</section>\n",
+        esc(&r.scheme.name),
+        esc(&r.plant.name)
+    );
+}
+
+/// A margin in a cell, as `nadir verify` writes it: "1.37×", "≥2.00×", "fails", "—".
+fn margin_cell(m: &Margin, unit: &str) -> String {
+    let number = |v: f64| {
+        if unit == "×" {
+            format!("{v:.2}")
+        } else {
+            format!("{v:.0}")
+        }
+    };
+    match m {
+        Margin::NotApplicable => "—".into(),
+        Margin::FailsAsIs => "fails".into(),
+        Margin::AtLeast(v) => format!("≥{}{unit}", number(*v)),
+        Margin::Found(v) => format!("{}{unit}", number(*v)),
+    }
+}
+
+/// A fixed-decimal number without a lone minus sign on zero.
+fn num(v: f64, decimals: usize) -> String {
+    if !v.is_finite() {
+        return "—".into();
+    }
+    let s = format!("{v:.decimals$}");
+    if s.starts_with('-') && s[1..].chars().all(|c| c == '0' || c == '.') {
+        s[1..].to_string()
+    } else {
+        s
+    }
+}
+
+fn plural<'s>(n: usize, one: &'s str, many: &'s str) -> &'s str {
+    if n == 1 {
+        one
+    } else {
+        many
+    }
+}
+
+fn capitalised(word: &str) -> String {
+    let mut c = word.chars();
+    match c.next() {
+        Some(f) => f.to_uppercase().chain(c).collect(),
+        None => String::new(),
+    }
+}
+
+/// Small counts in words, larger ones in digits.
+fn words(n: usize) -> String {
+    const W: [&str; 13] = [
+        "no", "one", "two", "three", "four", "five", "six", "seven", "eight", "nine", "ten",
+        "eleven", "twelve",
+    ];
+    W.get(n).map(|w| w.to_string()).unwrap_or(n.to_string())
+}
+
+/// Escape text for HTML element content and quoted attribute values.
+pub fn esc(text: &str) -> String {
+    let mut out = String::with_capacity(text.len());
+    for c in text.chars() {
+        match c {
+            '&' => out.push_str("&amp;"),
+            '<' => out.push_str("&lt;"),
+            '>' => out.push_str("&gt;"),
+            '"' => out.push_str("&quot;"),
+            '\'' => out.push_str("&#39;"),
+            _ => out.push(c),
+        }
+    }
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn sha256_matches_the_fips_180_2_examples() {
+        // FIPS 180-2, appendix B.1 ("abc") and the digest of the empty message (NIST CSRC example values).
+        assert_eq!(
+            sha256_hex(b"abc"),
+            "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"
+        );
+        assert_eq!(
+            sha256_hex(b""),
+            "e3b0c44298fc1c149afbf4c8996fb92427ae41e4649b934ca495991b7852b855"
+        );
+    }
+
+    #[test]
+    fn timestamps_follow_the_gregorian_calendar() {
+        assert_eq!(utc_timestamp(0), "1970-01-01 00:00:00 UTC");
+        // 2000-02-29 exists (400-year rule) and 2000-03-01 follows it: 11 016 and 11 017 days
+        // after the epoch [D].
+        assert_eq!(utc_timestamp(11_016 * 86_400), "2000-02-29 00:00:00 UTC");
+        assert_eq!(
+            utc_timestamp(11_017 * 86_400 + 3_661),
+            "2000-03-01 01:01:01 UTC"
+        );
+        // 2^31 seconds: the 32-bit time_t rollover instant, 2038-01-19 03:14:08 UTC.
+        assert_eq!(utc_timestamp(1 << 31), "2038-01-19 03:14:08 UTC");
+    }
+
+    #[test]
+    fn text_from_input_files_is_escaped() {
+        assert_eq!(
+            esc(r#"<script>alert('x') & "y"</script>"#),
+            "&lt;script&gt;alert(&#39;x&#39;) &amp; &quot;y&quot;&lt;/script&gt;"
+        );
+    }
+
+    #[test]
+    fn the_lowest_section_is_followed_at_each_sample() {
+        let run_trace = crate::sim::Trace {
+            t_s: vec![0.0, 1.0, 2.0],
+            section_hz: vec![vec![50.0, 49.0, 49.8], vec![50.0, 49.5, 49.2]],
+            shed_mw: vec![0.0, 1.0, 1.0],
+        };
+        let series = lowest_section_series("p", &fake_run(run_trace)).expect("trace kept");
+        assert_eq!(series.points, vec![(0.0, 50.0), (1.0, 49.0), (2.0, 49.2)]);
+        assert_eq!(series.shed_mw[1], (1.0, 1.0));
+        assert!(lowest_section_series(
+            "p",
+            &Run {
+                trace: None,
+                ..fake_run(crate::sim::Trace {
+                    t_s: vec![],
+                    section_hz: vec![],
+                    shed_mw: vec![]
+                })
+            }
+        )
+        .is_none());
+    }
+
+    fn fake_run(trace: crate::sim::Trace) -> Run {
+        Run {
+            stop: crate::sim::StopReason::EndTime,
+            islands: vec![],
+            nadir_hz: 0.0,
+            nadir_at_s: 0.0,
+            peak_after_nadir_hz: 0.0,
+            peak_at_s: 0.0,
+            max_rocof_hz_per_s: 0.0,
+            final_hz: 0.0,
+            recovered_above_at_s: None,
+            events: vec![],
+            shed_mw: 0.0,
+            trace: Some(trace),
+        }
+    }
+}
