@@ -150,7 +150,8 @@ pub fn operating_order(scheme: &Scheme) -> Vec<usize> {
     idx
 }
 
-fn describe_trigger(plant: &Plant, trigger: &StageTrigger) -> String {
+/// A stage's trigger in words: "49.00 Hz", "49.20 Hz, df/dt ≤ −1.00 Hz/s", "utility opens".
+pub fn describe_trigger(plant: &Plant, trigger: &StageTrigger) -> String {
     match *trigger {
         StageTrigger::Frequency {
             pickup_hz,

@@ -110,19 +110,7 @@ fn compare_stage(plant: &Plant, old: &Stage, new: &Stage, out: &mut Vec<SettingC
 }
 
 fn trigger(plant: &Plant, t: &StageTrigger) -> String {
-    match *t {
-        StageTrigger::Frequency {
-            pickup_hz,
-            min_rocof_hz_per_s: None,
-        } => format!("{pickup_hz:.2} Hz"),
-        StageTrigger::Frequency {
-            pickup_hz,
-            min_rocof_hz_per_s: Some(r),
-        } => {
-            format!("{pickup_hz:.2} Hz with df/dt ≤ −{r:.2} Hz/s")
-        }
-        StageTrigger::Breaker(b) => format!("armed by {}", super::audit::breaker_name(plant, b)),
-    }
+    super::audit::describe_trigger(plant, t)
 }
 
 fn summary(plant: &Plant, s: &Stage) -> String {
