@@ -50,9 +50,18 @@ pub fn write_atomic(path: &Path, bytes: &[u8], overwrite: Overwrite) -> Result<(
         .map(|n| n.to_string_lossy().to_string())
         .unwrap_or_default();
     let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
+    let pause = interruption_test_pause();
     let result = (|| {
         let mut file = fs::File::create(&tmp)?;
-        file.write_all(bytes)?;
+        for (i, chunk) in bytes.chunks(64 * 1024).enumerate() {
+            file.write_all(chunk)?;
+            if i == 0 {
+                if let Some(p) = pause {
+                    file.flush()?;
+                    std::thread::sleep(p);
+                }
+            }
+        }
         file.sync_all()?;
         fs::rename(&tmp, path)
     })();
@@ -61,6 +70,16 @@ pub fn write_atomic(path: &Path, bytes: &[u8], overwrite: Overwrite) -> Result<(
         return Err(io(e));
     }
     Ok(())
+}
+
+/// `NADIR_TEST_WRITE_PAUSE_MS`: pause after the first 64 KiB of every file written, so that a test
+/// can kill the process in the middle of a write (tests/interrupted_write.rs). Unset in normal use.
+fn interruption_test_pause() -> Option<std::time::Duration> {
+    let ms: u64 = std::env::var("NADIR_TEST_WRITE_PAUSE_MS")
+        .ok()?
+        .parse()
+        .ok()?;
+    Some(std::time::Duration::from_millis(ms.min(60_000)))
 }
 
 #[cfg(test)]
