@@ -125,7 +125,12 @@ pub fn render(plot: &FrequencyPlot) -> String {
 
     // Levels: pickups dotted grey, limits dashed red, recovery dashed green; labels at the right edge.
     let mut label_ys: Vec<f64> = Vec::new();
-    let mut levels: Vec<&Level> = plot.levels.iter().filter(|l| l.hz.is_finite()).collect();
+    // Levels outside the axis are left out rather than drawn at its edge.
+    let mut levels: Vec<&Level> = plot
+        .levels
+        .iter()
+        .filter(|l| l.hz.is_finite() && l.hz >= f_lo && l.hz <= f_hi)
+        .collect();
     levels.sort_by(|a, b| b.hz.total_cmp(&a.hz));
     for level in levels {
         let (colour, dash) = match level.kind {
@@ -212,17 +217,28 @@ pub fn render(plot: &FrequencyPlot) -> String {
     s
 }
 
+/// The frequency axis: the traces and every level below nominal, and levels above nominal only when
+/// a trace comes within a quarter of the way to them, so that an over-frequency limit far from the
+/// action does not squash the under-frequency picture.
 fn frequency_range(plot: &FrequencyPlot) -> (f64, f64) {
     let mut lo = plot.nominal_hz;
     let mut hi = plot.nominal_hz;
-    let values = plot
+    for v in plot
         .series
         .iter()
         .flat_map(|s| s.points.iter().map(|p| p.1))
-        .chain(plot.levels.iter().map(|l| l.hz));
-    for v in values.filter(|v| v.is_finite()) {
+        .filter(|v| v.is_finite())
+    {
         lo = lo.min(v);
         hi = hi.max(v);
+    }
+    let data_hi = hi;
+    for level in plot.levels.iter().filter(|l| l.hz.is_finite()) {
+        let above = level.hz > plot.nominal_hz;
+        if !above || data_hi >= plot.nominal_hz + 0.75 * (level.hz - plot.nominal_hz) {
+            lo = lo.min(level.hz);
+            hi = hi.max(level.hz);
+        }
     }
     let pad = ((hi - lo) * 0.06).max(0.05);
     (lo - pad, hi + pad)
@@ -326,6 +342,22 @@ mod tests {
         assert!(svg.contains("uf-1 49 Hz"));
         assert!(svg.contains("min 47.5 Hz"));
         assert!(svg.contains("island 1"));
+    }
+
+    #[test]
+    fn a_far_over_frequency_limit_does_not_stretch_the_axis() {
+        let mut p = plot();
+        p.levels.push(Level {
+            label: "max".into(),
+            hz: 51.5,
+            kind: LevelKind::Limit,
+        });
+        let (_, hi) = frequency_range(&p);
+        assert!(hi < 50.3, "axis top {hi}");
+        assert!(!render(&p).contains("max 51.5 Hz"));
+        // A trace that overshoots towards the limit brings it into view.
+        p.series[0].points.push((10.0, 51.2));
+        assert!(render(&p).contains("max 51.5 Hz"));
     }
 
     #[test]
