@@ -493,3 +493,261 @@ fn event_storm_guard_stops_a_run_past_its_event_budget() {
     assert_eq!(detail, "event storm");
     assert!(at_s.is_finite() && *at_s < 8.0);
 }
+
+#[test]
+fn voltage_dip_trajectory_follows_the_constant_impedance_closed_form() {
+    // docs/models.md §3: during a dip the section's loads draw v²·P (constant impedance). With a
+    // fixed machine (P_m = 100 MW) and linear loads the swing equation (Kundur §3.9) stays
+    // linear on each piece: 2E·dΔω/dt = P_m − c·(1 + Δω), c = v²·(connected P0), so
+    // Δω(t) = Δω* + (Δω(t0) − Δω*)e^{−(t−t0)/T}, Δω* = (P_m − c)/c, T = 2E/c [D].
+    // Pieces: 1.0–1.1 s c = 0.36·100; 1.1–1.3 s c = 0.36·90 (one load dropped); after c = 90.
+    let mut loads = vec![load("base", 90.0, 1.0), load("drops", 10.0, 1.0)];
+    loads[1].undervoltage = Some(UndervoltageTrip {
+        below_pu: 0.8,
+        after_s: 0.1,
+    });
+    let p = fixed_plant(5.0, 100.0, 100.0, loads, 0.0);
+    let c = case(
+        Start::Islanded,
+        3.0,
+        vec![(
+            1.0,
+            Action::VoltageDip {
+                section: 0,
+                remaining_pu: 0.6,
+                duration_s: 0.3,
+            },
+        )],
+    );
+    let cfg = SimConfig {
+        record_trace: true,
+        ..SimConfig::default()
+    };
+    let run = simulate(&p, &c, 0, &scheme(vec![], 0.04), &cfg);
+    let e2 = 2.0 * 500.0;
+    let pieces = [(1.0, 36.0), (1.1, 32.4), (1.3, 90.0)];
+    let closed = |t: f64| {
+        let mut dw = 0.0;
+        let mut t0 = 1.0;
+        if t <= t0 {
+            return 0.0;
+        }
+        for (i, &(start, c)) in pieces.iter().enumerate() {
+            let end = pieces.get(i + 1).map_or(f64::INFINITY, |p| p.0);
+            let star = (100.0 - c) / c;
+            let upto = t.min(end);
+            dw = star + (dw - star) * (-(upto - start) / (e2 / c)).exp();
+            t0 = upto;
+            if t <= end {
+                break;
+            }
+        }
+        assert!(t0 == t);
+        dw
+    };
+    let tr = run.trace.as_ref().expect("trace");
+    let mut worst: f64 = 0.0;
+    for (t, f) in tr.t_s.iter().zip(&tr.section_hz[0]) {
+        worst = worst.max((f - 50.0 * (1.0 + closed(*t))).abs());
+    }
+    eprintln!(
+        "dip trajectory: largest error {worst:.2e} Hz, final {:.6}",
+        run.final_hz
+    );
+    assert!(worst < 1e-5, "largest error {worst} Hz");
+}
+
+#[test]
+fn stage_is_latched_after_its_trip_command() {
+    // docs/models.md §6: at delay_s the stage issues its trip command (latched: no reset after
+    // this) and opens its loads breaker_s later even if frequency has recovered meanwhile.
+    // Lag 0 so m = Δω (§5). Same island as the reset test: +5 MW at 0 crosses 49.5 Hz at
+    // t_p = −10 ln 0.8 (REFERENCES §4.2 [D]); delay 0.5 s, breaker 1.0 s. At 2.8 s a −15 MW step
+    // leaves a 10 MW surplus: Δω(t) = 0.1 + (Δω(2.8) − 0.1)e^{−(t−2.8)/10} is back above −0.01
+    // before t_p + 1.5 s, after the trip command.
+    let p = fixed_plant(
+        5.0,
+        100.0,
+        100.0,
+        vec![load("l", 95.0, 1.0), load("shed", 5.0, 1.0)],
+        0.0,
+    );
+    let c = case(
+        Start::Islanded,
+        6.0,
+        vec![
+            (
+                0.0,
+                Action::LoadStep {
+                    section: 0,
+                    mw: 5.0,
+                },
+            ),
+            (
+                2.8,
+                Action::LoadStep {
+                    section: 0,
+                    mw: -15.0,
+                },
+            ),
+        ],
+    );
+    let t_p = -10.0 * 0.8f64.ln();
+    let dw = decay(0.05, 10.0, 2.8);
+    let t_back = 2.8 + 10.0 * ((dw - 0.1) / (-0.01 - 0.1)).ln();
+    assert!(t_back > t_p + 0.5 && t_back < t_p + 1.5, "{t_back}");
+    let mut stage = uf_stage("uf", 49.5, None, 0.5, vec![1]);
+    stage.breaker_s = 1.0;
+    let run = simulate(&p, &c, 0, &scheme(vec![stage], 0.0), &SimConfig::default());
+    eprintln!(
+        "latch: pickup {t_p:.6}, back above {t_back:.6}; {:?}",
+        run.events
+    );
+    let cmd = first_at(&run, |k| matches!(k, EventKind::StageTripCommand { .. })).expect("command");
+    let open = first_at(&run, |k| matches!(k, EventKind::LoadsOpened { .. })).expect("opened");
+    assert!((cmd - (t_p + 0.5)).abs() < 1e-3, "command {cmd}");
+    assert!((open - (t_p + 1.5)).abs() < 1e-3, "opened {open}");
+    assert_eq!(
+        count(&run, |k| matches!(k, EventKind::StageReset { .. })),
+        0
+    );
+    assert!((run.shed_mw - 5.0).abs() < 1e-12);
+}
+
+#[test]
+fn rocof_supervised_stage_resets_when_the_decline_stops_below_pickup() {
+    // docs/models.md §6: the supervised condition needs −rocof_meas ≥ min_rocof as well; when the
+    // decline stops (balance restored) while frequency is still below pickup, the condition
+    // clears and the stage resets before its delay. Rocof measurement: first-order lag T_w of
+    // dm/dt (§5), so the reset follows the balance step within a few T_w.
+    // Islanded 100 MVA, H = 10 s (E = 1000 MW·s), 100 MW linear load: +50 MW at 0 falls at
+    // ≈1.25 Hz/s (REFERENCES §4.2 [D]); −50 MW at 0.6 s, after the 49.5 Hz crossing (≈0.44 s);
+    // from then Δω decays back towards 0 at ≈ +0.1 Hz/s, still below 49.5 Hz for seconds.
+    let p = fixed_plant(10.0, 100.0, 100.0, vec![load("l", 100.0, 1.0)], 0.0);
+    let c = case(
+        Start::Islanded,
+        2.0,
+        vec![
+            (
+                0.0,
+                Action::LoadStep {
+                    section: 0,
+                    mw: 50.0,
+                },
+            ),
+            (
+                0.6,
+                Action::LoadStep {
+                    section: 0,
+                    mw: -50.0,
+                },
+            ),
+        ],
+    );
+    let tw = 0.1;
+    let sch = scheme(vec![uf_stage("df", 49.5, Some(0.5), 0.5, vec![0])], 0.04);
+    assert_eq!(sch.measurement.rocof_window_s, tw);
+    let run = simulate(&p, &c, 0, &sch, &SimConfig::default());
+    eprintln!("df/dt reset: {:?}, final {}", run.events, run.final_hz);
+    let pick = first_at(&run, |k| matches!(k, EventKind::StagePickup { .. })).expect("pickup");
+    let reset = first_at(&run, |k| matches!(k, EventKind::StageReset { .. })).expect("reset");
+    assert!(
+        pick < 0.6 && reset > 0.6 && reset < 0.6 + 5.0 * tw,
+        "{pick} {reset}"
+    );
+    // Reference: the documented equations (§3 swing with the linear load, §5 measurement chain)
+    // integrated here by classical RK4 at 1e-5 s, independent of the simulator's solver; the
+    // pickup is the first instant with f_m < 49.5 Hz and −f0·r ≥ 0.5 Hz/s, the reset the first
+    // instant after 0.6 s where that fails.
+    let (tf, e2, d) = (0.04, 2000.0, 100.0);
+    let deriv = |t: f64, y: [f64; 3]| {
+        let step = if t < 0.6 { 50.0 } else { 0.0 };
+        let dw = (-step - d * y[0]) / e2;
+        let dm = (y[0] - y[1]) / tf;
+        [dw, dm, (dm - y[2]) / tw]
+    };
+    let (mut t, mut y, h) = (0.0, [0.0f64; 3], 1e-5);
+    let mut ref_pick = None;
+    let ref_reset = loop {
+        let k1 = deriv(t, y);
+        let at = |k: [f64; 3], c: f64| [y[0] + c * k[0], y[1] + c * k[1], y[2] + c * k[2]];
+        let k2 = deriv(t + h / 2.0, at(k1, h / 2.0));
+        let k3 = deriv(t + h / 2.0, at(k2, h / 2.0));
+        let k4 = deriv(t + h, at(k3, h));
+        for i in 0..3 {
+            y[i] += h / 6.0 * (k1[i] + 2.0 * k2[i] + 2.0 * k3[i] + k4[i]);
+        }
+        t += h;
+        let cond = 50.0 * (1.0 + y[1]) < 49.5 && -50.0 * y[2] >= 0.5;
+        if cond && ref_pick.is_none() {
+            ref_pick = Some(t);
+        }
+        if !cond && t > 0.6 {
+            break t;
+        }
+    };
+    let ref_pick = ref_pick.expect("reference picks up");
+    eprintln!("df/dt reset reference: pickup {ref_pick:.5}, reset {ref_reset:.5}");
+    assert!(
+        (pick - ref_pick).abs() < 1e-3,
+        "pickup {pick} vs {ref_pick}"
+    );
+    assert!(
+        (reset - ref_reset).abs() < 1e-3,
+        "reset {reset} vs {ref_reset}"
+    );
+    assert!(
+        run.final_hz < 49.5,
+        "still below pickup at the end: {}",
+        run.final_hz
+    );
+    assert_eq!(
+        count(&run, |k| matches!(k, EventKind::LoadsOpened { .. })),
+        0
+    );
+    assert_eq!(run.shed_mw, 0.0);
+}
+
+#[test]
+fn interface_under_frequency_trip_islands_the_plant_on_the_utility_profile() {
+    // docs/models.md §6: an interface element times while f_meas < hz and opens the utility
+    // breaker after_s later (no extra breaker time); the plant then islands (§1). The measured
+    // frequency is the profile ramp through the lag T_f, as in the profile test above.
+    // Profile 50 Hz to 2 s, 49 Hz at 4 s; element 49.5 Hz / 0.2 s. After the opening the
+    // island (fixed machine 80 MW, 100 MW load, 20 MW import lost) falls on its own.
+    let mut p = fixed_plant(4.0, 100.0, 80.0, vec![load("l", 100.0, 1.0)], 20.0);
+    p.utility.as_mut().expect("utility").interface_trips = vec![FrequencyTrip::Under {
+        hz: 49.5,
+        after_s: 0.2,
+    }];
+    let mut c = case(Start::Connected, 5.0, vec![]);
+    c.utility_profile = vec![(0.0, 50.0), (2.0, 50.0), (4.0, 49.0)];
+    let tf = 0.04;
+    let run = simulate(&p, &c, 0, &scheme(vec![], tf), &SimConfig::default());
+    eprintln!("interface: {:?}", run.events);
+    let f_m = |t: f64| 50.0 - 0.5 * ((t - 2.0) - tf * (1.0 - (-(t - 2.0) / tf).exp()));
+    let t_cross = falls_below(f_m, 49.5, 2.0, 4.0);
+    let opened = first_at(&run, |k| {
+        matches!(k, EventKind::BreakerOpened { breaker, cause: nadir::sim::Cause::Protection { .. } }
+            if breaker == "utility")
+    })
+    .expect("utility opened by protection");
+    assert!(
+        (opened - (t_cross + 0.2)).abs() < 1e-3,
+        "opened {opened} vs {}",
+        t_cross + 0.2
+    );
+    let separated = run.events.iter().any(|e| {
+        matches!(
+            &e.what,
+            EventKind::IslandFormed {
+                on_utility: false,
+                ..
+            }
+        ) && e.at_s == opened
+    });
+    assert!(separated, "{:?}", run.events);
+    // Separated below the profile's last value with a 20 MW deficit: it ends below 49 Hz.
+    assert!(run.final_hz < 49.0, "final {}", run.final_hz);
+    assert_eq!(run.stop, StopReason::EndTime);
+}
