@@ -655,37 +655,22 @@ fn rocof_supervised_stage_resets_when_the_decline_stops_below_pickup() {
         pick < 0.6 && reset > 0.6 && reset < 0.6 + 5.0 * tw,
         "{pick} {reset}"
     );
-    // Reference: the documented equations (§3 swing with the linear load, §5 measurement chain)
-    // integrated here by classical RK4 at 1e-5 s, independent of the simulator's solver; the
+    // Reference: the documented equations integrated by `chain_rk4` at 1e-5 s; the
     // pickup is the first instant with f_m < 49.5 Hz and −f0·r ≥ 0.5 Hz/s, the reset the first
     // instant after 0.6 s where that fails.
-    let (tf, e2, d) = (0.04, 2000.0, 100.0);
-    let deriv = |t: f64, y: [f64; 3]| {
-        let step = if t < 0.6 { 50.0 } else { 0.0 };
-        let dw = (-step - d * y[0]) / e2;
-        let dm = (y[0] - y[1]) / tf;
-        [dw, dm, (dm - y[2]) / tw]
-    };
-    let (mut t, mut y, h) = (0.0, [0.0f64; 3], 1e-5);
-    let mut ref_pick = None;
-    let ref_reset = loop {
-        let k1 = deriv(t, y);
-        let at = |k: [f64; 3], c: f64| [y[0] + c * k[0], y[1] + c * k[1], y[2] + c * k[2]];
-        let k2 = deriv(t + h / 2.0, at(k1, h / 2.0));
-        let k3 = deriv(t + h / 2.0, at(k2, h / 2.0));
-        let k4 = deriv(t + h, at(k3, h));
-        for i in 0..3 {
-            y[i] += h / 6.0 * (k1[i] + 2.0 * k2[i] + 2.0 * k3[i] + k4[i]);
-        }
-        t += h;
+    let (mut ref_pick, mut ref_reset) = (None, f64::NAN);
+    let dw_dt = |t: f64, dw: f64| (-(if t < 0.6 { 50.0 } else { 0.0 }) - 100.0 * dw) / 2000.0;
+    chain_rk4(dw_dt, 0.04, tw, 1e-5, |t, y| {
         let cond = 50.0 * (1.0 + y[1]) < 49.5 && -50.0 * y[2] >= 0.5;
         if cond && ref_pick.is_none() {
             ref_pick = Some(t);
         }
         if !cond && t > 0.6 {
-            break t;
+            ref_reset = t;
+            return true;
         }
-    };
+        false
+    });
     let ref_pick = ref_pick.expect("reference picks up");
     eprintln!("df/dt reset reference: pickup {ref_pick:.5}, reset {ref_reset:.5}");
     assert!(
@@ -749,5 +734,194 @@ fn interface_under_frequency_trip_islands_the_plant_on_the_utility_profile() {
     assert!(separated, "{:?}", run.events);
     // Separated below the profile's last value with a 20 MW deficit: it ends below 49 Hz.
     assert!(run.final_hz < 49.0, "final {}", run.final_hz);
+    assert_eq!(run.stop, StopReason::EndTime);
+}
+
+/// Integrate the documented single-island equations with classical RK4 at step `h`: the swing
+/// equation with the caller's dΔω/dt (docs/models.md §3) and the relay measurement chain
+/// T_f·m' = Δω − m, T_w·r' = m' − r (§5). `visit(t, [Δω, m, r])` after each step returns true
+/// to stop. Independent of the simulator's solver and event code.
+fn chain_rk4(
+    dw_dt: impl Fn(f64, f64) -> f64,
+    tf: f64,
+    tw: f64,
+    h: f64,
+    mut visit: impl FnMut(f64, [f64; 3]) -> bool,
+) {
+    let deriv = |t: f64, y: [f64; 3]| {
+        let dw = dw_dt(t, y[0]);
+        let dm = (y[0] - y[1]) / tf;
+        [dw, dm, (dm - y[2]) / tw]
+    };
+    let (mut t, mut y) = (0.0, [0.0f64; 3]);
+    loop {
+        let k1 = deriv(t, y);
+        let at = |k: [f64; 3], c: f64| [y[0] + c * k[0], y[1] + c * k[1], y[2] + c * k[2]];
+        let k2 = deriv(t + h / 2.0, at(k1, h / 2.0));
+        let k3 = deriv(t + h / 2.0, at(k2, h / 2.0));
+        let k4 = deriv(t + h, at(k3, h));
+        for i in 0..3 {
+            y[i] += h / 6.0 * (k1[i] + 2.0 * k2[i] + 2.0 * k3[i] + k4[i]);
+        }
+        t += h;
+        if visit(t, y) || t > 100.0 {
+            return;
+        }
+    }
+}
+
+#[test]
+fn generator_rocof_trip_operates_after_its_time_on_the_measured_df_dt() {
+    // docs/models.md §6: a Rocof element times while |rocof_meas| > hz_per_s and operates
+    // after_s later; rocof_meas = f0·r with r the T_w lag of dm/dt (§5). Islanded: fixed
+    // machines 80 + 20 MVA, H = 10 s (E = 1000 MW·s), 100 MW linear load, +50 MW at 0: the
+    // true df/dt starts at −1.25 Hz/s and decays with T = 20 s (REFERENCES §4.2 [D]), so the
+    // 1.0 Hz/s level is crossed once the lags have filled. Crossing from `chain_rk4`.
+    let (tf, tw) = (0.04, 0.1);
+    let mut small = gen("small", 20.0, 10.0, 20.0, 0.0, PrimeMover::Fixed);
+    small.trips = vec![FrequencyTrip::Rocof {
+        hz_per_s: 1.0,
+        after_s: 0.1,
+    }];
+    let big = gen("big", 80.0, 10.0, 80.0, 0.0, PrimeMover::Fixed);
+    let mut p = plant(50.0, vec![big, small], vec![load("l", 100.0, 1.0)], 0.0);
+    p.utility = None;
+    let c = case(
+        Start::Islanded,
+        1.0,
+        vec![(
+            0.0,
+            Action::LoadStep {
+                section: 0,
+                mw: 50.0,
+            },
+        )],
+    );
+    let run = simulate(&p, &c, 0, &scheme(vec![], tf), &SimConfig::default());
+    eprintln!("rocof trip: {:?}", run.events);
+    let mut t_cross = f64::NAN;
+    chain_rk4(
+        |_, dw| (-50.0 - 100.0 * dw) / 2000.0,
+        tf,
+        tw,
+        1e-5,
+        |t, y| {
+            if (50.0 * y[2]).abs() > 1.0 {
+                t_cross = t;
+                true
+            } else {
+                false
+            }
+        },
+    );
+    assert!(
+        t_cross > 0.05 && t_cross < 0.5,
+        "reference crossing {t_cross}"
+    );
+    let pick = first_at(&run, |k| matches!(k, EventKind::ProtectionPickup { .. })).expect("pickup");
+    let trip = first_at(&run, |k| {
+        matches!(k, EventKind::GeneratorTripped { generator, cascade: true, .. } if generator == "small")
+    })
+    .expect("cascade trip");
+    eprintln!("rocof trip: reference crossing {t_cross:.5}, pickup {pick:.5}, trip {trip:.5}");
+    assert!((pick - t_cross).abs() < 1e-3, "pickup {pick} vs {t_cross}");
+    assert!((trip - (t_cross + 0.1)).abs() < 1e-3, "trip {trip}");
+}
+
+#[test]
+fn ride_through_violation_trips_the_only_machine_and_blacks_out_the_island() {
+    // docs/models.md §3: a generator with any violated ride-through limit (below_pu >
+    // remaining_pu and duration_s > after_s) trips at the earliest such after_s, a cascade trip;
+    // §1: an island with no running machine is a blackout. Limits {0.7 pu, 0.15 s} and
+    // {0.3 pu, 0.05 s}: a dip to 0.5 pu violates only the first (trip at dip + 0.15 s), a dip to
+    // 0.2 pu violates both (trip at the earlier, dip + 0.05 s), a 0.1 s dip to 0.5 pu none.
+    for (remaining_pu, duration_s, expect) in [
+        (0.5, 0.3, Some(0.15)),
+        (0.2, 0.3, Some(0.05)),
+        (0.5, 0.1, None),
+    ] {
+        let mut p = fixed_plant(5.0, 100.0, 100.0, vec![load("l", 100.0, 1.0)], 0.0);
+        p.generators[0].undervoltage_trips = vec![
+            UndervoltageTrip {
+                below_pu: 0.7,
+                after_s: 0.15,
+            },
+            UndervoltageTrip {
+                below_pu: 0.3,
+                after_s: 0.05,
+            },
+        ];
+        let c = case(
+            Start::Islanded,
+            2.0,
+            vec![(
+                1.0,
+                Action::VoltageDip {
+                    section: 0,
+                    remaining_pu,
+                    duration_s,
+                },
+            )],
+        );
+        let run = simulate(&p, &c, 0, &scheme(vec![], 0.04), &SimConfig::default());
+        eprintln!(
+            "ride-through {remaining_pu} pu / {duration_s} s: {:?}",
+            run.stop
+        );
+        let trip = first_at(&run, |k| {
+            matches!(k, EventKind::GeneratorTripped { cascade: true, .. })
+        });
+        match expect {
+            Some(after) => {
+                let trip = trip.expect("ride-through trip");
+                assert!((trip - (1.0 + after)).abs() < 1e-9, "trip {trip}");
+                let StopReason::Blackout { at_s, .. } = run.stop else {
+                    panic!("expected a blackout, got {:?}", run.stop);
+                };
+                assert!((at_s - trip).abs() < 1e-9, "blackout {at_s} vs trip {trip}");
+            }
+            None => {
+                assert_eq!(trip, None, "{:?}", run.events);
+                assert_eq!(run.stop, StopReason::EndTime);
+            }
+        }
+        assert!(all_finite(&run), "{run:?}");
+    }
+}
+
+#[test]
+fn voltage_dip_on_a_connected_plant_leaves_the_utility_frequency() {
+    // docs/models.md §1 and §3: on the utility the island's frequency is the utility's; a dip
+    // changes only the import. The drop-out timing rule is the same as when islanded.
+    let mut loads = vec![load("base", 90.0, 1.0), load("drops", 10.0, 1.0)];
+    loads[1].undervoltage = Some(UndervoltageTrip {
+        below_pu: 0.8,
+        after_s: 0.1,
+    });
+    let p = fixed_plant(5.0, 100.0, 80.0, loads, 20.0);
+    let c = case(
+        Start::Connected,
+        2.0,
+        vec![(
+            0.5,
+            Action::VoltageDip {
+                section: 0,
+                remaining_pu: 0.6,
+                duration_s: 0.3,
+            },
+        )],
+    );
+    let cfg = SimConfig {
+        record_trace: true,
+        ..SimConfig::default()
+    };
+    let run = simulate(&p, &c, 0, &scheme(vec![], 0.04), &cfg);
+    let drop = first_at(&run, |k| matches!(k, EventKind::LoadDroppedOut { .. })).expect("drop-out");
+    assert!((drop - 0.6).abs() < 1e-9, "drop-out {drop}");
+    let tr = run.trace.as_ref().expect("trace");
+    assert!(
+        tr.section_hz[0].iter().all(|f| *f == 50.0),
+        "frequency moved"
+    );
     assert_eq!(run.stop, StopReason::EndTime);
 }
