@@ -17,11 +17,18 @@ use nadir::model::*;
 use nadir::sim::{simulate, EventKind, Run, SimConfig, StopReason};
 use proptest::prelude::*;
 
-const CASES: u32 = 64;
+/// 64 cases per property keep the file well under a second in release; `PROPTEST_CASES` raises
+/// it for a longer hunt.
+fn cases() -> u32 {
+    std::env::var("PROPTEST_CASES")
+        .ok()
+        .and_then(|v| v.parse().ok())
+        .unwrap_or(64)
+}
 
 fn config() -> ProptestConfig {
     ProptestConfig {
-        cases: CASES,
+        cases: cases(),
         ..ProptestConfig::default()
     }
 }
@@ -179,11 +186,23 @@ struct Restrict {
     no_protection: bool,
     /// Loads have no declared inertia.
     no_load_inertia: bool,
+    /// Hydro transient droop and reset time set by the stable-tuning rule for the machine's own
+    /// H and T_w: R_T = [2.3 − 0.15(T_w − 1)]·T_w/(2H), T_R = [5 − 0.5(T_w − 1)]·T_w
+    /// (Kundur 1994 §9.1.5, from memory). The validator accepts far weaker settings, with which
+    /// an islanded hydro machine of low H oscillates with growing swings.
+    tuned_hydro: bool,
 }
 
 const FREE: Restrict = Restrict {
     no_protection: false,
     no_load_inertia: false,
+    tuned_hydro: false,
+};
+
+const SHED_LAW: Restrict = Restrict {
+    no_protection: true,
+    no_load_inertia: true,
+    tuned_hydro: true,
 };
 
 fn build_plant(s: &PlantSpec, r: Restrict) -> Plant {
@@ -203,6 +222,17 @@ fn build_plant(s: &PlantSpec, r: Restrict) -> Plant {
                     governor_s,
                     turbine_s,
                     load_limit_mw: load_limit_mw * g.rating_mva,
+                },
+                PrimeMover::Hydro {
+                    governor_s,
+                    water_start_s: tw,
+                    ..
+                } if r.tuned_hydro => PrimeMover::Hydro {
+                    governor_s,
+                    water_start_s: tw,
+                    transient_droop_pct: 100.0
+                        * ((2.3 - 0.15 * (tw - 1.0)) * tw / (2.0 * g.inertia_s)).min(1.0),
+                    reset_s: (5.0 - 0.5 * (tw - 1.0)) * tw,
                 },
                 other => other,
             };
@@ -454,6 +484,29 @@ fn build_scheme(p: &Plant, stages: &[StageSpec], allow_rocof: bool) -> Scheme {
     common::scheme(stages, 0.04)
 }
 
+/// `scheme` with loads dropped (stage order, then list order) so that everything it can ever
+/// shed stays within `budget_mw` at operating-point demand.
+fn trim_to_budget(p: &Plant, mut scheme: Scheme, budget_mw: f64) -> Scheme {
+    let mut taken: Vec<usize> = vec![];
+    let mut used = 0.0;
+    for st in scheme.stages.iter_mut() {
+        st.sheds.retain(|&k| {
+            if taken.contains(&k) {
+                return true;
+            }
+            let mw = p.operating_points[0].load_mw[k];
+            if used + mw <= budget_mw {
+                used += mw;
+                taken.push(k);
+                true
+            } else {
+                false
+            }
+        });
+    }
+    scheme
+}
+
 // ---------------------------------------------------------------- checks
 
 fn finite_problems(run: &Run) -> Vec<String> {
@@ -547,22 +600,28 @@ proptest! {
         prop_assert!(bad.is_empty(), "non-finite output {bad:?} (stop {:?})", run.stop);
     }
 
-    /// Law: relieving an island of load never deepens its frequency dip. In the swing equation
-    /// (Kundur 1994 §3.9, eq. 3.214) removing a positive load raises dΔω/dt at every instant,
-    /// and for a linear response the nadir scales with the deficit. This is only a law where
-    /// nothing in the plant can punish a higher frequency, so the generator here
-    ///  * disables generator and interface protection (an over-frequency trip after heavier
-    ///    shedding would be a real, lawful cascade),
+    /// Law: relieving an island in deficit of load never deepens its frequency dip. In the swing
+    /// equation (Kundur 1994 §3.9, eq. 3.214) removing a positive load raises dΔω/dt at that
+    /// instant, and for a linear response the nadir scales with the deficit. It is a law only
+    /// where nothing can punish a higher frequency or an earlier relief, so the generator here
+    ///  * disables generator and interface protection (an over-frequency trip, or a UF trip
+    ///    that now times out differently, is a lawful cascade; with protection on, 1500 samples
+    ///    gave nadirs up to 0.8 Hz lower),
     ///  * drops df/dt supervision from stages (a slower fall can block a supervised stage that
-    ///    would otherwise have shed — a lawful deeper nadir),
+    ///    would have shed; with supervision, up to 2.3 Hz lower),
+    ///  * never over-sheds: everything the scheme can shed plus the extra load stays within the
+    ///    island's deficit (lost import plus load step). Over-shedding drives frequency up, the
+    ///    governors close, and the rebound undershoot can go below the original nadir (found:
+    ///    0.2 Hz lower with one isochronous reheat machine) — lawful, and not the question here,
+    ///  * tunes hydro transient droop for stability (see [`Restrict::tuned_hydro`]); with the
+    ///    validator's weakest settings an island oscillates with growing swings and the nadir is
+    ///    not monotone in the deficit (found: 2 Hz lower, both runs near 0.85·f0),
     ///  * gives loads no inertia (shedding a motor with H_l > E/deficit removes stored energy
-    ///    faster than deficit and can steepen the fall — physically right, not a bug).
-    /// What remains is not strictly monotone either: a stage with a fixed delay after a
-    /// threshold crossing, hydro's non-minimum-phase response and limiters make the map
-    /// nonlinear. The tolerance of 0.02 Hz (common practice, no source: well under a UFLS
-    /// stage step of 0.2–0.3 Hz) admits those small effects and still catches a sign error or
-    /// a shed applied to the wrong island. The extra shed is an armed stage on the utility
-    /// breaker that opens one more load 0.1 s + 0.05 s after islanding.
+    ///    faster than deficit and can steepen the fall — physically right; not seen in 1500
+    ///    samples with H_l ≤ 3 s, excluded on principle).
+    /// The extra shed is an armed stage on the utility breaker that opens one more load 0.1 s +
+    /// 0.05 s after islanding. Tolerance 1e-4 Hz: the solver's rtol 1e-6 on f0; with the
+    /// restrictions above the largest shortfall seen over 1000 samples was 7e-7 Hz.
     #[test]
     fn shedding_more_never_lowers_nadir(
         ps in plant_spec(),
@@ -570,14 +629,24 @@ proptest! {
         stages in proptest::collection::vec(stage_spec(), 0..=4),
         extra in 0..12usize,
     ) {
-        let plant = build_plant(&ps, Restrict { no_protection: true, no_load_inertia: true });
+        let plant = build_plant(&ps, SHED_LAW);
         let d = match step {
             Some(frac) => Disturbance::LoadStep { section: 0, frac, islanded: true },
             None => Disturbance::OpenUtility,
         };
         let case = build_case(&plant, &d, 12.0);
-        let base = build_scheme(&plant, &stages, false);
         let extra = extra % plant.loads.len();
+        // The island's deficit at islanding: the lost import plus any later step.
+        let op = &plant.operating_points[0];
+        let total: f64 = op.load_mw.iter().sum();
+        let deficit_mw = op.import_mw + step.unwrap_or(0.0) * total;
+        let extra_mw = op.load_mw[extra];
+        prop_assume!(extra_mw <= deficit_mw);
+        let base = trim_to_budget(
+            &plant,
+            build_scheme(&plant, &stages, false),
+            deficit_mw - extra_mw,
+        );
         let mut more = base.clone();
         more.stages.push(Stage {
             id: "extra".into(),
@@ -589,10 +658,11 @@ proptest! {
         let cfg = SimConfig::default();
         let a = simulate(&plant, &case, 0, &base, &cfg);
         let b = simulate(&plant, &case, 0, &more, &cfg);
+        const TOL_HZ: f64 = 1e-4;
         let faulted = |r: &Run| matches!(r.stop, StopReason::NumericalFault { .. });
         prop_assume!(!faulted(&a) && !faulted(&b));
         prop_assert!(
-            b.nadir_hz >= a.nadir_hz - 0.02,
+            b.nadir_hz >= a.nadir_hz - TOL_HZ,
             "nadir {} Hz with load {extra} shed as well, {} Hz without",
             b.nadir_hz, a.nadir_hz
         );
@@ -617,7 +687,7 @@ proptest! {
 
 proptest! {
     // Each case here runs a verify matrix twice (a few runs each); fewer cases keep it short.
-    #![proptest_config(ProptestConfig { cases: 16, ..ProptestConfig::default() })]
+    #![proptest_config(ProptestConfig { cases: (cases() / 4).max(1), ..ProptestConfig::default() })]
 
     /// Law: `verify` farms rows out to rayon, and the matrix must not depend on the number of
     /// threads or on scheduling (rows collected in matrix order, no shared state).
@@ -795,8 +865,11 @@ proptest! {
     /// set points). The only case event is a 0 MW load step at 1 s (the cases validator
     /// accepts any finite `mw`). Two variants: connected to the utility, and a plant without a
     /// utility whose loads equal its dispatch, started islanded. Nothing may pick up, trip or
-    /// shed, and the frequency stays within 1e-9 Hz of nominal (rounding of Σ of dispatch
-    /// against Σ of loads only).
+    /// shed, and the frequency stays within 1e-6 Hz of nominal. Why not exact: Dopri5 is explicit,
+    /// and with a fast governor lag (reheat governor_s 0.012 s) and the quiet 0.5 s step cap the
+    /// step controller holds the rounding-level imbalance (1e-15 MW) at its error tolerance
+    /// instead of at zero — measured 7e-9 Hz, i.e. 1.4e-10 pu against atol 1e-9 pu. 1e-6 Hz is
+    /// 20× atol on f0 and far below anything a relay resolves.
     #[test]
     fn no_disturbance_nothing_happens(
         ps in plant_spec(),
@@ -836,12 +909,12 @@ proptest! {
         }
         prop_assert_eq!(run.shed_mw, 0.0);
         for v in [run.nadir_hz, run.peak_after_nadir_hz, run.final_hz] {
-            prop_assert!((v - f0).abs() < 1e-9, "frequency {v} Hz, nominal {f0}");
+            prop_assert!((v - f0).abs() < 1e-6, "frequency {v} Hz, nominal {f0}");
         }
         let trace = run.trace.as_ref().expect("trace was asked for");
         for s in &trace.section_hz {
             for v in s {
-                prop_assert!((v - f0).abs() < 1e-9, "trace {v} Hz, nominal {f0}");
+                prop_assert!((v - f0).abs() < 1e-6, "trace {v} Hz, nominal {f0}");
             }
         }
     }
