@@ -85,23 +85,7 @@ pub fn progress_bar(total: u64) -> indicatif::ProgressBar {
     bar
 }
 
-/// A margin in a cell: "1.37×", "≥2.00×", "fails", "—".
-pub fn margin_cell(m: &Margin, unit: &str) -> String {
-    match m {
-        Margin::NotApplicable => "—".into(),
-        Margin::FailsAsIs => "fails".into(),
-        Margin::AtLeast(v) => format!("≥{}{unit}", margin_number(*v, unit)),
-        Margin::Found(v) => format!("{}{unit}", margin_number(*v, unit)),
-    }
-}
-
-fn margin_number(v: f64, unit: &str) -> String {
-    if unit == "×" {
-        format!("{v:.2}")
-    } else {
-        format!("{v:.0}")
-    }
-}
+pub use nadir::report::html::margin_cell;
 
 /// The matrix as a table with a verdict line and the caution.
 pub fn render_table(m: &Matrix, plant: &str, scheme: &str) -> String {

@@ -545,7 +545,8 @@ SHA&#8209;256, and the results in this report.</p>\n<table class=\"signoff\">\n<
 }
 
 /// A margin in a cell, as `nadir verify` writes it: "1.37×", "≥2.00×", "fails", "—".
-fn margin_cell(m: &Margin, unit: &str) -> String {
+/// A margin in a table cell: "1.37×", "≥2.00×", "fails", "—" (shared with the command line).
+pub fn margin_cell(m: &Margin, unit: &str) -> String {
     let number = |v: f64| {
         if unit == "×" {
             format!("{v:.2}")
