@@ -124,22 +124,13 @@ fn case(r: &mut Reader, p: &FieldPath, c: &RawCase, plant: &Plant) -> Case {
                 "move the event earlier or lengthen duration_s".to_string(),
             );
         }
-        let given: Vec<&str> = [
+        let (n_given, has) = written(&[
             ("open", e.open.is_some()),
             ("trip", e.trip.is_some()),
             ("load_step", e.load_step.is_some()),
             ("voltage_dip", e.voltage_dip.is_some()),
-        ]
-        .iter()
-        .filter(|(_, s)| *s)
-        .map(|(n, _)| *n)
-        .collect();
-        if given.len() != 1 {
-            let has = if given.is_empty() {
-                "none".to_string()
-            } else {
-                given.join(" and ")
-            };
+        ]);
+        if n_given != 1 {
             r.error(
                 &ep,
                 format!(

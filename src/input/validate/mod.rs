@@ -43,6 +43,22 @@ enum Hi {
     AtMost(f64),
 }
 
+/// Of a set of alternatives exactly one of which must be written: how many are, and their names
+/// as a message says them ("none", "below_hz and above_hz").
+fn written(options: &[(&'static str, bool)]) -> (usize, String) {
+    let given: Vec<&str> = options
+        .iter()
+        .filter(|(_, set)| *set)
+        .map(|(name, _)| *name)
+        .collect();
+    let said = if given.is_empty() {
+        "none".to_string()
+    } else {
+        given.join(" and ")
+    };
+    (given.len(), said)
+}
+
 fn field_name(path: &FieldPath) -> String {
     match path.0.last() {
         Some(Seg::Key(k)) => k.clone(),

@@ -25,27 +25,18 @@ fn frequency_trip(
     t: &RawFrequencyTrip,
     nominal: Option<f64>,
 ) -> Option<FrequencyTrip> {
-    let given: Vec<&str> = [
+    let (n_given, has) = written(&[
         ("below_hz", t.below_hz.is_some()),
         ("above_hz", t.above_hz.is_some()),
         ("rocof_hz_per_s", t.rocof_hz_per_s.is_some()),
-    ]
-    .iter()
-    .filter(|(_, s)| *s)
-    .map(|(n, _)| *n)
-    .collect();
-    if given.len() != 1 {
-        let has = if given.is_empty() {
-            "none".to_string()
-        } else {
-            given.join(" and ")
-        };
+    ]);
+    if n_given != 1 {
         r.error(
             path,
             format!(
                 "a frequency trip takes exactly one of below_hz, above_hz, rocof_hz_per_s; this one has {has}"
             ),
-            if given.is_empty() {
+            if n_given == 0 {
                 "add the setting, e.g. `below_hz: 47.5`".to_string()
             } else {
                 "write one trip per setting, each with its own after_s".to_string()
