@@ -129,6 +129,7 @@ mod tests {
                 ties_open: vec![false, false],
             }],
             criteria: Criteria::defaults(50.0),
+            design: crate::model::DesignLimits::defaults(50.0, false),
         }
     }
 

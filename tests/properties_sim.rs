@@ -362,6 +362,7 @@ fn build_plant(s: &PlantSpec, r: Restrict) -> Plant {
         loads,
         operating_points: vec![op],
         criteria: Criteria::defaults(f0),
+        design: nadir::model::DesignLimits::defaults(f0, false),
     }
 }
 

@@ -117,6 +117,7 @@ fn one_bus(hz: f64, machines: &[Machine], load_mw: f64, k: f64, import_mw: Optio
             undervoltage: None,
         }],
         criteria: Criteria::defaults(hz),
+        design: nadir::model::DesignLimits::defaults(hz, false),
     }
 }
 

@@ -6,10 +6,12 @@
 
 pub mod base;
 mod case;
+mod design;
 mod plant;
 mod scheme;
 
 pub use case::{Action, Case, CaseEvent, CaseSet, Start};
+pub use design::DesignLimits;
 pub use plant::{
     Criteria, FrequencyTrip, Generator, Governor, Load, OffFrequencyLimit, OperatingPoint, Plant,
     PrimeMover, Section, Tie, UndervoltageTrip, Utility,

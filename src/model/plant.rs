@@ -16,6 +16,8 @@ pub struct Plant {
     /// At least one; a plant file without any gets one called `normal` with the file's own values.
     pub operating_points: Vec<OperatingPoint>,
     pub criteria: Criteria,
+    /// Limits for `nadir design`.
+    pub design: super::DesignLimits,
 }
 
 /// A bus section.

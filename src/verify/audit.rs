@@ -347,6 +347,7 @@ mod tests {
             loads,
             operating_points: vec![point("full", full), point("reduced", reduced)],
             criteria: Criteria::defaults(50.0),
+            design: crate::model::DesignLimits::defaults(50.0, false),
         }
     }
 

@@ -155,6 +155,7 @@ mod tests {
             loads: vec![load("a"), load("b"), load("c")],
             operating_points: vec![],
             criteria: Criteria::defaults(50.0),
+            design: crate::model::DesignLimits::defaults(50.0, false),
         }
     }
 

@@ -76,6 +76,7 @@ pub fn plant(
         loads,
         operating_points: vec![op],
         criteria: Criteria::defaults(nominal_hz),
+        design: nadir::model::DesignLimits::defaults(nominal_hz, false),
     }
 }
 

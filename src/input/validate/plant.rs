@@ -394,6 +394,7 @@ pub fn plant(r: &mut Reader, map: &Mapping) -> Option<Plant> {
     let (Some(header), Some(nominal_hz)) = (header, nominal) else {
         return None;
     };
+    let utility_present = utility.is_some();
     let plant = Plant {
         name: header.name,
         nominal_hz,
@@ -404,6 +405,7 @@ pub fn plant(r: &mut Reader, map: &Mapping) -> Option<Plant> {
         loads: loads.into_iter().collect::<Option<Vec<_>>>()?,
         operating_points,
         criteria,
+        design: crate::model::DesignLimits::defaults(nominal_hz, utility_present),
     };
     check_islands(r, &plant, explicit_ops);
     r.diagnostics.is_empty().then_some(plant)

@@ -1,0 +1,66 @@
+//! The limits a proposed shedding table must keep: how many frequency stages, the band and grid
+//! of pickups and delays, the load breakers' time, which breakers may arm a stage, and how the
+//! shed of each rank is weighted in the design objective.
+
+use super::scheme::BreakerRef;
+
+/// Design limits of a plant (the plant file's `design` block, or its defaults).
+#[derive(Debug, Clone, PartialEq)]
+pub struct DesignLimits {
+    /// Fewest and most under-frequency stages (armed stages not counted).
+    pub min_stages: usize,
+    pub max_stages: usize,
+    /// Pickups are chosen on the grid `highest_pickup_hz − j·pickup_step_hz` down to
+    /// `lowest_pickup_hz`.
+    pub highest_pickup_hz: f64,
+    pub lowest_pickup_hz: f64,
+    pub pickup_step_hz: f64,
+    /// Intentional delays are chosen on the grid `min_delay_s + j·delay_step_s` up to
+    /// `max_delay_s`.
+    pub min_delay_s: f64,
+    pub max_delay_s: f64,
+    pub delay_step_s: f64,
+    /// Trip command to load breaker open, the same for every stage the design proposes.
+    pub breaker_s: f64,
+    /// Breakers whose opening may arm a stage (empty: no armed stages).
+    pub armed_by: Vec<BreakerRef>,
+    /// When set, the design may supervise its first stage with this df/dt threshold (Hz/s).
+    pub rocof_supervision_hz_per_s: Option<f64>,
+    /// Objective weight per MW shed of a rank, as (rank, weight); a rank not listed weighs its
+    /// own number (rank 1 weighs 1, rank 7 weighs 7).
+    pub rank_weights: Vec<(u32, f64)>,
+}
+
+impl DesignLimits {
+    /// Defaults scaled from nominal frequency (docs/files.md gives each one's basis); the
+    /// utility breaker may arm a stage when the plant has one.
+    pub fn defaults(nominal_hz: f64, has_utility: bool) -> DesignLimits {
+        DesignLimits {
+            min_stages: 1,
+            max_stages: 6,
+            highest_pickup_hz: 0.98 * nominal_hz,
+            lowest_pickup_hz: 0.96 * nominal_hz,
+            pickup_step_hz: 0.002 * nominal_hz,
+            min_delay_s: 0.1,
+            max_delay_s: 0.5,
+            delay_step_s: 0.05,
+            breaker_s: 0.08,
+            armed_by: if has_utility {
+                vec![BreakerRef::Utility]
+            } else {
+                Vec::new()
+            },
+            rocof_supervision_hz_per_s: None,
+            rank_weights: Vec::new(),
+        }
+    }
+
+    /// Objective weight of one MW of a load of `rank`.
+    pub fn rank_weight(&self, rank: u32) -> f64 {
+        self.rank_weights
+            .iter()
+            .find(|(r, _)| *r == rank)
+            .map(|(_, w)| *w)
+            .unwrap_or(rank as f64)
+    }
+}
