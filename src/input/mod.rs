@@ -1,4 +1,5 @@
-//! Reading the three input files: YAML text → raw serde types → validated [`crate::model`] types.
+//! Reading the three input files: YAML text → raw serde types → validated [`crate::model`] types;
+//! and writing a scheme back as scheme-file text ([`scheme_yaml`]).
 //!
 //! Returns the model or **every** diagnostic found in a file, never only the first. Nothing outside
 //! this module knows that YAML exists.
@@ -9,6 +10,7 @@ mod locate;
 pub mod raw;
 mod read;
 mod validate;
+mod write_scheme;
 
 use crate::error::Error;
 use crate::model::{CaseSet, Plant, Scheme};
@@ -17,6 +19,7 @@ use read::Reader;
 use std::fmt;
 use std::io::Read;
 use std::path::Path;
+pub use write_scheme::scheme_yaml;
 
 /// Largest input file read by default, in bytes (4 MiB); see [`limits::FILE_BYTES`].
 pub const MAX_FILE_BYTES: u64 = limits::FILE_BYTES.default;
