@@ -411,6 +411,126 @@ fn plant_criteria_must_be_in_order() {
     );
 }
 
+#[test]
+fn plant_design_unknown_key_suggests_the_field() {
+    check(
+        "plant_design_unknown_key.yaml",
+        &[(7, "design.stage", "did you mean `stages`?")],
+    );
+    let d = diagnostics("plant_design_unknown_key.yaml");
+    assert!(d[0]
+        .message
+        .contains("unknown field `stage`, expected one of `stages`"));
+    assert_eq!(d[0].column, Some(3), "points at the key");
+}
+
+#[test]
+fn plant_design_highest_pickup_must_be_above_lowest() {
+    check(
+        "plant_design_pickup_order.yaml",
+        &[(
+            8,
+            "design.pickup_hz.highest",
+            "pickup_hz.highest 48 Hz is not above pickup_hz.lowest 48.5 Hz",
+        )],
+    );
+}
+
+/// 8 stages 0.1 Hz apart (the default coordination spacing) span 7 × 0.1 = 0.7 Hz; a band from
+/// 49.0 to 48.5 Hz holds 6 pickups on a 0.1 Hz grid (arithmetic).
+#[test]
+fn plant_design_stage_count_must_fit_the_pickup_band() {
+    check(
+        "plant_design_stages_for_band.yaml",
+        &[(
+            7,
+            "design.stages.max",
+            "8 stages at 0.1 Hz spacing need 0.7 Hz between highest and lowest; highest 49 Hz and lowest 48.5 Hz are 0.5 Hz apart, room for 6",
+        )],
+    );
+    let d = diagnostics("plant_design_stages_for_band.yaml");
+    assert!(d[0]
+        .help
+        .as_deref()
+        .unwrap()
+        .contains("lower stages.max to 6"));
+}
+
+#[test]
+fn plant_design_armed_by_must_name_a_breaker() {
+    check(
+        "plant_design_armed_by.yaml",
+        &[
+            (
+                10,
+                "design.armed_by[0]",
+                "the plant has no utility connection",
+            ),
+            (
+                10,
+                "design.armed_by[1]",
+                "unknown breaker `tie-nss`; known breakers: `tie-ns`, `g1`",
+            ),
+            (10, "design.armed_by[2]", "`pumps` is a load, not a breaker"),
+            (
+                10,
+                "design.armed_by[4]",
+                "breaker `g1` is listed twice in armed_by",
+            ),
+        ],
+    );
+    let d = diagnostics("plant_design_armed_by.yaml");
+    assert!(d[1]
+        .help
+        .as_deref()
+        .unwrap()
+        .contains("did you mean `tie-ns`?"));
+}
+
+#[test]
+fn plant_design_values_out_of_range() {
+    check(
+        "plant_design_values.yaml",
+        &[
+            (7, "design.stages.min", "stages.min is 0, expected 1 to 20"),
+            (
+                8,
+                "design.pickup_hz.highest",
+                "pickup_hz.highest 49.8 Hz is above criteria.coordination.normal_low_hz 49.5 Hz",
+            ),
+            (
+                9,
+                "design.delay_s.min",
+                "delay_s.min 0.5 s is above delay_s.max 0.2 s",
+            ),
+            (
+                10,
+                "design.breaker_s",
+                "breaker_s is NaN, expected a finite number",
+            ),
+            (
+                11,
+                "design.rocof_supervision_hz_per_s",
+                "rocof_supervision_hz_per_s must be greater than 0, got -1 Hz/s",
+            ),
+            (13, "design.rank_weights.0", "ranks start at 1"),
+            (14, "design.rank_weights.3", "the weight of rank 3 is -2"),
+        ],
+    );
+}
+
+#[test]
+fn plant_design_lowest_pickup_above_generator_trips() {
+    check(
+        "plant_design_generator_trip.yaml",
+        &[(
+            15,
+            "design.pickup_hz.lowest",
+            "pickup_hz.lowest 48 Hz is at or below generator `g1`'s own under-frequency trip (generators[0].trips[0]: below 48.2 Hz after 2 s)",
+        )],
+    );
+}
+
 // ---------------------------------------------------------------- cases files
 
 #[test]

@@ -102,6 +102,29 @@ impl Locator {
         self.find(path, true)
     }
 
+    /// Whether `path` itself is written in the file (no fallback to an ancestor).
+    pub fn exists(&self, path: &FieldPath) -> bool {
+        let Some(mut node) = self.root.as_ref() else {
+            return false;
+        };
+        for seg in &path.0 {
+            let next = match (seg, &node.kind) {
+                (Seg::Key(k), Kind::Map(entries)) => entries
+                    .iter()
+                    .rev()
+                    .find(|(name, _, _)| name == k)
+                    .map(|e| &e.2),
+                (Seg::Index(j), Kind::Seq(items)) => items.get(*j),
+                _ => None,
+            };
+            match next {
+                Some(n) => node = n,
+                None => return false,
+            }
+        }
+        true
+    }
+
     fn find(&self, path: &FieldPath, want_key: bool) -> Option<Place> {
         let mut node = self.root.as_ref()?;
         // The best answer so far: where the nearest existing ancestor is written.
@@ -317,6 +340,16 @@ generators:
         );
         // A missing top-level key falls back to the document start.
         assert_eq!(loc.value(&path(&["loads"])).map(|p| p.0), Some(1));
+    }
+
+    #[test]
+    fn exists_does_not_fall_back() {
+        let loc = Locator::new(TEXT);
+        assert!(loc.exists(&path(&["generators", "1", "governor", "droop_pct"])));
+        assert!(loc.exists(&path(&["generators", "0", "governor"])));
+        assert!(!loc.exists(&path(&["generators", "1", "governor", "turbine_s"])));
+        assert!(!loc.exists(&path(&["generators", "7"])));
+        assert!(!loc.exists(&path(&["loads"])));
     }
 
     #[test]

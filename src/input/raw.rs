@@ -35,6 +35,9 @@ pub struct PlantFile {
     /// Acceptance criteria; each omitted value takes its documented default.
     #[serde(default)]
     pub criteria: RawCriteria,
+    /// Limits within which `nadir design` may propose a shedding table; each omitted value takes its documented default.
+    #[serde(default)]
+    pub design: Option<RawDesign>,
 }
 
 /// Plant header.
@@ -351,6 +354,75 @@ pub struct RawSettle {
     pub low_hz: f64,
     /// ... and below this, Hz (default 1.01·f0).
     pub high_hz: f64,
+}
+
+/// Limits within which `nadir design` may propose a shedding table.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawDesign {
+    /// Fewest and most under-frequency stages, armed stages not counted (default 1 to 6).
+    #[serde(default)]
+    pub stages: Option<RawStageCount>,
+    /// Band and grid of the stages' pickups (default 0.98·f0 down to 0.96·f0 in steps of 0.002·f0).
+    #[serde(default)]
+    pub pickup_hz: Option<RawPickupGrid>,
+    /// Grid of the stages' intentional delays (default 0.1 s to 0.5 s in steps of 0.05 s).
+    #[serde(default)]
+    pub delay_s: Option<RawDelayGrid>,
+    /// Load breaker opening time of every proposed stage, s (default 0.08).
+    #[serde(default)]
+    pub breaker_s: Option<f64>,
+    /// Breakers whose opening may arm a stage: the utility breaker, a tie or a generator, by id; `[]` for none (default: the utility breaker when the plant has one).
+    #[serde(default)]
+    pub armed_by: Option<Vec<String>>,
+    /// df/dt threshold with which the design may supervise a stage, Hz/s (default: no df/dt-supervised stage).
+    #[serde(default)]
+    pub rocof_supervision_hz_per_s: Option<f64>,
+    /// Objective weight per MW shed of a rank, as `rank: weight` (default: a rank not listed weighs its own number).
+    #[serde(default)]
+    pub rank_weights: BTreeMap<u32, f64>,
+}
+
+/// How many under-frequency stages a proposal may have.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawStageCount {
+    /// Fewest stages, 1–20 (default 1).
+    #[serde(default)]
+    pub min: Option<u32>,
+    /// Most stages, 1–20 (default 6).
+    #[serde(default)]
+    pub max: Option<u32>,
+}
+
+/// Pickups are chosen from `highest` down to `lowest` in steps of `step`.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawPickupGrid {
+    /// Highest pickup, the first stage's, Hz (default 0.98·f0).
+    #[serde(default)]
+    pub highest: Option<f64>,
+    /// Lowest pickup, the last stage's, Hz (default 0.96·f0).
+    #[serde(default)]
+    pub lowest: Option<f64>,
+    /// Grid step, Hz (default 0.002·f0).
+    #[serde(default)]
+    pub step: Option<f64>,
+}
+
+/// Delays are chosen from `min` up to `max` in steps of `step`.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawDelayGrid {
+    /// Shortest intentional delay, s (default 0.1).
+    #[serde(default)]
+    pub min: Option<f64>,
+    /// Longest intentional delay, s (default 0.5).
+    #[serde(default)]
+    pub max: Option<f64>,
+    /// Grid step, s (default 0.05).
+    #[serde(default)]
+    pub step: Option<f64>,
 }
 
 // ---------------------------------------------------------------- cases file

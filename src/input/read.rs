@@ -158,6 +158,11 @@ impl Reader {
         self.locator.value(path).map(|p| p.0)
     }
 
+    /// Whether the field at `path` is written in the file (not only an ancestor of it).
+    pub fn is_written(&self, path: &FieldPath) -> bool {
+        self.locator.exists(path)
+    }
+
     /// Refuses top-level keys that the file format does not have.
     pub fn check_top_keys(&mut self, map: &Mapping, allowed: &[&str]) {
         for key in map.keys() {

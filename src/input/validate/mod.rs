@@ -2,14 +2,17 @@
 //! every default, collecting all diagnostics of a file before giving up.
 //!
 //! Owns the wording of validation messages. It must not read text or know YAML positions beyond
-//! asking the [`Reader`] to place a field path. A model value is built only when the file is
-//! structurally whole; checks that need the whole plant (islands, isochronous machines) run only
-//! then, so that one broken item never causes a cascade of follow-on messages.
+//! asking the [`Reader`] to place a field path or whether one is written. A model value is built
+//! only when the file is structurally whole; checks that need the whole plant (islands,
+//! isochronous machines) run only then, so that one broken item never causes a cascade of
+//! follow-on messages.
 //!
 //! This file holds the helpers every file format shares (number ranges, id registries, "did you
-//! mean" hints, island helpers); one submodule per file format holds its checks.
+//! mean" hints, island helpers); one submodule per file format holds its checks, and `design`
+//! those of the plant file's `design` block.
 
 mod cases;
+mod design;
 mod plant;
 mod scheme;
 
@@ -338,6 +341,18 @@ fn plant_ids(plant: &Plant) -> PlantIds<'_> {
             .map(|s| s.id.as_str())
             .collect(),
     }
+}
+
+/// Every breaker id of a plant (utility breaker, ties, generators), for "known breakers" hints.
+fn breaker_list(plant: &Plant) -> Vec<&str> {
+    let mut breakers: Vec<&str> = plant
+        .utility
+        .iter()
+        .map(|u| u.breaker_id.as_str())
+        .collect();
+    breakers.extend(plant.ties.iter().map(|t| t.id.as_str()));
+    breakers.extend(plant.generators.iter().map(|g| g.id.as_str()));
+    breakers
 }
 
 /// What a breaker id names in the plant.

@@ -1,5 +1,6 @@
 //! The plant file: sections, ties, utility, generators and their governors and trips, loads,
-//! operating points, criteria, and the islands at each operating point.
+//! operating points, criteria, the design block (its checks in [`super::design`]), and the islands
+//! at each operating point.
 //!
 //! Owns the plant's validation messages and defaults use. It must not know the cases or scheme
 //! formats; the helpers it shares with them live in [`super`].
@@ -111,6 +112,7 @@ const PLANT_KEYS: &[&str] = &[
     "loads",
     "operating_points",
     "criteria",
+    "design",
 ];
 
 /// Validates a plant file; `None` when any diagnostic was recorded.
@@ -127,6 +129,7 @@ pub fn plant(r: &mut Reader, map: &Mapping) -> Option<Plant> {
     let ops_raw: Option<Vec<Slot<RawOperatingPoint>>> =
         r.list(map, "operating_points", false, limits::OPERATING_POINTS);
     let criteria_raw: Option<RawCriteria> = r.optional(map, "criteria");
+    let design_raw: Option<RawDesign> = r.optional(map, "design");
     if r.over_limit {
         return None;
     }
@@ -385,8 +388,18 @@ pub fn plant(r: &mut Reader, map: &Mapping) -> Option<Plant> {
         ));
     }
 
-    // Criteria.
+    // Criteria, then the design limits, which are compared with them only when they hold.
+    let said = r.diagnostics.len() + r.suppressed;
     let criteria = criteria(r, criteria_raw.as_ref(), nominal);
+    let criteria_ok = nominal.is_some() && r.diagnostics.len() + r.suppressed == said;
+    let design = design::limits(
+        r,
+        design_raw.as_ref(),
+        nominal,
+        criteria_ok.then_some(&criteria),
+        &generators,
+        utility.is_some(),
+    );
 
     if !whole {
         return None;
@@ -394,8 +407,7 @@ pub fn plant(r: &mut Reader, map: &Mapping) -> Option<Plant> {
     let (Some(header), Some(nominal_hz)) = (header, nominal) else {
         return None;
     };
-    let utility_present = utility.is_some();
-    let plant = Plant {
+    let mut plant = Plant {
         name: header.name,
         nominal_hz,
         sections,
@@ -405,8 +417,11 @@ pub fn plant(r: &mut Reader, map: &Mapping) -> Option<Plant> {
         loads: loads.into_iter().collect::<Option<Vec<_>>>()?,
         operating_points,
         criteria,
-        design: crate::model::DesignLimits::defaults(nominal_hz, utility_present),
+        design,
     };
+    if let Some(armed_by) = design::armed_by(r, design_raw.as_ref(), &plant) {
+        plant.design.armed_by = armed_by;
+    }
     check_islands(r, &plant, explicit_ops);
     r.diagnostics.is_empty().then_some(plant)
 }

@@ -45,17 +45,9 @@ pub fn scheme(r: &mut Reader, map: &Mapping, plant: &Plant, default_name: &str) 
         );
     }
     let PlantIds {
-        loads: load_list,
-        ties,
-        ..
+        loads: load_list, ..
     } = plant_ids(plant);
-    let mut breakers: Vec<&str> = plant
-        .utility
-        .iter()
-        .map(|u| u.breaker_id.as_str())
-        .collect();
-    breakers.extend(ties.iter().copied());
-    breakers.extend(plant.generators.iter().map(|g| g.id.as_str()));
+    let breakers = breaker_list(plant);
     let f0 = plant.nominal_hz;
     let mut ids = Ids::new("stage");
     // Where each load is shed first: (stage id, path).
