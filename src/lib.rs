@@ -13,6 +13,7 @@
 //! Results from this library can inform protection settings; they must be reviewed by a qualified
 //! protection engineer, coordinated with the grid operator, and conform to local codes.
 
+pub mod design;
 pub mod dynamics;
 pub mod error;
 pub mod input;

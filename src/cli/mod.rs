@@ -11,6 +11,7 @@
 pub mod audit;
 pub mod check;
 pub mod compare;
+pub mod design;
 pub mod load;
 pub mod replay;
 pub mod report;
@@ -47,6 +48,9 @@ pub enum Command {
     /// Write one self-contained HTML report for sign-off: inputs with SHA-256, verdict, plant,
     /// shedding table, audit, verification matrix with margins and a plot per case.
     Report(report::ReportArgs),
+    /// Propose a shedding table that holds every case with the least load shed, and show it
+    /// against the lower bound and a plain baseline.
+    Design(design::DesignArgs),
     /// Write the JSON Schemas of the plant, cases and scheme files.
     Schema(schema::SchemaArgs),
 }
@@ -70,6 +74,7 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
         Command::Audit(args) => audit::run(args),
         Command::Compare(args) => compare::run(args),
         Command::Report(args) => report::run(args),
+        Command::Design(args) => design::run(args),
     }
 }
 

@@ -1,0 +1,293 @@
+//! `nadir design`: propose a shedding table, write it (atomically, never over an existing file
+//! without `--force`), then print the shed against the lower bound and the plain baseline, and
+//! the verification matrix of the proposal. Exit 1 when the proposal does not verify, or when no
+//! table can hold a case (with the shortfall in words).
+
+use super::check::{finish, fmt};
+use super::{load, Outcome};
+use anyhow::bail;
+use nadir::design::{self, DesignError, FromOutcome, Proposal, Source};
+use nadir::report::write::{write_atomic, Overwrite};
+use nadir::verify::audit::{audit, AuditRules};
+use nadir::verify::matrix::{self, VerifyConfig};
+use std::io::IsTerminal;
+use std::path::PathBuf;
+use tabled::builder::Builder;
+
+/// Propose stage pickups, delays and load blocks that hold every case with the least shed.
+#[derive(Debug, clap::Args)]
+pub struct DesignArgs {
+    /// Plant file (YAML); its `design` block sets the limits.
+    #[arg(value_name = "PLANT")]
+    pub plant: PathBuf,
+    /// Cases file (YAML); a case's `weight` scales its shed in the objective.
+    #[arg(long, value_name = "CASES")]
+    pub cases: PathBuf,
+    /// The scheme file to write.
+    #[arg(short = 'o', long = "output", value_name = "SCHEME")]
+    pub output: PathBuf,
+    /// Start from this table: keep its settings where they still hold and change as few
+    /// assignments as possible.
+    #[arg(long, value_name = "EXISTING_SCHEME")]
+    pub from: Option<PathBuf>,
+    /// Replace the output file if it exists.
+    #[arg(long)]
+    pub force: bool,
+}
+
+pub fn run(args: DesignArgs) -> anyhow::Result<Outcome> {
+    let overwrite = if args.force {
+        Overwrite::Allow
+    } else {
+        Overwrite::Refuse
+    };
+    if overwrite == Overwrite::Refuse && args.output.exists() {
+        bail!(
+            "{}: already exists; pass --force to replace it, or choose another -o",
+            args.output.display()
+        );
+    }
+    let plant = load::plant(&args.plant)?;
+    let cases = load::cases(&args.cases, &plant)?;
+    let existing = match &args.from {
+        Some(p) => Some(load::scheme(p, &plant)?),
+        None => None,
+    };
+
+    let spinner = spinner();
+    let progress = |what: &str| spinner.set_message(what.to_string());
+    let result = design::design(&plant, &cases, existing.as_ref(), &progress);
+    spinner.finish_and_clear();
+    let proposal = match result {
+        Ok(p) => p,
+        Err(DesignError::Unholdable(list)) => {
+            let mut text = String::from("No shedding table can hold every case:\n");
+            for s in &list {
+                text.push_str(&format!("  - {}\n", s.message()));
+            }
+            text.push_str("Nothing was written.\n");
+            super::write_stdout(&text)?;
+            return Ok(Outcome::Fail);
+        }
+        Err(DesignError::NoLayout(why)) => {
+            super::write_stdout(&format!(
+                "No table proposed: {why}.\nNothing was written.\n"
+            ))?;
+            return Ok(Outcome::Fail);
+        }
+    };
+
+    let yaml = scheme_text(&plant, &proposal, &args);
+    write_atomic(&args.output, yaml.as_bytes(), overwrite)?;
+
+    let bar = super::verify::progress_bar(matrix::pairs(&cases).len() as u64);
+    let m = matrix::verify(
+        &plant,
+        &cases,
+        &proposal.scheme,
+        &VerifyConfig::default(),
+        &|| bar.inc(1),
+    );
+    bar.finish_and_clear();
+    let violations = audit(&plant, &proposal.scheme, &AuditRules::for_plant(&plant)).violations;
+
+    let mut text = format!("Wrote {}.\n\n", args.output.display());
+    if let (Some(old), Some(outcome)) = (&existing, proposal.from) {
+        text.push_str(&from_summary(&plant, old, &proposal, outcome));
+    }
+    text.push_str(&stage_table(&plant, &proposal));
+    text.push('\n');
+    text.push_str(&shed_table(&proposal));
+    text.push('\n');
+    text.push_str(&super::verify::render_table(
+        &m,
+        &plant.name,
+        &proposal.scheme.name,
+    ));
+    if !violations.is_empty() {
+        text.push_str("\nAudit violations in the proposal:\n");
+        for v in &violations {
+            text.push_str(&format!("  - {}: {}\n", v.rule, v.message));
+        }
+    }
+    super::write_stdout(&text)?;
+    Ok(if m.all_pass() && violations.is_empty() {
+        Outcome::Pass
+    } else {
+        Outcome::Fail
+    })
+}
+
+fn spinner() -> indicatif::ProgressBar {
+    if !std::io::stderr().is_terminal() {
+        return indicatif::ProgressBar::hidden();
+    }
+    let bar = indicatif::ProgressBar::new_spinner();
+    if let Ok(style) =
+        indicatif::ProgressStyle::with_template("{spinner} designing: {msg} {elapsed}")
+    {
+        bar.set_style(style);
+    }
+    bar.enable_steady_tick(std::time::Duration::from_millis(120));
+    bar
+}
+
+/// The scheme file: provenance and caution, then the table.
+fn scheme_text(plant: &nadir::model::Plant, p: &Proposal, args: &DesignArgs) -> String {
+    let header = vec![
+        format!(
+            "Proposed by nadir design {} for {}.",
+            env!("CARGO_PKG_VERSION"),
+            plant.name
+        ),
+        format!(
+            "Inputs: {} and {}{}.",
+            args.plant.display(),
+            args.cases.display(),
+            args.from
+                .as_ref()
+                .map(|f| format!(", starting from {}", f.display()))
+                .unwrap_or_default()
+        ),
+        "A proposal only: it must be reviewed by a qualified protection engineer, coordinated"
+            .into(),
+        "with the grid operator, and conform to local codes and licensed practice.".into(),
+    ];
+    nadir::input::scheme_yaml(plant, &p.scheme, &header)
+}
+
+fn stage_table(plant: &nadir::model::Plant, p: &Proposal) -> String {
+    let mut b = Builder::default();
+    let mut head = vec![
+        "stage".to_string(),
+        "trigger".into(),
+        "delay s".into(),
+        "breaker s".into(),
+        "loads (rank)".into(),
+    ];
+    for op in &plant.operating_points {
+        head.push(format!("MW at {}", op.id));
+    }
+    b.push_record(head);
+    for s in &p.scheme.stages {
+        let mut row = vec![
+            s.id.clone(),
+            nadir::verify::audit::describe_trigger(plant, &s.trigger),
+            fmt(s.delay_s, 2),
+            fmt(s.breaker_s, 2),
+            s.sheds
+                .iter()
+                .map(|&l| format!("{} ({})", plant.loads[l].id, plant.loads[l].rank))
+                .collect::<Vec<_>>()
+                .join(", "),
+        ];
+        for op in &plant.operating_points {
+            row.push(fmt(s.sheds.iter().map(|&l| op.load_mw[l]).sum(), 2));
+        }
+        b.push_record(row);
+    }
+    let source = match p.source {
+        Source::Search => format!(
+            "found by the settings search ({} layouts sized, {} replays)",
+            p.layouts_sized, p.replays
+        ),
+        Source::Baseline => {
+            "the plain baseline table: the search found nothing that sheds less".into()
+        }
+        Source::Existing => "the existing table's settings".into(),
+    };
+    format!(
+        "Proposed table, {source}:\n{}\n",
+        finish(b, 2..4 + 1 + plant.operating_points.len())
+    )
+}
+
+fn shed_table(p: &Proposal) -> String {
+    let mut b = Builder::default();
+    b.push_record([
+        "case",
+        "point",
+        "weight",
+        "shed MW",
+        "bound MW",
+        "shed / bound",
+        "baseline MW",
+    ]);
+    let ratio = |shed: f64, bound: f64| {
+        if bound > 1e-6 {
+            fmt(shed / bound, 2)
+        } else if shed > 1e-6 {
+            "bound 0".into()
+        } else {
+            "-".into()
+        }
+    };
+    let (mut shed, mut bound, mut base) = (0.0, 0.0, 0.0);
+    for r in &p.rows {
+        shed += r.weight * r.shed_mw;
+        bound += r.weight * r.bound_mw;
+        base += r.weight * r.baseline_mw.unwrap_or(0.0);
+        b.push_record([
+            r.case.clone(),
+            r.operating_point.clone(),
+            fmt(r.weight, 2),
+            fmt(r.shed_mw, 2),
+            fmt(r.bound_mw, 2),
+            ratio(r.shed_mw, r.bound_mw),
+            r.baseline_mw
+                .map(|v| fmt(v, 2))
+                .unwrap_or_else(|| "-".into()),
+        ]);
+    }
+    let baseline_line = match &p.baseline {
+        Some(bl) => format!(
+            "Plain baseline ({} equal steps, rank order): {:.2} MW weighted by case, objective {:.2}; the proposal's objective is {:.2} ({:+.1} %).",
+            bl.stages,
+            base,
+            bl.objective,
+            p.objective,
+            100.0 * (p.objective - bl.objective) / bl.objective.max(1e-9)
+        ),
+        None => "Plain baseline: no equal-step table within the limits holds every case.".into(),
+    };
+    format!(
+        "Shed per case (MW at nominal frequency) against the lower bound (an ideal instant shed at each event):\n{}\n\
+Total weighted by case: {:.2} MW shed against a bound of {:.2} MW ({}).\n{baseline_line}\n\
+Objective = Σ case weight × rank weight × MW shed.\n",
+        finish(b, 2..7),
+        shed,
+        bound,
+        if bound > 1e-6 {
+            format!("{:.1} % above the bound", 100.0 * (shed / bound - 1.0))
+        } else {
+            "bound 0".into()
+        }
+    )
+}
+
+fn from_summary(
+    plant: &nadir::model::Plant,
+    old: &nadir::model::Scheme,
+    p: &Proposal,
+    outcome: FromOutcome,
+) -> String {
+    let changes = nadir::verify::diff::diff(plant, old, &p.scheme);
+    let head = match outcome {
+        FromOutcome::Unchanged => {
+            "The existing table still holds every case; it is kept unchanged."
+        }
+        FromOutcome::Reassigned => "The existing settings are kept; loads were moved where needed:",
+        FromOutcome::Redesigned => {
+            "The existing settings could not hold every case; the table was designed afresh:"
+        }
+    };
+    let mut out = format!("{head}\n");
+    for c in &changes {
+        out.push_str(&format!(
+            "  - {}: {} {} → {}\n",
+            c.stage, c.what, c.old, c.new
+        ));
+    }
+    out.push('\n');
+    out
+}

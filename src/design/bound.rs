@@ -1,0 +1,246 @@
+//! The lower bound on shedding: for one case at one operating point, the least MW that any
+//! table must shed, found by replaying the case with an ideal shed — constant-power relief taken
+//! evenly from every sheddable load of the sections whose frequency falls, at the very instant of
+//! each event — and bisecting on its size, event by event. A table sheds later (pickup, delay,
+//! breaker) and in whole loads, so it needs at least this much.
+//!
+//! When even shedding every sheddable load at once does not hold a case, the shortfall is
+//! measured the same way: how much more relief, beyond every sheddable load, it would need.
+
+use super::evaluate::{verdict_of, Verdict};
+use crate::model::{Action, Case, CaseEvent, Measurement, Plant, Scheme};
+use crate::sim::{self, SimConfig};
+use crate::verify::criteria::judge;
+use crate::verify::matrix::observe;
+use serde::Serialize;
+
+/// Bisection resolution, MW.
+const RESOLUTION_MW: f64 = 0.005;
+
+/// Scan points over the sheddable MW before bisecting.
+const SCAN: usize = 40;
+
+/// The bound of one row.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Bound {
+    /// Least ideal shed, MW at nominal frequency.
+    pub mw: f64,
+}
+
+/// A row that no table can hold.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Shortfall {
+    pub case: String,
+    pub operating_point: String,
+    /// Sheddable MW in the falling sections at this point.
+    pub sheddable_mw: f64,
+    /// Further relief needed beyond shedding all of it, when some amount would do.
+    pub short_mw: Option<f64>,
+    /// What still fails with every sheddable load shed at once, in words.
+    pub failure: String,
+}
+
+impl Shortfall {
+    /// The message a user reads.
+    pub fn message(&self) -> String {
+        let base = format!(
+            "case {} at {}: shedding all {:.2} MW of sheddable load at the instant of the disturbance still fails ({})",
+            self.case, self.operating_point, self.sheddable_mw, self.failure
+        );
+        match self.short_mw {
+            Some(mw) => format!(
+                "{base}; it falls short by {mw:.2} MW: about that much more load must become sheddable, or generation or spinning reserve added, for any table to hold it"
+            ),
+            None => format!("{base}; no amount of load shedding holds it"),
+        }
+    }
+}
+
+/// Bound of `case` at operating point `op`.
+pub fn bound(plant: &Plant, case: &Case, op: usize, cfg: &SimConfig) -> Result<Bound, Shortfall> {
+    let empty = Scheme {
+        name: String::new(),
+        measurement: Measurement::default(),
+        stages: Vec::new(),
+    };
+    let run = |c: &Case| sim::simulate(plant, c, op, &empty, cfg);
+    let holds = |c: &Case| verdict_of(plant, c, op, &run(c)) == Verdict::Holds;
+    if holds(case) {
+        return Ok(Bound { mw: 0.0 });
+    }
+    let falling = falling_sections(plant, case, op, &run(case));
+    let point = &plant.operating_points[op];
+    let sheddable: Vec<(usize, f64)> = falling
+        .iter()
+        .map(|&s| {
+            let mw = plant
+                .loads
+                .iter()
+                .enumerate()
+                .filter(|(_, l)| l.section == s && !l.never_shed)
+                .map(|(i, _)| point.load_mw[i])
+                .sum::<f64>();
+            (s, mw)
+        })
+        .collect();
+    let total: f64 = sheddable.iter().map(|(_, mw)| mw).sum();
+    let mut times: Vec<f64> = case.events.iter().map(|e| e.at_s).collect();
+    times.dedup();
+    if times.is_empty() {
+        times.push(super::disturbance_start(case));
+    }
+    // Relief (as fractions of the sheddable MW) placed at each event time so far.
+    let mut placed: Vec<(f64, f64)> = Vec::new();
+    let mut used = 0.0;
+    for (e, &t) in times.iter().enumerate() {
+        let upto = times.get(e + 1).copied();
+        let trial = |fraction: f64| {
+            let mut c = truncated(case, upto);
+            for &(at, f) in placed.iter().chain(std::iter::once(&(t, fraction))) {
+                relieve(&mut c, at, &sheddable, f, 0.0);
+            }
+            c
+        };
+        if holds(&trial(0.0)) {
+            continue;
+        }
+        let room = 1.0 - used;
+        // Too little relief fails low, too much overshoots: scan for the first amount that holds,
+        // then bisect between it and the scan point before.
+        let first = (total > 0.0)
+            .then(|| (1..=SCAN).find(|&j| holds(&trial(room * j as f64 / SCAN as f64))))
+            .flatten();
+        let Some(j) = first else {
+            return Err(shortfall(
+                plant, case, op, cfg, &sheddable, total, &placed, t, room, &empty, upto,
+            ));
+        };
+        let (mut bad, mut good) = (
+            room * (j - 1) as f64 / SCAN as f64,
+            room * j as f64 / SCAN as f64,
+        );
+        while (good - bad) * total > RESOLUTION_MW {
+            let mid = 0.5 * (bad + good);
+            if holds(&trial(mid)) {
+                good = mid;
+            } else {
+                bad = mid;
+            }
+        }
+        placed.push((t, good));
+        used += good;
+    }
+    Ok(Bound { mw: used * total })
+}
+
+/// Sections whose frequency falls below the normal band in the unshed run (every section, if
+/// none does: the run failed some other way).
+fn falling_sections(plant: &Plant, case: &Case, op: usize, run: &sim::Run) -> Vec<usize> {
+    let _ = (case, op);
+    let low = plant.criteria.normal_low_hz;
+    let mut out: Vec<usize> = match &run.trace {
+        Some(trace) => (0..plant.sections.len())
+            .filter(|&s| trace.section_hz[s].iter().any(|&f| f < low))
+            .collect(),
+        None => Vec::new(),
+    };
+    if out.is_empty() {
+        out = (0..plant.sections.len()).collect();
+    }
+    out
+}
+
+/// The case with only the events before `upto` (all of them when `None`).
+fn truncated(case: &Case, upto: Option<f64>) -> Case {
+    let mut c = case.clone();
+    if let Some(t) = upto {
+        c.events.retain(|e| e.at_s < t);
+    }
+    c
+}
+
+/// Add ideal relief at `at_s`: `fraction` of each section's sheddable MW plus `extra_mw` spread
+/// over the sections in proportion to it (evenly when nothing is sheddable).
+fn relieve(case: &mut Case, at_s: f64, sheddable: &[(usize, f64)], fraction: f64, extra_mw: f64) {
+    let total: f64 = sheddable.iter().map(|(_, mw)| mw).sum();
+    for &(section, mw) in sheddable {
+        let share = if total > 0.0 {
+            mw / total
+        } else {
+            1.0 / sheddable.len() as f64
+        };
+        let relief = fraction * mw + extra_mw * share;
+        if relief > 0.0 {
+            case.events.push(CaseEvent {
+                at_s,
+                action: Action::LoadStep {
+                    section,
+                    mw: -relief,
+                },
+            });
+        }
+    }
+    // Stable: relief at the same instant comes after the event it answers.
+    case.events.sort_by(|a, b| {
+        a.at_s
+            .partial_cmp(&b.at_s)
+            .unwrap_or(std::cmp::Ordering::Equal)
+    });
+}
+
+#[allow(clippy::too_many_arguments)]
+fn shortfall(
+    plant: &Plant,
+    case: &Case,
+    op: usize,
+    cfg: &SimConfig,
+    sheddable: &[(usize, f64)],
+    total: f64,
+    placed: &[(f64, f64)],
+    t: f64,
+    room: f64,
+    empty: &Scheme,
+    upto: Option<f64>,
+) -> Shortfall {
+    let with_extra = |extra: f64| {
+        let mut c = truncated(case, upto);
+        for &(at, f) in placed {
+            relieve(&mut c, at, sheddable, f, 0.0);
+        }
+        relieve(&mut c, t, sheddable, room, extra);
+        c
+    };
+    let judge_case = |c: &Case| {
+        let run = sim::simulate(plant, c, op, empty, cfg);
+        (verdict_of(plant, c, op, &run), run)
+    };
+    let all_shed = with_extra(0.0);
+    let (_, run) = judge_case(&all_shed);
+    let failures = judge(&observe(&run, &all_shed, &plant.criteria), &plant.criteria);
+    let failure = failures
+        .first()
+        .map(|f| f.message.clone())
+        .unwrap_or_else(|| "a generator stays too long in an abnormal frequency band".into());
+    let load: f64 = plant.operating_points[op].load_mw.iter().sum();
+    let short_mw = if judge_case(&with_extra(load)).0 == Verdict::Holds {
+        let (mut bad, mut good) = (0.0, load);
+        while good - bad > RESOLUTION_MW {
+            let mid = 0.5 * (bad + good);
+            if judge_case(&with_extra(mid)).0 == Verdict::Holds {
+                good = mid;
+            } else {
+                bad = mid;
+            }
+        }
+        Some(good)
+    } else {
+        None
+    };
+    Shortfall {
+        case: case.id.clone(),
+        operating_point: plant.operating_points[op].id.clone(),
+        sheddable_mw: total,
+        short_mw,
+        failure,
+    }
+}

@@ -1,0 +1,187 @@
+//! Judging a candidate table on one case at one operating point: did it hold, was it short of
+//! shedding or did it shed too much, which stages operated, and what it shed.
+//!
+//! The pass test is the verification's own (criteria, off-nominal band times) plus the plant's
+//! required margins, each checked by one run at the required value rather than by the margin
+//! search, so that the design loop stays cheap; the final table is still verified in full.
+
+use crate::model::{Case, Plant, Scheme};
+use crate::sim::{self, EventKind, Run, SimConfig};
+use crate::verify::criteria::judge;
+use crate::verify::margins::{grow_disturbance, weaken_model};
+use crate::verify::matrix::{observe, sim_config_for};
+use crate::verify::offnominal::band_times;
+
+/// What went wrong in a row, seen from the shedding table.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Verdict {
+    Holds,
+    /// Frequency fell too far or too long, or the run ended early: shed more, sooner.
+    Short,
+    /// Frequency rose too high after shedding: shed less.
+    TooMuch,
+}
+
+/// One row judged.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RowEval {
+    pub verdict: Verdict,
+    /// Stages (indices into the scheme) that gave a trip command, in scheme order.
+    pub operated: Vec<usize>,
+    /// Loads opened by stages, by index.
+    pub shed_loads: Vec<usize>,
+}
+
+/// The simulator settings the design uses for every run.
+pub fn design_sim_config(plant: &Plant) -> SimConfig {
+    SimConfig {
+        ..sim_config_for(plant, &SimConfig::default())
+    }
+}
+
+/// Judge `scheme` on `case` at operating point `op`.
+pub fn evaluate(
+    plant: &Plant,
+    case: &Case,
+    op: usize,
+    scheme: &Scheme,
+    cfg: &SimConfig,
+) -> RowEval {
+    let run = sim::simulate(plant, case, op, scheme, cfg);
+    let mut verdict = verdict_of(plant, case, op, &run);
+    let c = &plant.criteria;
+    if verdict == Verdict::Holds && c.required_disturbance_factor > 1.0 {
+        let grown = grow_disturbance(plant, case, op, c.required_disturbance_factor);
+        let r = sim::simulate(plant, &grown, op, scheme, cfg);
+        verdict = verdict_of(plant, &grown, op, &r);
+    }
+    if verdict == Verdict::Holds && c.required_model_error_pct > 0.0 {
+        let weak = weaken_model(plant, c.required_model_error_pct);
+        let r = sim::simulate(&weak, case, op, scheme, cfg);
+        verdict = verdict_of(&weak, case, op, &r);
+    }
+    let (operated, shed_loads) = stages_and_loads(plant, scheme, &run);
+    RowEval {
+        verdict,
+        operated,
+        shed_loads,
+    }
+}
+
+/// Whether a run holds, and if not, which way the table is wrong.
+pub fn verdict_of(plant: &Plant, case: &Case, op: usize, run: &Run) -> Verdict {
+    let c = &plant.criteria;
+    let seen = observe(run, case, c);
+    let failures = judge(&seen, c);
+    let off_band = band_times(plant, op, run).iter().any(|b| b.exceeded());
+    if failures.is_empty() && !off_band {
+        return Verdict::Holds;
+    }
+    // A machine tripped by its own protection while frequency was rising was tripped by the
+    // shedding (over-frequency, or df/dt on the way up): the table shed too much at once.
+    if let Some(rising) = first_cascade_on_rise(plant, run) {
+        return if rising {
+            Verdict::TooMuch
+        } else {
+            Verdict::Short
+        };
+    }
+    let rocof_rising = steepest_window_rises(run, c.rocof_window_s);
+    let too_high = failures.iter().any(|f| match f.criterion {
+        "max_hz" => true,
+        "rocof" => rocof_rising,
+        "settle" => seen
+            .settle_range_hz
+            .is_some_and(|(_, hi)| hi > c.settle_high_hz),
+        _ => false,
+    });
+    let too_low = seen.abnormal_end.is_some()
+        || seen.nadir_hz < c.min_hz
+        || failures.iter().any(|f| match f.criterion {
+            "recover" | "run" => true,
+            "rocof" => !rocof_rising,
+            _ => false,
+        })
+        || seen
+            .settle_range_hz
+            .is_some_and(|(lo, _)| lo < c.settle_low_hz);
+    if too_high && !too_low {
+        Verdict::TooMuch
+    } else {
+        Verdict::Short
+    }
+}
+
+/// For the first generator tripped by its own protection: whether its section's frequency was
+/// rising over the 0.1 s before; `None` without such a trip.
+fn first_cascade_on_rise(plant: &Plant, run: &Run) -> Option<bool> {
+    let (at_s, generator) = run.events.iter().find_map(|e| match &e.what {
+        EventKind::GeneratorTripped {
+            generator,
+            cascade: true,
+            ..
+        } => Some((e.at_s, generator)),
+        _ => None,
+    })?;
+    let section = plant.generators[plant.generator_index(generator)?].section;
+    let trace = run.trace.as_ref()?;
+    let f = &trace.section_hz[section];
+    let at = |t: f64| {
+        let k = trace.t_s.partition_point(|&x| x <= t);
+        f[k.saturating_sub(1).min(f.len().saturating_sub(1))]
+    };
+    Some(at(at_s) > at(at_s - 0.1))
+}
+
+/// Whether the steepest frequency change over `window_s` (on the sampled trace, any section) is
+/// a rise: a ROCOF failure on a rise comes from shedding too much at once.
+fn steepest_window_rises(run: &Run, window_s: f64) -> bool {
+    let Some(trace) = &run.trace else {
+        return false;
+    };
+    let mut best = (0.0_f64, false);
+    for section in &trace.section_hz {
+        let mut back = 0;
+        for (k, &t) in trace.t_s.iter().enumerate() {
+            while back < k && trace.t_s[back] < t - window_s - 1e-9 {
+                back += 1;
+            }
+            if back == k || t - trace.t_s[back] < 0.5 * window_s {
+                continue;
+            }
+            let change = section[k] - section[back];
+            if change.abs() > best.0 {
+                best = (change.abs(), change > 0.0);
+            }
+        }
+    }
+    best.1
+}
+
+fn stages_and_loads(plant: &Plant, scheme: &Scheme, run: &Run) -> (Vec<usize>, Vec<usize>) {
+    let mut operated = Vec::new();
+    let mut loads = Vec::new();
+    for e in &run.events {
+        match &e.what {
+            EventKind::StageTripCommand { stage } => {
+                if let Some(k) = scheme.stage_index(stage) {
+                    if !operated.contains(&k) {
+                        operated.push(k);
+                    }
+                }
+            }
+            EventKind::LoadsOpened { loads: ids, .. } => {
+                for id in ids {
+                    if let Some(i) = plant.load_index(id) {
+                        loads.push(i);
+                    }
+                }
+            }
+            _ => {}
+        }
+    }
+    operated.sort_unstable();
+    loads.sort_unstable();
+    loads.dedup();
+    (operated, loads)
+}

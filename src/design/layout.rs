@@ -1,0 +1,195 @@
+//! Stage settings without loads (a layout): which stages exist, in operating order, with their
+//! triggers and delays; the grid they are chosen on; and the table a layout and an assignment of
+//! loads make together.
+
+use crate::model::{BreakerRef, DesignLimits, Measurement, Plant, Scheme, Stage, StageTrigger};
+
+/// The settings of one stage.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Setting {
+    pub trigger: StageTrigger,
+    pub delay_s: f64,
+    pub breaker_s: f64,
+}
+
+/// Stages in operating order: armed stages first, then frequency stages by falling pickup.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Layout {
+    pub stages: Vec<Setting>,
+    /// Stage ids to keep (from an existing table); generated when empty.
+    pub ids: Vec<String>,
+}
+
+impl Layout {
+    /// Number of under-frequency stages.
+    pub fn frequency_stages(&self) -> usize {
+        self.stages
+            .iter()
+            .filter(|s| matches!(s.trigger, StageTrigger::Frequency { .. }))
+            .count()
+    }
+}
+
+/// The pickup grid, highest first.
+pub fn pickup_grid(limits: &DesignLimits) -> Vec<f64> {
+    grid(
+        limits.highest_pickup_hz,
+        limits.lowest_pickup_hz,
+        -limits.pickup_step_hz,
+    )
+}
+
+/// The delay grid, shortest first.
+pub fn delay_grid(limits: &DesignLimits) -> Vec<f64> {
+    grid(limits.min_delay_s, limits.max_delay_s, limits.delay_step_s)
+}
+
+/// Points from `from` towards `to` in steps of `step`, rounded to 1e-6 so that grid values print
+/// as the user wrote them.
+fn grid(from: f64, to: f64, step: f64) -> Vec<f64> {
+    let n = ((to - from) / step + 1e-9).floor().max(0.0) as usize;
+    (0..=n)
+        .map(|j| ((from + j as f64 * step) * 1e6).round() / 1e6)
+        .collect()
+}
+
+/// Number of grid steps two adjacent frequency stages must be apart: the coordination spacing,
+/// rounded up to the grid.
+pub fn spacing_steps(plant: &Plant) -> usize {
+    let l = &plant.design;
+    ((plant.criteria.min_spacing_hz / l.pickup_step_hz) - 1e-9)
+        .ceil()
+        .max(1.0) as usize
+}
+
+/// A layout with `armed` stages first, then frequency stages at the given pickups, delays and
+/// df/dt thresholds; every stage with the design's breaker time.
+pub fn build(
+    limits: &DesignLimits,
+    armed: &[(BreakerRef, f64)],
+    frequency: &[(f64, f64, Option<f64>)],
+) -> Layout {
+    let breaker_s = limits.breaker_s;
+    let mut stages: Vec<Setting> = armed
+        .iter()
+        .map(|&(b, delay_s)| Setting {
+            trigger: StageTrigger::Breaker(b),
+            delay_s,
+            breaker_s,
+        })
+        .collect();
+    stages.extend(
+        frequency
+            .iter()
+            .map(|&(pickup_hz, delay_s, rocof)| Setting {
+                trigger: StageTrigger::Frequency {
+                    pickup_hz,
+                    min_rocof_hz_per_s: rocof,
+                },
+                delay_s,
+                breaker_s,
+            }),
+    );
+    Layout {
+        stages,
+        ids: Vec::new(),
+    }
+}
+
+/// The layout of an existing table, in operating order, keeping its ids and breaker times; with
+/// the table's stage index for each layout position.
+pub fn of_scheme(scheme: &Scheme) -> (Layout, Vec<usize>) {
+    let order = crate::verify::audit::operating_order(scheme);
+    let stages = order
+        .iter()
+        .map(|&k| {
+            let s = &scheme.stages[k];
+            Setting {
+                trigger: s.trigger,
+                delay_s: s.delay_s,
+                breaker_s: s.breaker_s,
+            }
+        })
+        .collect();
+    let ids = order.iter().map(|&k| scheme.stages[k].id.clone()).collect();
+    (Layout { stages, ids }, order)
+}
+
+/// The table of a layout with each candidate load's stage position; loads are listed in
+/// priority order within a stage so that each stage measures at its lowest-ranked load's section.
+pub fn scheme(
+    plant: &Plant,
+    name: &str,
+    measurement: Measurement,
+    layout: &Layout,
+    loads: &[(usize, u32)],
+    assignment: &[Option<usize>],
+) -> Scheme {
+    let mut armed = 0;
+    let mut uf = 0;
+    let stages = layout
+        .stages
+        .iter()
+        .enumerate()
+        .map(|(k, st)| {
+            let generated = match st.trigger {
+                StageTrigger::Breaker(b) => {
+                    armed += 1;
+                    let what = match b {
+                        BreakerRef::Utility => "utility".to_string(),
+                        BreakerRef::Tie(t) => plant.ties[t].id.clone(),
+                        BreakerRef::Generator(g) => plant.generators[g].id.clone(),
+                    };
+                    if armed == 1 {
+                        format!("armed-{what}")
+                    } else {
+                        format!("armed-{what}-{armed}")
+                    }
+                }
+                StageTrigger::Frequency { .. } => {
+                    uf += 1;
+                    format!("uf-{uf}")
+                }
+            };
+            Stage {
+                id: layout.ids.get(k).cloned().unwrap_or(generated),
+                trigger: st.trigger,
+                delay_s: st.delay_s,
+                breaker_s: st.breaker_s,
+                sheds: loads
+                    .iter()
+                    .zip(assignment)
+                    .filter(|(_, a)| **a == Some(k))
+                    .map(|((i, _), _)| *i)
+                    .collect(),
+            }
+        })
+        .collect();
+    Scheme {
+        name: name.to_string(),
+        measurement,
+        stages,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn grids_include_both_ends_and_round_cleanly() {
+        let mut l = DesignLimits::defaults(50.0, false);
+        l.highest_pickup_hz = 49.0;
+        l.lowest_pickup_hz = 48.0;
+        l.pickup_step_hz = 0.1;
+        let p = pickup_grid(&l);
+        assert_eq!(p.len(), 11);
+        assert_eq!(p[0], 49.0);
+        assert_eq!(p[3], 48.7);
+        assert_eq!(p[10], 48.0);
+        l.min_delay_s = 0.1;
+        l.max_delay_s = 0.4;
+        l.delay_step_s = 0.05;
+        assert_eq!(delay_grid(&l), vec![0.1, 0.15, 0.2, 0.25, 0.3, 0.35, 0.4]);
+    }
+}

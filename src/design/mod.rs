@@ -1,0 +1,563 @@
+//! Design: propose a shedding table — stage pickups and delays, an armed or df/dt-supervised
+//! stage where it helps, and the loads of each stage — that holds every case at every operating
+//! point it applies to, with the least load shed, weighted by rank and by case.
+//!
+//! The method (docs/design.md): a search over stage settings on the plant's grid ([`layout`]);
+//! for each layout, a loop between the simulator and a mixed-integer assignment model that
+//! sizes the stages ([`sizing`], [`assign`]); a lower bound from an ideal instant shed
+//! ([`bound`]); and a plain equal-step table as the honest baseline ([`baseline`]).
+//!
+//! Every step is deterministic: rows are replayed in parallel but collected in matrix order, and
+//! layouts are tried in a fixed order, so the proposal does not depend on the thread count.
+
+pub mod assign;
+pub mod baseline;
+pub mod bound;
+pub mod evaluate;
+pub mod layout;
+pub mod sizing;
+
+use crate::model::{Action, BreakerRef, Case, CaseSet, Plant, Scheme, StageTrigger};
+use bound::{Bound, Shortfall};
+use evaluate::{design_sim_config, Verdict};
+use layout::Layout;
+use rayon::prelude::*;
+use serde::Serialize;
+use sizing::{Context, Sized};
+
+/// Layout counts up to which every layout on the grid is sized (an exhaustive search over
+/// settings); above it the search is the heuristic of docs/design.md.
+pub const EXHAUSTIVE_LAYOUTS: usize = 64;
+
+/// Local-search passes over the best layout's settings.
+const LOCAL_PASSES: usize = 3;
+
+/// The design's result.
+#[derive(Debug, Clone, Serialize)]
+pub struct Proposal {
+    #[serde(skip)]
+    pub scheme: Scheme,
+    /// Objective: MW at nominal frequency, weighted by rank and case weight, over all rows.
+    pub objective: f64,
+    pub rows: Vec<RowShed>,
+    /// The plain table's objective and total shed, when one holds every row.
+    pub baseline: Option<BaselineSummary>,
+    /// How the proposal relates to the `--from` table.
+    pub from: Option<FromOutcome>,
+    /// Where the proposal came from.
+    pub source: Source,
+    pub layouts_sized: usize,
+    pub replays: usize,
+}
+
+/// One matrix row: what the proposal sheds, the lower bound, and what the baseline sheds.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct RowShed {
+    pub case: String,
+    pub operating_point: String,
+    pub weight: f64,
+    /// MW opened, at nominal frequency.
+    pub shed_mw: f64,
+    pub bound_mw: f64,
+    pub baseline_mw: Option<f64>,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct BaselineSummary {
+    pub objective: f64,
+    pub stages: usize,
+    #[serde(skip)]
+    pub scheme: Scheme,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+pub enum Source {
+    /// The settings search found it.
+    Search,
+    /// The plain table was better than anything the search found, and is proposed as it is.
+    Baseline,
+    /// The existing table, kept or with loads reassigned.
+    Existing,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+pub enum FromOutcome {
+    /// The existing table holds every row and is kept unchanged.
+    Unchanged,
+    /// Settings kept; some loads moved between stages.
+    Reassigned,
+    /// The existing settings could not be kept.
+    Redesigned,
+}
+
+/// Why nothing was proposed.
+#[derive(Debug, Clone, PartialEq)]
+pub enum DesignError {
+    /// Rows that no table can hold, even shedding every sheddable load at once.
+    Unholdable(Vec<Shortfall>),
+    /// No layout within the limits could be sized to hold every row.
+    NoLayout(String),
+}
+
+/// What design reports as it goes.
+pub type Progress<'a> = &'a (dyn Fn(&str) + Sync);
+
+/// Propose a table for `plant` and `cases`, starting from `from` when given.
+pub fn design(
+    plant: &Plant,
+    cases: &CaseSet,
+    from: Option<&Scheme>,
+    progress: Progress,
+) -> Result<Proposal, DesignError> {
+    let sim = design_sim_config(plant);
+    let measurement = from.map(|s| s.measurement).unwrap_or_default();
+    let ctx = Context::new(plant, cases, sim, measurement, "proposed by nadir design");
+
+    progress("lower bounds");
+    let bounds = bounds(&ctx)?;
+
+    progress("plain baseline table");
+    let baseline = baseline::plain(&ctx);
+    let mut replays = baseline.as_ref().map_or(0, |b| b.runs);
+    let mut layouts_sized = 0;
+
+    let mut chosen: Option<(Sized, Source)> = None;
+    let mut from_outcome = None;
+    if let Some(existing) = from {
+        progress("existing table");
+        let (result, outcome, n) = keep_existing(&ctx, existing);
+        replays += n;
+        from_outcome = Some(outcome);
+        if let Some(s) = result {
+            chosen = Some((s, Source::Existing));
+        }
+    }
+    if chosen.is_none() {
+        let (best, sized, n) = search(&ctx, progress);
+        layouts_sized = sized;
+        replays += n;
+        chosen = best.map(|b| (b, Source::Search));
+    }
+    if let Some(b) = &baseline {
+        let better = match &chosen {
+            Some((c, _)) => b.objective < c.objective - 1e-9 && from.is_none(),
+            None => true,
+        };
+        if better {
+            chosen = Some((b.clone(), Source::Baseline));
+        }
+    }
+    let Some((best, source)) = chosen else {
+        return Err(DesignError::NoLayout(
+            "no layout within the design limits holds every case; widen the pickup band, allow more stages or an armed stage, or shorten the delays".into(),
+        ));
+    };
+    let scheme = ctx.scheme(&best.layout, &best.assignment);
+    let rows = ctx
+        .rows
+        .iter()
+        .enumerate()
+        .map(|(r, &(ci, op))| RowShed {
+            case: cases.cases[ci].id.clone(),
+            operating_point: plant.operating_points[op].id.clone(),
+            weight: cases.cases[ci].weight,
+            shed_mw: shed_mw(&ctx, op, &best.evals[r].shed_loads),
+            bound_mw: bounds[r].mw,
+            baseline_mw: baseline
+                .as_ref()
+                .map(|b| shed_mw(&ctx, op, &b.evals[r].shed_loads)),
+        })
+        .collect();
+    Ok(Proposal {
+        scheme,
+        objective: best.objective,
+        rows,
+        baseline: baseline.map(|b| BaselineSummary {
+            objective: b.objective,
+            stages: b.layout.stages.len(),
+            scheme: ctx.scheme(&b.layout, &b.assignment),
+        }),
+        from: from_outcome,
+        source,
+        layouts_sized,
+        replays: replays + best.runs,
+    })
+}
+
+/// The lower bound of every row, or every row that no table can hold.
+pub fn bounds(ctx: &Context) -> Result<Vec<Bound>, DesignError> {
+    let found: Vec<Result<Bound, Shortfall>> = ctx
+        .rows
+        .par_iter()
+        .map(|&(ci, op)| bound::bound(ctx.plant, &ctx.cases.cases[ci], op, &ctx.sim))
+        .collect();
+    let short: Vec<Shortfall> = found
+        .iter()
+        .filter_map(|r| r.as_ref().err().cloned())
+        .collect();
+    if !short.is_empty() {
+        return Err(DesignError::Unholdable(short));
+    }
+    Ok(found.into_iter().filter_map(Result::ok).collect())
+}
+
+fn shed_mw(ctx: &Context, op: usize, loads: &[usize]) -> f64 {
+    loads.iter().map(|&i| ctx.mw[op][i]).sum()
+}
+
+/// When the disturbance of a case starts: its first event, or the utility profile leaving
+/// nominal.
+pub fn disturbance_start(case: &Case) -> f64 {
+    let profile = case
+        .utility_profile
+        .windows(2)
+        .find(|w| w[1].1 != w[0].1)
+        .map(|w| w[0].0);
+    match (case.events.first().map(|e| e.at_s), profile) {
+        (Some(a), Some(b)) => a.min(b),
+        (a, b) => a.or(b).unwrap_or(0.0),
+    }
+}
+
+/// Keep the existing table if it holds; else keep its settings and move as few loads as
+/// possible. Returns the result, how it relates to the table, and the replays used.
+fn keep_existing(ctx: &Context, existing: &Scheme) -> (Option<Sized>, FromOutcome, usize) {
+    let (layout, order) = layout::of_scheme(existing);
+    let position = |load: usize| {
+        existing
+            .stages
+            .iter()
+            .position(|s| s.sheds.contains(&load))
+            .and_then(|k| order.iter().position(|&o| o == k))
+    };
+    let start: Vec<Option<usize>> = ctx.loads.iter().map(|&(i, _)| position(i)).collect();
+    let clean = existing.stages.iter().all(|s| {
+        s.sheds
+            .iter()
+            .all(|&l| ctx.loads.iter().any(|&(i, _)| i == l))
+    });
+    if clean {
+        let scheme = ctx.scheme(&layout, &start);
+        let evals = ctx.evaluate_all(&scheme);
+        let runs = evals.len();
+        let audit_ok = crate::verify::audit::audit(
+            ctx.plant,
+            &scheme,
+            &crate::verify::audit::AuditRules::for_plant(ctx.plant),
+        )
+        .violations
+        .is_empty();
+        if audit_ok && evals.iter().all(|e| e.verdict == Verdict::Holds) {
+            let objective = ctx.objective(&evals);
+            let s = Sized {
+                layout,
+                assignment: start,
+                evals,
+                objective,
+                runs: 0,
+            };
+            return (Some(s), FromOutcome::Unchanged, runs);
+        }
+    }
+    // Any change must cost more than any amount of shedding, so the model changes as few
+    // assignments as it can and only then sheds least.
+    let everything: f64 = ctx
+        .rows
+        .iter()
+        .map(|&(ci, op)| {
+            ctx.cases.cases[ci].weight
+                * ctx
+                    .loads
+                    .iter()
+                    .map(|&(i, r)| ctx.plant.design.rank_weight(r) * ctx.mw[op][i])
+                    .sum::<f64>()
+        })
+        .sum();
+    match sizing::size(ctx, &layout, Some(&start), everything + 1.0) {
+        Ok(s) => {
+            let runs = s.runs;
+            (Some(s), FromOutcome::Reassigned, runs)
+        }
+        Err(_) => (None, FromOutcome::Redesigned, 0),
+    }
+}
+
+/// Size the starting layouts, then improve the best by moving one setting at a time. Returns the
+/// best sized layout, the number of layouts sized and the replays used.
+fn search(ctx: &Context, progress: Progress) -> (Option<Sized>, usize, usize) {
+    let (start, exhaustive) = starting_layouts(ctx);
+    let mut sized = 0;
+    let mut replays = 0;
+    let mut best: Option<Sized> = None;
+    let total = start.len();
+    for (n, layout) in start.iter().enumerate() {
+        progress(&format!("layout {}/{total}", n + 1));
+        sized += 1;
+        match sizing::size(ctx, layout, None, 0.0) {
+            Ok(s) => {
+                replays += s.runs;
+                if best
+                    .as_ref()
+                    .is_none_or(|b| s.objective < b.objective - 1e-9)
+                {
+                    best = Some(s);
+                }
+            }
+            // A layout that cannot be sized is simply not a candidate.
+            Err(_) => {}
+        }
+    }
+    if !exhaustive {
+        for pass in 0..LOCAL_PASSES {
+            let Some(current) = best.clone() else { break };
+            let moves = neighbours(ctx, &current.layout);
+            progress(&format!(
+                "refining settings, pass {} ({} moves)",
+                pass + 1,
+                moves.len()
+            ));
+            let mut improved = false;
+            for layout in moves {
+                sized += 1;
+                if let Ok(s) = sizing::size(ctx, &layout, None, 0.0) {
+                    replays += s.runs;
+                    if s.objective < best.as_ref().map_or(f64::INFINITY, |b| b.objective) - 1e-9 {
+                        best = Some(s);
+                        improved = true;
+                    }
+                }
+            }
+            if !improved {
+                break;
+            }
+        }
+    }
+    (best, sized, replays)
+}
+
+/// Breakers that may arm a stage and that some case opens.
+fn armable(ctx: &Context) -> Vec<BreakerRef> {
+    ctx.plant
+        .design
+        .armed_by
+        .iter()
+        .copied()
+        .filter(|b| {
+            ctx.cases.cases.iter().any(|c| {
+                c.events
+                    .iter()
+                    .any(|e| matches!(e.action, Action::Open(x) if x == *b))
+            })
+        })
+        .collect()
+}
+
+/// Every layout on the grid when there are few (and `true`), else a spread of starting points.
+pub fn starting_layouts(ctx: &Context) -> (Vec<Layout>, bool) {
+    let limits = &ctx.plant.design;
+    let pickups = layout::pickup_grid(limits);
+    let delays = layout::delay_grid(limits);
+    let gap = layout::spacing_steps(ctx.plant);
+    let mut armed_options: Vec<Vec<(BreakerRef, f64)>> = vec![Vec::new()];
+    for b in armable(ctx) {
+        armed_options.push(vec![(b, limits.min_delay_s)]);
+    }
+    let rocof_options: Vec<Option<f64>> = match limits.rocof_supervision_hz_per_s {
+        Some(r) => vec![None, Some(r)],
+        None => vec![None],
+    };
+    let max_k = limits.max_stages.min(ctx.loads.len());
+    let min_k = limits.min_stages.max(1).min(max_k);
+
+    // Exhaustive: every spaced choice of pickups, every delay for each.
+    let mut all: Vec<Vec<(f64, f64, Option<f64>)>> = Vec::new();
+    let mut count = 0usize;
+    for k in min_k..=max_k {
+        count += spaced_choices(pickups.len(), k, gap) * delays.len().pow(k as u32);
+    }
+    count *= armed_options.len() * rocof_options.len();
+    let exhaustive = count <= EXHAUSTIVE_LAYOUTS;
+    if exhaustive {
+        for k in min_k..=max_k {
+            for choice in choose_spaced(pickups.len(), k, gap) {
+                for ds in delay_combinations(delays.len(), k) {
+                    for &rocof in &rocof_options {
+                        all.push(
+                            choice
+                                .iter()
+                                .zip(&ds)
+                                .enumerate()
+                                .map(|(j, (&p, &d))| {
+                                    (pickups[p], delays[d], if j == 0 { rocof } else { None })
+                                })
+                                .collect(),
+                        );
+                    }
+                }
+            }
+        }
+    } else {
+        for k in min_k..=max_k {
+            let mut choices: Vec<Vec<usize>> = Vec::new();
+            // Packed at the top of the band, and spread over it.
+            let packed: Vec<usize> = (0..k).map(|j| j * gap).collect();
+            if packed.last().is_some_and(|&l| l < pickups.len()) {
+                choices.push(packed);
+            }
+            if k > 1 {
+                let step = ((pickups.len() - 1) / (k - 1)).max(gap);
+                let spread: Vec<usize> = (0..k).map(|j| j * step).collect();
+                if spread.last().is_some_and(|&l| l < pickups.len()) && !choices.contains(&spread) {
+                    choices.push(spread);
+                }
+            }
+            for choice in choices {
+                for &rocof in &rocof_options {
+                    all.push(
+                        choice
+                            .iter()
+                            .enumerate()
+                            .map(|(j, &p)| {
+                                (pickups[p], delays[0], if j == 0 { rocof } else { None })
+                            })
+                            .collect(),
+                    );
+                }
+            }
+        }
+    }
+    let mut out = Vec::new();
+    for armed in &armed_options {
+        for f in &all {
+            out.push(layout::build(limits, armed, f));
+        }
+    }
+    (out, exhaustive)
+}
+
+/// Layouts one grid step away from `layout`: one stage's pickup up or down, or its delay longer
+/// or shorter, keeping the spacing and the limits.
+fn neighbours(ctx: &Context, layout: &Layout) -> Vec<Layout> {
+    let limits = &ctx.plant.design;
+    let pickups = layout::pickup_grid(limits);
+    let delays = layout::delay_grid(limits);
+    let gap = layout::spacing_steps(ctx.plant);
+    let index = |grid: &[f64], v: f64| grid.iter().position(|g| (g - v).abs() < 1e-6);
+    let mut out = Vec::new();
+    for k in 0..layout.stages.len() {
+        let st = layout.stages[k];
+        if let StageTrigger::Frequency {
+            pickup_hz,
+            min_rocof_hz_per_s,
+        } = st.trigger
+        {
+            if let Some(p) = index(&pickups, pickup_hz) {
+                for q in [p.wrapping_sub(1), p + 1] {
+                    if q >= pickups.len() {
+                        continue;
+                    }
+                    let mut l = layout.clone();
+                    l.stages[k].trigger = StageTrigger::Frequency {
+                        pickup_hz: pickups[q],
+                        min_rocof_hz_per_s,
+                    };
+                    if spaced(&l, &pickups, gap) {
+                        out.push(l);
+                    }
+                }
+            }
+        }
+        if let Some(d) = index(&delays, st.delay_s) {
+            for e in [d.wrapping_sub(1), d + 1] {
+                if e < delays.len() {
+                    let mut l = layout.clone();
+                    l.stages[k].delay_s = delays[e];
+                    out.push(l);
+                }
+            }
+        }
+    }
+    out
+}
+
+/// Whether the frequency stages of a layout are in falling order, at least `gap` grid steps
+/// apart.
+fn spaced(layout: &Layout, pickups: &[f64], gap: usize) -> bool {
+    let idx: Vec<usize> = layout
+        .stages
+        .iter()
+        .filter_map(|s| match s.trigger {
+            StageTrigger::Frequency { pickup_hz, .. } => {
+                pickups.iter().position(|g| (g - pickup_hz).abs() < 1e-6)
+            }
+            _ => None,
+        })
+        .collect();
+    idx.windows(2).all(|w| w[1] >= w[0] + gap)
+}
+
+/// Number of ways to choose `k` of `n` grid points at least `gap` apart.
+fn spaced_choices(n: usize, k: usize, gap: usize) -> usize {
+    choose_spaced(n, k, gap).len()
+}
+
+/// Every choice of `k` of `n` grid points (indices, rising) at least `gap` apart.
+fn choose_spaced(n: usize, k: usize, gap: usize) -> Vec<Vec<usize>> {
+    fn go(
+        n: usize,
+        k: usize,
+        gap: usize,
+        from: usize,
+        cur: &mut Vec<usize>,
+        out: &mut Vec<Vec<usize>>,
+    ) {
+        if out.len() > 100_000 {
+            return;
+        }
+        if cur.len() == k {
+            out.push(cur.clone());
+            return;
+        }
+        for i in from..n {
+            cur.push(i);
+            go(n, k, gap, i + gap, cur, out);
+            cur.pop();
+        }
+    }
+    let mut out = Vec::new();
+    go(n, k, gap, 0, &mut Vec::new(), &mut out);
+    out
+}
+
+/// Every assignment of one of `n` delays to each of `k` stages.
+fn delay_combinations(n: usize, k: usize) -> Vec<Vec<usize>> {
+    let mut out = vec![Vec::new()];
+    for _ in 0..k {
+        out = out
+            .into_iter()
+            .flat_map(|c| {
+                (0..n).map(move |d| {
+                    let mut c = c.clone();
+                    c.push(d);
+                    c
+                })
+            })
+            .collect();
+    }
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn spaced_choices_count_like_combinations_with_gaps() {
+        // Choosing k of n points at least g apart: C(n − (k−1)(g−1), k).
+        assert_eq!(spaced_choices(11, 3, 1), 165);
+        assert_eq!(spaced_choices(11, 3, 2), 84);
+        assert_eq!(spaced_choices(3, 3, 1), 1);
+        assert_eq!(spaced_choices(3, 2, 2), 1);
+        assert_eq!(delay_combinations(2, 3).len(), 8);
+    }
+}

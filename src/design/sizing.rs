@@ -1,0 +1,367 @@
+//! Sizing the stages of one layout: the loop between the simulator and the assignment model.
+//!
+//! Start with one load per stage. Replay every row; for each row that fails, find by bisection
+//! how many more loads (the next ones in priority order) its deepest operated stage must open
+//! for it to hold — or, if it shed too much, how many fewer — and record that as a requirement
+//! on the MW its operated stages open at its operating point. Solve the assignment model for the
+//! least-cost loads that meet every requirement so far, replay again, and repeat until every row
+//! holds. Requirements only accumulate, so the loop ends: either every row holds, or the model
+//! becomes infeasible, or an assignment repeats (the layout cannot hold the cases).
+
+use super::assign::{self, AssignError, Problem, Requirement};
+use super::evaluate::{evaluate, RowEval, Verdict};
+use super::layout::{self, Layout};
+use crate::model::{CaseSet, Measurement, Plant, Scheme};
+use crate::sim::SimConfig;
+use rayon::prelude::*;
+
+/// What every sizing of one design shares.
+#[derive(Debug, Clone)]
+pub struct Context<'a> {
+    pub plant: &'a Plant,
+    pub cases: &'a CaseSet,
+    /// (case index, operating point index) in matrix order.
+    pub rows: Vec<(usize, usize)>,
+    /// Sheddable loads in priority order (rank, then file order): (load index, rank).
+    pub loads: Vec<(usize, u32)>,
+    /// `mw[op][load]`: demand of each load at each operating point.
+    pub mw: Vec<Vec<f64>>,
+    pub sim: SimConfig,
+    pub measurement: Measurement,
+    pub name: String,
+}
+
+impl<'a> Context<'a> {
+    pub fn new(
+        plant: &'a Plant,
+        cases: &'a CaseSet,
+        sim: SimConfig,
+        measurement: Measurement,
+        name: &str,
+    ) -> Context<'a> {
+        let mw: Vec<Vec<f64>> = plant
+            .operating_points
+            .iter()
+            .map(|op| op.load_mw.clone())
+            .collect();
+        let mut loads: Vec<(usize, u32)> = plant
+            .loads
+            .iter()
+            .enumerate()
+            .filter(|(i, l)| !l.never_shed && mw.iter().any(|m| m[*i] > 0.0))
+            .map(|(i, l)| (i, l.rank))
+            .collect();
+        loads.sort_by_key(|&(i, rank)| (rank, i));
+        Context {
+            plant,
+            cases,
+            rows: crate::verify::matrix::pairs(cases),
+            loads,
+            mw,
+            sim,
+            measurement,
+            name: name.to_string(),
+        }
+    }
+
+    /// The table of `layout` with `assignment` (a stage position per candidate load).
+    pub fn scheme(&self, layout: &Layout, assignment: &[Option<usize>]) -> Scheme {
+        layout::scheme(
+            self.plant,
+            &self.name,
+            self.measurement,
+            layout,
+            &self.loads,
+            assignment,
+        )
+    }
+
+    /// Replay every row.
+    pub fn evaluate_all(&self, scheme: &Scheme) -> Vec<RowEval> {
+        self.rows
+            .par_iter()
+            .map(|&(ci, op)| evaluate(self.plant, &self.cases.cases[ci], op, scheme, &self.sim))
+            .collect()
+    }
+
+    /// The design objective of replayed rows: MW opened at nominal frequency, weighted by rank
+    /// and by case.
+    pub fn objective(&self, evals: &[RowEval]) -> f64 {
+        self.rows
+            .iter()
+            .zip(evals)
+            .map(|(&(ci, op), e)| {
+                let w = self.cases.cases[ci].weight;
+                e.shed_loads
+                    .iter()
+                    .map(|&i| w * self.rank_weight(i) * self.mw[op][i])
+                    .sum::<f64>()
+            })
+            .sum()
+    }
+
+    fn rank_weight(&self, load: usize) -> f64 {
+        self.plant.design.rank_weight(self.plant.loads[load].rank)
+    }
+}
+
+/// A layout with its loads, holding every row.
+#[derive(Debug, Clone)]
+pub struct Sized {
+    pub layout: Layout,
+    /// Stage position of each candidate load (`Context::loads` order).
+    pub assignment: Vec<Option<usize>>,
+    pub evals: Vec<RowEval>,
+    pub objective: f64,
+    /// Replays used.
+    pub runs: usize,
+}
+
+/// Why a layout could not be sized.
+#[derive(Debug, Clone, PartialEq)]
+pub enum NotSized {
+    /// A row failed without any stage acting: the layout's pickups never see it.
+    NoStageActs {
+        row: usize,
+    },
+    /// The requirements cannot all be met by one assignment.
+    Infeasible,
+    /// The loop came back to an assignment it had tried.
+    Stuck,
+    Solver(String),
+}
+
+/// Most simulate–assign rounds per layout.
+const MAX_ROUNDS: usize = 24;
+
+/// Size `layout`. `start` seeds the loop (for `--from`); `change_cost` makes the model prefer
+/// the start's assignment.
+pub fn size(
+    ctx: &Context,
+    layout: &Layout,
+    start: Option<&[Option<usize>]>,
+    change_cost: f64,
+) -> Result<Sized, NotSized> {
+    let stages = layout.stages.len();
+    if ctx.loads.len() < stages {
+        return Err(NotSized::Infeasible);
+    }
+    let keep: Vec<Option<usize>> = match start {
+        Some(s) => s.to_vec(),
+        None => vec![None; ctx.loads.len()],
+    };
+    let mut assignment: Vec<Option<usize>> = match start {
+        Some(s) => s.to_vec(),
+        None => (0..ctx.loads.len())
+            .map(|j| (j < stages).then_some(j))
+            .collect(),
+    };
+    let mut requirements: Vec<Requirement> = Vec::new();
+    let mut seen: Vec<Vec<Option<usize>>> = Vec::new();
+    let mut runs = 0;
+    for _ in 0..MAX_ROUNDS {
+        let scheme = ctx.scheme(layout, &assignment);
+        let evals = ctx.evaluate_all(&scheme);
+        runs += evals.len();
+        let failing: Vec<usize> = (0..evals.len())
+            .filter(|&r| evals[r].verdict != Verdict::Holds)
+            .collect();
+        if failing.is_empty() {
+            let objective = ctx.objective(&evals);
+            return Ok(Sized {
+                layout: layout.clone(),
+                assignment,
+                evals,
+                objective,
+                runs,
+            });
+        }
+        seen.push(assignment.clone());
+        if let Some(&r) = failing.iter().find(|&&r| evals[r].operated.is_empty()) {
+            if evals[r].verdict == Verdict::Short {
+                return Err(NotSized::NoStageActs { row: r });
+            }
+        }
+        let found: Vec<(Option<Requirement>, usize)> = failing
+            .par_iter()
+            .map(|&r| requirement(ctx, layout, &assignment, r, &evals[r]))
+            .collect();
+        for (req, n) in found {
+            runs += n;
+            if let Some(req) = req {
+                add(&mut requirements, req);
+            }
+        }
+        let cost = costs(ctx, stages, &evals);
+        let problem = Problem {
+            loads: &ctx.loads,
+            mw: &ctx.mw,
+            stages,
+            requirements: &requirements,
+            cost: &cost,
+            start: &keep,
+            change_cost,
+        };
+        assignment = match assign::solve(&problem) {
+            Ok(a) => a,
+            Err(AssignError::Infeasible) => return Err(NotSized::Infeasible),
+            Err(AssignError::Solver(s)) => return Err(NotSized::Solver(s)),
+        };
+        if seen.contains(&assignment) {
+            return Err(NotSized::Stuck);
+        }
+    }
+    Err(NotSized::Stuck)
+}
+
+/// Keep the strongest requirement per (operating point, stage set, direction).
+fn add(reqs: &mut Vec<Requirement>, new: Requirement) {
+    match reqs
+        .iter_mut()
+        .find(|r| r.op == new.op && r.stages == new.stages && r.at_least == new.at_least)
+    {
+        Some(r) if r.at_least => r.mw = r.mw.max(new.mw),
+        Some(r) => r.mw = r.mw.min(new.mw),
+        None => reqs.push(new),
+    }
+}
+
+/// Objective coefficient of each candidate load in each stage, from which stages operated in
+/// each row at the last replay; a small cost on every assigned MW keeps unneeded loads unshed.
+fn costs(ctx: &Context, stages: usize, evals: &[RowEval]) -> Vec<Vec<f64>> {
+    let first = 0;
+    ctx.loads
+        .iter()
+        .map(|&(i, _)| {
+            let rw = ctx.rank_weight(i);
+            let mut c = vec![1e-3 * rw * ctx.mw[first][i].max(1e-3); stages];
+            for (&(ci, op), e) in ctx.rows.iter().zip(evals) {
+                let w = ctx.cases.cases[ci].weight;
+                for &k in &e.operated {
+                    c[k] += w * rw * ctx.mw[op][i];
+                }
+            }
+            c
+        })
+        .collect()
+}
+
+/// The requirement a failing row sets, found by replaying that row alone with loads moved into
+/// (or out of) its deepest operated stage; with the number of replays used.
+fn requirement(
+    ctx: &Context,
+    layout: &Layout,
+    assignment: &[Option<usize>],
+    row: usize,
+    eval: &RowEval,
+) -> (Option<Requirement>, usize) {
+    let (ci, op) = ctx.rows[row];
+    let case = &ctx.cases.cases[ci];
+    let Some(&deepest) = eval.operated.last() else {
+        return (None, 0);
+    };
+    let stages = layout.stages.len();
+    let mut runs = 0;
+    // Bisect on the side of the failure only: "no longer short" is monotone in the loads added
+    // even where adding many would overshoot, and the overshoot is the next round's business.
+    let mut no_longer = |trial: &[Option<usize>], side: Verdict| {
+        runs += 1;
+        let scheme = ctx.scheme(layout, trial);
+        evaluate(ctx.plant, case, op, &scheme, &ctx.sim).verdict != side
+    };
+    let opened = |trial: &[Option<usize>]| -> f64 {
+        ctx.loads
+            .iter()
+            .zip(trial)
+            .filter(|(_, a)| a.is_some_and(|k| eval.operated.contains(&k)))
+            .map(|((i, _), _)| ctx.mw[op][*i])
+            .sum()
+    };
+    match eval.verdict {
+        Verdict::Holds => (None, 0),
+        Verdict::Short => {
+            // The next loads in priority order that the row did not shed.
+            let later: Vec<usize> = (0..ctx.loads.len())
+                .filter(|&j| {
+                    assignment[j].is_none_or(|k| k > deepest) && ctx.mw[op][ctx.loads[j].0] > 0.0
+                })
+                .collect();
+            if later.is_empty() {
+                return (None, 0);
+            }
+            let moved = |m: usize| {
+                let mut a = assignment.to_vec();
+                for &j in &later[..m] {
+                    a[j] = Some(deepest);
+                }
+                a
+            };
+            let m = least(later.len(), |m| no_longer(&moved(m), Verdict::Short));
+            let trial = moved(m.unwrap_or(later.len()));
+            let req = Requirement {
+                op,
+                stages: eval.operated.clone(),
+                mw: opened(&trial),
+                at_least: true,
+            };
+            (Some(req), runs)
+        }
+        Verdict::TooMuch => {
+            let mine: Vec<usize> = (0..ctx.loads.len())
+                .rev()
+                .filter(|&j| assignment[j] == Some(deepest))
+                .collect();
+            if mine.len() < 2 {
+                return (None, 0);
+            }
+            let to = (deepest + 1 < stages).then_some(deepest + 1);
+            let moved = |m: usize| {
+                let mut a = assignment.to_vec();
+                for &j in &mine[..m] {
+                    a[j] = to;
+                }
+                a
+            };
+            let m = least(mine.len() - 1, |m| no_longer(&moved(m), Verdict::TooMuch));
+            let trial = moved(m.unwrap_or(mine.len() - 1));
+            let req = Requirement {
+                op,
+                stages: eval.operated.clone(),
+                mw: opened(&trial),
+                at_least: false,
+            };
+            (Some(req), runs)
+        }
+    }
+}
+
+/// Least m in 1..=n with `ok(m)`, assuming `ok` is monotone; `None` when `ok(n)` fails.
+fn least(n: usize, mut ok: impl FnMut(usize) -> bool) -> Option<usize> {
+    if n == 0 || !ok(n) {
+        return None;
+    }
+    let (mut bad, mut good) = (0, n);
+    while good - bad > 1 {
+        let mid = (bad + good) / 2;
+        if ok(mid) {
+            good = mid;
+        } else {
+            bad = mid;
+        }
+    }
+    Some(good)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::least;
+
+    #[test]
+    fn least_finds_the_first_passing_count() {
+        for threshold in 1..=9 {
+            assert_eq!(least(9, |m| m >= threshold), Some(threshold));
+        }
+        assert_eq!(least(9, |_| false), None);
+        assert_eq!(least(0, |_| true), None);
+    }
+}
