@@ -56,24 +56,27 @@ pub fn run(args: CompareArgs) -> anyhow::Result<Outcome> {
     })
 }
 
+/// The settings difference as a table (stage, setting, old, new), or a line saying none differs.
+pub fn settings_table(changes: &[nadir::verify::diff::SettingChange]) -> String {
+    if changes.is_empty() {
+        return "  (no setting differs)\n".into();
+    }
+    let mut b = Builder::default();
+    b.push_record(["stage", "setting", "old", "new"]);
+    for s in changes {
+        b.push_record([
+            s.stage.clone(),
+            s.what.to_string(),
+            s.old.clone(),
+            s.new.clone(),
+        ]);
+    }
+    finish(b, 0..0) + "\n"
+}
+
 fn render(c: &compare::Comparison, old: &str, new: &str) -> String {
     let mut out = format!("Settings changed from {old} to {new}\n");
-    if c.settings.is_empty() {
-        out.push_str("  (no setting differs)\n");
-    } else {
-        let mut b = Builder::default();
-        b.push_record(["stage", "setting", "old", "new"]);
-        for s in &c.settings {
-            b.push_record([
-                s.stage.clone(),
-                s.what.to_string(),
-                s.old.clone(),
-                s.new.clone(),
-            ]);
-        }
-        out.push_str(&finish(b, 0..0));
-        out.push('\n');
-    }
+    out.push_str(&settings_table(&c.settings));
     out.push_str("\nVerification, old → new\n");
     let mut b = Builder::default();
     b.push_record([

@@ -276,17 +276,14 @@ fn from_summary(
         FromOutcome::Unchanged => {
             "The existing table still holds every case; it is kept unchanged."
         }
-        FromOutcome::Reassigned => "The existing settings are kept; loads were moved where needed:",
+        FromOutcome::Reassigned => "The existing settings are kept; loads were moved where needed (old → new):",
         FromOutcome::Redesigned => {
-            "The existing settings could not hold every case; the table was designed afresh:"
+            "The existing settings could not hold every case; the table was designed afresh (old → new):"
         }
     };
     let mut out = format!("{head}\n");
-    for c in &changes {
-        out.push_str(&format!(
-            "  - {}: {} {} → {}\n",
-            c.stage, c.what, c.old, c.new
-        ));
+    if outcome != FromOutcome::Unchanged {
+        out.push_str(&super::compare::settings_table(&changes));
     }
     out.push('\n');
     out

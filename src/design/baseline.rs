@@ -1,14 +1,14 @@
 //! The plain table a design is measured against: the most stages the limits allow, pickups in
 //! equal steps from the highest to the lowest allowed, every delay at its minimum, no armed or
 //! df/dt-supervised stage, and loads taken in rank order in equal MW steps (at the first
-//! operating point) — with the step bisected to the smallest that holds every row.
+//! operating point) — with the step chosen, from a scan, as the one that holds every row with the least shed.
 
 use super::evaluate::Verdict;
 use super::layout::{self, Layout};
 use super::sizing::{Context, Sized};
 
-/// Bisection rounds on the step size.
-const ROUNDS: usize = 10;
+/// Step sizes tried.
+const SCAN: usize = 24;
 
 /// The plain table sized to hold every row, if any step size does.
 pub fn plain(ctx: &Context) -> Option<Sized> {
@@ -46,19 +46,23 @@ pub fn plain(ctx: &Context) -> Option<Sized> {
             }
         })
     };
-    let largest = total / k as f64;
-    let mut best = try_step(largest)?;
-    let (mut bad, mut good) = (0.0, largest);
-    for _ in 0..ROUNDS {
-        let mid = 0.5 * (bad + good);
-        match try_step(mid) {
-            Some(s) => {
-                good = mid;
-                best = s;
+    // Passing is not monotone in the step (a larger first step can leave a two-event case short
+    // when the later stages no longer operate), so scan the step from a sixth of the even split
+    // to twice it and keep the passing table that sheds least.
+    let even = total / k as f64;
+    let mut best: Option<Sized> = None;
+    for j in 0..SCAN {
+        let step = even * (1.0 / 6.0 + (2.0 - 1.0 / 6.0) * j as f64 / (SCAN - 1) as f64);
+        if let Some(s) = try_step(step) {
+            if best
+                .as_ref()
+                .is_none_or(|b| s.objective < b.objective - 1e-9)
+            {
+                best = Some(s);
             }
-            None => bad = mid,
         }
     }
+    let mut best = best?;
     best.runs = runs;
     Some(best)
 }

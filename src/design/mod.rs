@@ -29,8 +29,9 @@ use sizing::{Context, Sized};
 /// settings); above it the search is the heuristic of docs/design.md.
 pub const EXHAUSTIVE_LAYOUTS: usize = 64;
 
-/// Local-search passes over the best layout's settings.
-const LOCAL_PASSES: usize = 3;
+/// Local-search passes from each start, and how many of the best starting layouts to refine.
+const LOCAL_PASSES: usize = 6;
+const LOCAL_STARTS: usize = 3;
 
 /// The design's result.
 #[derive(Debug, Clone, Serialize)]
@@ -282,54 +283,56 @@ fn keep_existing(ctx: &Context, existing: &Scheme) -> (Option<Sized>, FromOutcom
     }
 }
 
-/// Size the starting layouts, then improve the best by moving one setting at a time. Returns the
-/// best sized layout, the number of layouts sized and the replays used.
+/// Size the starting layouts, then improve the best few by moving one setting at a time. Returns
+/// the best sized layout, the number of layouts sized and the replays used.
 fn search(ctx: &Context, progress: Progress) -> (Option<Sized>, usize, usize) {
     let (start, exhaustive) = starting_layouts(ctx);
-    let mut sized = 0;
-    let mut replays = 0;
-    let mut best: Option<Sized> = None;
     let total = start.len();
-    for (n, layout) in start.iter().enumerate() {
-        progress(&format!("layout {}/{total}", n + 1));
-        sized += 1;
-        match sizing::size(ctx, layout, None, 0.0) {
-            Ok(s) => {
-                replays += s.runs;
-                if best
-                    .as_ref()
-                    .is_none_or(|b| s.objective < b.objective - 1e-9)
-                {
-                    best = Some(s);
-                }
-            }
-            // A layout that cannot be sized is simply not a candidate.
-            Err(_) => {}
-        }
+    progress(&format!("sizing {total} starting layouts"));
+    let sized_start: Vec<Option<Sized>> = start
+        .par_iter()
+        .map(|layout| sizing::size(ctx, layout, None, 0.0).ok())
+        .collect();
+    let mut sized = total;
+    let mut replays: usize = sized_start.iter().flatten().map(|s| s.runs).sum();
+    let mut ranked: Vec<Sized> = sized_start.into_iter().flatten().collect();
+    // Stable: equal objectives keep the fixed layout order.
+    ranked.sort_by(|a, b| a.objective.total_cmp(&b.objective));
+    if exhaustive {
+        return (ranked.into_iter().next(), sized, replays);
     }
-    if !exhaustive {
+    let mut best: Option<Sized> = None;
+    for (n, seed) in ranked.into_iter().take(LOCAL_STARTS).enumerate() {
+        let mut current = seed;
         for pass in 0..LOCAL_PASSES {
-            let Some(current) = best.clone() else { break };
             let moves = neighbours(ctx, &current.layout);
             progress(&format!(
-                "refining settings, pass {} ({} moves)",
+                "refining start {}, pass {} ({} moves)",
+                n + 1,
                 pass + 1,
                 moves.len()
             ));
-            let mut improved = false;
-            for layout in moves {
-                sized += 1;
-                if let Ok(s) = sizing::size(ctx, &layout, None, 0.0) {
-                    replays += s.runs;
-                    if s.objective < best.as_ref().map_or(f64::INFINITY, |b| b.objective) - 1e-9 {
-                        best = Some(s);
-                        improved = true;
-                    }
-                }
-            }
-            if !improved {
+            sized += moves.len();
+            let tried: Vec<Option<Sized>> = moves
+                .par_iter()
+                .map(|layout| sizing::size(ctx, layout, None, 0.0).ok())
+                .collect();
+            replays += tried.iter().flatten().map(|s| s.runs).sum::<usize>();
+            let Some(better) = tried
+                .into_iter()
+                .flatten()
+                .filter(|s| s.objective < current.objective - 1e-9)
+                .min_by(|a, b| a.objective.total_cmp(&b.objective))
+            else {
                 break;
-            }
+            };
+            current = better;
+        }
+        if best
+            .as_ref()
+            .is_none_or(|b| current.objective < b.objective - 1e-9)
+        {
+            best = Some(current);
         }
     }
     (best, sized, replays)
@@ -435,15 +438,32 @@ pub fn starting_layouts(ctx: &Context) -> (Vec<Layout>, bool) {
     (out, exhaustive)
 }
 
-/// Layouts one grid step away from `layout`: one stage's pickup up or down, or its delay longer
-/// or shorter, keeping the spacing and the limits.
+/// Layouts one step away from `layout`: one stage's pickup one grid step either way or its delay
+/// at any other grid value,
+/// every frequency stage's pickup one step either way, df/dt supervision on or off for one stage
+/// (when the limits offer it), one frequency stage fewer or one more at the bottom, and the armed
+/// stage removed or added — each kept within the limits and the spacing.
 fn neighbours(ctx: &Context, layout: &Layout) -> Vec<Layout> {
     let limits = &ctx.plant.design;
     let pickups = layout::pickup_grid(limits);
     let delays = layout::delay_grid(limits);
     let gap = layout::spacing_steps(ctx.plant);
     let index = |grid: &[f64], v: f64| grid.iter().position(|g| (g - v).abs() < 1e-6);
+    let set_pickup = |l: &mut Layout, k: usize, p: f64| {
+        if let StageTrigger::Frequency {
+            min_rocof_hz_per_s, ..
+        } = l.stages[k].trigger
+        {
+            l.stages[k].trigger = StageTrigger::Frequency {
+                pickup_hz: p,
+                min_rocof_hz_per_s,
+            };
+        }
+    };
     let mut out = Vec::new();
+    let frequency: Vec<usize> = (0..layout.stages.len())
+        .filter(|&k| matches!(layout.stages[k].trigger, StageTrigger::Frequency { .. }))
+        .collect();
     for k in 0..layout.stages.len() {
         let st = layout.stages[k];
         if let StageTrigger::Frequency {
@@ -453,30 +473,103 @@ fn neighbours(ctx: &Context, layout: &Layout) -> Vec<Layout> {
         {
             if let Some(p) = index(&pickups, pickup_hz) {
                 for q in [p.wrapping_sub(1), p + 1] {
-                    if q >= pickups.len() {
-                        continue;
+                    if q < pickups.len() {
+                        let mut l = layout.clone();
+                        set_pickup(&mut l, k, pickups[q]);
+                        out.push(l);
                     }
-                    let mut l = layout.clone();
-                    l.stages[k].trigger = StageTrigger::Frequency {
-                        pickup_hz: pickups[q],
-                        min_rocof_hz_per_s,
-                    };
-                    if spaced(&l, &pickups, gap) {
+                }
+            }
+            if let Some(r) = limits.rocof_supervision_hz_per_s {
+                let mut l = layout.clone();
+                l.stages[k].trigger = StageTrigger::Frequency {
+                    pickup_hz,
+                    min_rocof_hz_per_s: if min_rocof_hz_per_s.is_some() {
+                        None
+                    } else {
+                        Some(r)
+                    },
+                };
+                out.push(l);
+            }
+        }
+        // Every other delay: a long delay can ride through a slow dip that a short one cannot,
+        // which no single step shows.
+        for &d in &delays {
+            if (d - st.delay_s).abs() > 1e-9 {
+                let mut l = layout.clone();
+                l.stages[k].delay_s = d;
+                out.push(l);
+            }
+        }
+    }
+    for up in [true, false] {
+        let mut l = layout.clone();
+        let mut ok = true;
+        for &k in &frequency {
+            if let StageTrigger::Frequency { pickup_hz, .. } = l.stages[k].trigger {
+                match index(&pickups, pickup_hz) {
+                    Some(p) if up && p > 0 => set_pickup(&mut l, k, pickups[p - 1]),
+                    Some(p) if !up && p + 1 < pickups.len() => {
+                        set_pickup(&mut l, k, pickups[p + 1])
+                    }
+                    _ => ok = false,
+                }
+            }
+        }
+        if ok {
+            out.push(l);
+        }
+    }
+    if frequency.len() > limits.min_stages.max(1) {
+        for &k in &frequency {
+            let mut l = layout.clone();
+            l.stages.remove(k);
+            out.push(l);
+        }
+    }
+    if frequency.len() < limits.max_stages {
+        if let Some(&last) = frequency.last() {
+            if let StageTrigger::Frequency { pickup_hz, .. } = layout.stages[last].trigger {
+                if let Some(p) = index(&pickups, pickup_hz) {
+                    if p + gap < pickups.len() {
+                        let mut l = layout.clone();
+                        l.stages.push(layout::Setting {
+                            trigger: StageTrigger::Frequency {
+                                pickup_hz: pickups[p + gap],
+                                min_rocof_hz_per_s: None,
+                            },
+                            delay_s: delays[0],
+                            breaker_s: limits.breaker_s,
+                        });
                         out.push(l);
                     }
                 }
             }
         }
-        if let Some(d) = index(&delays, st.delay_s) {
-            for e in [d.wrapping_sub(1), d + 1] {
-                if e < delays.len() {
-                    let mut l = layout.clone();
-                    l.stages[k].delay_s = delays[e];
-                    out.push(l);
-                }
-            }
+    }
+    let armed_now = layout.stages.len() - frequency.len();
+    if armed_now > 0 && !frequency.is_empty() {
+        let mut l = layout.clone();
+        l.stages
+            .retain(|s| matches!(s.trigger, StageTrigger::Frequency { .. }));
+        out.push(l);
+    } else if armed_now == 0 {
+        for b in armable(ctx) {
+            let mut l = layout.clone();
+            l.stages.insert(
+                0,
+                layout::Setting {
+                    trigger: StageTrigger::Breaker(b),
+                    delay_s: limits.min_delay_s,
+                    breaker_s: limits.breaker_s,
+                },
+            );
+            out.push(l);
         }
     }
+    out.retain(|l| spaced(l, &pickups, gap) && l.frequency_stages() >= 1);
+    out.dedup();
     out
 }
 
