@@ -84,6 +84,53 @@ impl<'a> Context<'a> {
             .collect()
     }
 
+    /// Replay the rows whose outcome may differ from `memo`'s, reuse the others; returns the
+    /// evaluations and the number of replays made. A row's run depends only on the loads of the
+    /// stages it operated and on where each stage measures: a stage that never trips changes
+    /// nothing, so when those are the same the earlier replay is the replay.
+    pub fn evaluate_memo(&self, scheme: &Scheme, memo: &mut Memo) -> (Vec<RowEval>, usize) {
+        let sections: Vec<Option<usize>> = scheme
+            .stages
+            .iter()
+            .map(|s| s.sheds.first().map(|&l| self.plant.loads[l].section))
+            .collect();
+        let stale: Vec<usize> = (0..self.rows.len())
+            .filter(|&r| match &memo.rows[r] {
+                None => true,
+                Some((stages, eval)) => {
+                    stages.len() != scheme.stages.len()
+                        || memo.sections != sections
+                        || eval
+                            .operated
+                            .iter()
+                            .any(|&k| stages[k] != scheme.stages[k].sheds)
+                }
+            })
+            .collect();
+        let fresh: Vec<RowEval> = stale
+            .par_iter()
+            .map(|&r| {
+                let (ci, op) = self.rows[r];
+                evaluate(self.plant, &self.cases.cases[ci], op, scheme, &self.sim)
+            })
+            .collect();
+        let contents: Vec<Vec<usize>> = scheme.stages.iter().map(|s| s.sheds.clone()).collect();
+        for (&r, e) in stale.iter().zip(fresh) {
+            memo.rows[r] = Some((contents.clone(), e));
+        }
+        memo.sections = sections;
+        let evals = memo
+            .rows
+            .iter()
+            .map(|m| {
+                m.as_ref()
+                    .map(|(_, e)| e.clone())
+                    .unwrap_or_else(|| unreachable_eval())
+            })
+            .collect();
+        (evals, stale.len())
+    }
+
     /// The design objective of replayed rows: MW opened at nominal frequency, weighted by rank
     /// and by case.
     pub fn objective(&self, evals: &[RowEval]) -> f64 {
@@ -102,6 +149,31 @@ impl<'a> Context<'a> {
 
     fn rank_weight(&self, load: usize) -> f64 {
         self.plant.design.rank_weight(self.plant.loads[load].rank)
+    }
+}
+
+/// Earlier replays of one layout's rows, with the stage contents each was replayed with.
+#[derive(Debug, Clone, Default)]
+pub struct Memo {
+    rows: Vec<Option<(Vec<Vec<usize>>, RowEval)>>,
+    sections: Vec<Option<usize>>,
+}
+
+impl Memo {
+    pub fn new(rows: usize) -> Memo {
+        Memo {
+            rows: vec![None; rows],
+            sections: Vec::new(),
+        }
+    }
+}
+
+/// Every row is filled by `evaluate_memo` before it is read; this is never called.
+fn unreachable_eval() -> RowEval {
+    RowEval {
+        verdict: Verdict::Short,
+        operated: Vec::new(),
+        shed_loads: Vec::new(),
     }
 }
 
@@ -159,21 +231,27 @@ pub fn size(
     let mut requirements: Vec<Requirement> = Vec::new();
     let mut seen: Vec<Vec<Option<usize>>> = Vec::new();
     let mut runs = 0;
+    let mut memo = Memo::new(ctx.rows.len());
     for _ in 0..MAX_ROUNDS {
         let scheme = ctx.scheme(layout, &assignment);
-        let evals = ctx.evaluate_all(&scheme);
-        runs += evals.len();
+        let (evals, n) = ctx.evaluate_memo(&scheme, &mut memo);
+        runs += n;
         let failing: Vec<usize> = (0..evals.len())
             .filter(|&r| evals[r].verdict != Verdict::Holds)
             .collect();
         if failing.is_empty() {
             let objective = ctx.objective(&evals);
-            return Ok(Sized {
+            let sized = Sized {
                 layout: layout.clone(),
                 assignment,
                 evals,
                 objective,
                 runs,
+            };
+            return Ok(if change_cost > 0.0 {
+                sized
+            } else {
+                trim(ctx, sized, &mut memo)
             });
         }
         seen.push(assignment.clone());
@@ -212,6 +290,90 @@ pub fn size(
         }
     }
     Err(NotSized::Stuck)
+}
+
+/// Passes of [`trim`] over the stages, and the stage size up to which it tries every count.
+const TRIM_PASSES: usize = 4;
+const TRIM_SCAN: usize = 12;
+
+/// Improve a table that holds every row by moving loads later: for each stage from the last to
+/// the first, the largest number of its highest-ranked loads that can move to the next stage (or,
+/// from the last stage, be left unshed) with every row still holding, kept when the objective
+/// falls. The requirements of the sizing loop only ever grow, and the costs see only the stages
+/// that operated at the last replay, so the loop can stop at a table that sheds more than needed
+/// in its milder rows; this descent removes that excess. Every accepted step holds every row.
+fn trim(ctx: &Context, mut best: Sized, memo: &mut Memo) -> Sized {
+    let stages = best.layout.stages.len();
+    for _ in 0..TRIM_PASSES {
+        let mut improved = false;
+        for k in (0..stages).rev() {
+            let mine: Vec<usize> = (0..ctx.loads.len())
+                .rev()
+                .filter(|&j| best.assignment[j] == Some(k))
+                .collect();
+            if mine.len() < 2 {
+                continue;
+            }
+            let to = (k + 1 < stages).then_some(k + 1);
+            let moved = |m: usize| {
+                let mut a = best.assignment.clone();
+                for &j in &mine[..m] {
+                    a[j] = to;
+                }
+                a
+            };
+            let mut tried: Option<(Vec<Option<usize>>, Vec<RowEval>, f64)> = None;
+            let mut runs = 0;
+            let mut all_hold = |m: usize| {
+                let a = moved(m);
+                let (evals, n) = ctx.evaluate_memo(&ctx.scheme(&best.layout, &a), memo);
+                runs += n;
+                let ok = evals.iter().all(|e| e.verdict == Verdict::Holds);
+                if ok {
+                    let objective = ctx.objective(&evals);
+                    if tried.as_ref().is_none_or(|(_, _, o)| objective < *o - 1e-9) {
+                        tried = Some((a, evals, objective));
+                    }
+                }
+                ok
+            };
+            let n = mine.len() - 1;
+            if n <= TRIM_SCAN {
+                // Few loads: try every count (holding need not be monotone in it).
+                for m in 1..=n {
+                    all_hold(m);
+                }
+            } else if all_hold(1) {
+                // Many: the largest count that holds, assuming holding is monotone in it.
+                let (mut good, mut bad) = (1, n + 1);
+                if all_hold(n) {
+                    good = n;
+                    bad = n + 1;
+                }
+                while bad - good > 1 {
+                    let mid = (good + bad) / 2;
+                    if all_hold(mid) {
+                        good = mid;
+                    } else {
+                        bad = mid;
+                    }
+                }
+            }
+            best.runs += runs;
+            if let Some((a, evals, objective)) = tried {
+                if objective < best.objective - 1e-9 {
+                    best.assignment = a;
+                    best.evals = evals;
+                    best.objective = objective;
+                    improved = true;
+                }
+            }
+        }
+        if !improved {
+            break;
+        }
+    }
+    best
 }
 
 /// Keep the strongest requirement per (operating point, stage set, direction).
