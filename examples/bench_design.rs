@@ -2,8 +2,8 @@
 //! bound, and objective against the plain baseline, on the demo plant and on a family of
 //! generated plants (examples/support/synthetic.rs).
 //!
-//! Run: `cargo run --release --example bench_design [-- quick]`. `quick` runs the demo and the
-//! small members only. Targets (issue: design): the demo under 30 s; 200 loads × 50 cases × 10
+//! Run: `cargo run --release --example bench_design [-- quick | N]`. `quick` runs the demo and
+//! the small members only; a number N runs only the N-th generated member (from 0). Targets (issue: design): the demo under 30 s; 200 loads × 50 cases × 10
 //! operating points under 5 minutes; total shed within 10 % of the bound on the demo; never more
 //! than the baseline.
 
@@ -16,6 +16,7 @@ use std::time::Instant;
 
 fn main() {
     let quick = std::env::args().any(|a| a == "quick");
+    let only: Option<usize> = std::env::args().skip(1).find_map(|a| a.parse().ok());
     println!(
         "{:<28} {:>5} {:>5} {:>4} {:>6} {:>8} {:>9} {:>9} {:>7} {:>10} {:>10} {:>7}",
         "instance",
@@ -35,7 +36,9 @@ fn main() {
         nadir::input::load_plant("examples/biorefinery/plant.yaml".as_ref()).expect("demo plant");
     let cases = nadir::input::load_cases("examples/biorefinery/cases.yaml".as_ref(), &plant)
         .expect("demo cases");
-    run("demo (biorefinery)", &plant, &cases);
+    if only.is_none() {
+        run("demo (biorefinery)", &plant, &cases);
+    }
 
     let mut family = vec![
         (10, 5, 1, 3),
@@ -47,7 +50,10 @@ fn main() {
         family.push((200, 20, 5, 8));
         family.push((200, 50, 10, 8));
     }
-    for (loads, cases_n, ops, stages) in family {
+    for (n, (loads, cases_n, ops, stages)) in family.into_iter().enumerate() {
+        if only.is_some_and(|o| o != n) {
+            continue;
+        }
         let g = synthetic::generate(&synthetic::Spec {
             loads,
             cases: cases_n,
@@ -82,13 +88,15 @@ fn print_row(name: &str, plant: &Plant, cases: &CaseSet, rows: usize, wall: f64,
         None => ("none".into(), "-".into()),
     };
     println!(
-        "{:<28} {:>5} {:>5} {:>4} {:>6} {:>8.1} {:>9.2} {:>9.2} {:>7} {:>10.2} {:>10} {:>7}",
+        "{:<28} {:>5} {:>5} {:>4} {:>6} {:>8.1} {:>8} {:>8} {:>9.2} {:>9.2} {:>7} {:>10.2} {:>10} {:>7}",
         name,
         plant.loads.len(),
         cases.cases.len(),
         plant.operating_points.len(),
         rows,
         wall,
+        p.layouts_sized,
+        p.replays,
         shed,
         bound,
         if bound > 1e-9 {

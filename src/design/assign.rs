@@ -1,12 +1,16 @@
 //! The assignment of loads to stages as a mixed-integer linear programme (good_lp with the
 //! pure-Rust microlp solver): the only file that knows good_lp.
 //!
-//! Variables are binaries x[i][k], load i opened by stage k (stages in operating order). Rank
-//! order is kept with O(n) rows rather than O(n²) pairs: each load's stage position
-//! s_i = Σ_k (k+1)·x[i][k] + (S+1)·(1 − Σ_k x[i][k]) (an unshed load counts as stage S+1) must lie
-//! in its rank tier's window [lo_t, hi_t], and windows follow rank: hi_t ≤ lo_{t+1}. Loads of a
-//! tier that no requirement can reach are fixed out before the model is built, so the integer
-//! decisions are only where each tier is cut.
+//! Variables are cumulative binaries y[i][k]: load i is opened by stage k or an earlier one
+//! (stages in operating order), so y[i][k] ≤ y[i][k+1] and the stage's own loads are
+//! y[i][k] − y[i][k−1]. Rank order is kept with O(n·S) rows rather than O(n²·S) pairs: between
+//! adjacent rank tiers, one continuous variable per stage sits below every y of the lower tier
+//! and above every y of the higher tier. An unshed load has y = 0 throughout, so a lower rank is
+//! never left connected while a higher one is shed. With rank order every cumulative set is the
+//! lower tiers in full plus part of one tier, so the integer decisions are only where each tier
+//! is cut; this formulation's linear relaxation says so directly (an earlier one with position
+//! windows per tier was several times slower to solve). Loads past any requirement's reach are
+//! fixed out before the model is built.
 
 use good_lp::{
     constraint, microlp, variable, variables, Expression, Solution, SolverModel, Variable,
@@ -68,49 +72,59 @@ fn solve_with(p: &Problem, reach: Vec<bool>) -> Result<Vec<Option<usize>>, Assig
     let n = p.loads.len();
     let s = p.stages;
     let mut vars = variables!();
-    let mut x: Vec<Vec<Option<Variable>>> = vec![vec![None; s]; n];
-    for (j, row) in x.iter_mut().enumerate() {
-        if reach[j] {
-            for v in row.iter_mut() {
-                *v = Some(vars.add(variable().binary()));
+    // y[j][k]: load j is opened by stage k or an earlier one (cumulative, so y[j][k] ≤ y[j][k+1]).
+    let y: Vec<Option<Vec<Variable>>> = (0..n)
+        .map(|j| reach[j].then(|| (0..s).map(|_| vars.add(variable().binary())).collect()))
+        .collect();
+    // x[j][k] = y[j][k] − y[j][k−1]: load j is opened by stage k itself.
+    let x = |j: usize, k: usize| -> Option<Expression> {
+        y[j].as_ref().map(|yj| {
+            if k == 0 {
+                Expression::from(yj[0])
+            } else {
+                yj[k] - yj[k - 1]
             }
-        }
-    }
-    let mut tiers: Vec<(u32, Vec<usize>)> = Vec::new();
+        })
+    };
+    let mut tiers: Vec<Vec<usize>> = Vec::new();
+    let mut last_rank = None;
     for (j, &(_, rank)) in p.loads.iter().enumerate() {
-        match tiers.last_mut() {
-            Some((r, members)) if *r == rank => members.push(j),
-            _ => tiers.push((rank, vec![j])),
+        if last_rank == Some(rank) {
+            if let Some(t) = tiers.last_mut() {
+                t.push(j);
+            }
+        } else {
+            tiers.push(vec![j]);
+            last_rank = Some(rank);
         }
     }
-    let top = (s + 1) as f64;
-    let windows: Vec<(Variable, Variable)> = tiers
-        .iter()
+    // Between adjacent tiers, at each stage: a continuous c with y(higher tier) ≤ c ≤ y(lower
+    // tier), so that a load of the higher tier is opened by stage k only if every load of the
+    // lower tier is.
+    let between: Vec<Vec<Variable>> = (0..tiers.len().saturating_sub(1))
         .map(|_| {
-            (
-                vars.add(variable().min(1.0).max(top)),
-                vars.add(variable().min(1.0).max(top)),
-            )
+            (0..s)
+                .map(|_| vars.add(variable().min(0.0).max(1.0)))
+                .collect()
         })
         .collect();
 
     let mut objective = Expression::from(0.0);
     for j in 0..n {
         for k in 0..s {
-            if let Some(v) = x[j][k] {
+            if let Some(xe) = x(j, k) {
                 let mut c = p.cost[j][k];
                 if p.change_cost > 0.0 && p.start[j] != Some(k) {
                     c += p.change_cost;
                 }
-                objective += c * v;
+                objective += c * xe;
             }
         }
-        if p.change_cost > 0.0 && p.start[j].is_some() && reach[j] {
-            // Leaving a load unshed that the start sheds is a change too: cost it through the
-            // complement, change_cost · (1 − Σ_k x).
-            objective += p.change_cost;
-            for v in x[j].iter().flatten() {
-                objective -= p.change_cost * *v;
+        if p.change_cost > 0.0 && p.start[j].is_some() {
+            if let Some(yj) = &y[j] {
+                // Leaving unshed a load that the start sheds is a change too.
+                objective += p.change_cost;
+                objective -= p.change_cost * yj[s - 1];
             }
         }
     }
@@ -122,40 +136,39 @@ fn solve_with(p: &Problem, reach: Vec<bool>) -> Result<Vec<Option<usize>>, Assig
         .with_time_limit(TIME_LIMIT_S);
 
     let start: Vec<(Variable, f64)> = (0..n)
-        .flat_map(|j| {
-            let xs = &x[j];
-            (0..s).filter_map(move |k| {
-                xs[k].map(|v| (v, if p.start[j] == Some(k) { 1.0 } else { 0.0 }))
+        .filter_map(|j| y[j].as_ref().map(|yj| (j, yj)))
+        .flat_map(|(j, yj)| {
+            (0..s).map(move |k| {
+                let on = p.start[j].is_some_and(|st| st <= k);
+                (yj[k], if on { 1.0 } else { 0.0 })
             })
         })
         .collect();
     model = model.with_initial_solution(start);
 
-    for j in 0..n {
-        let once: Expression = x[j].iter().flatten().map(|v| Expression::from(*v)).sum();
-        model = model.with(constraint!(once.clone() <= 1.0));
-    }
-    // Rank order through the tier windows.
-    for (t, (_, members)) in tiers.iter().enumerate() {
-        let (lo, hi) = windows[t];
-        model = model.with(constraint!(lo <= hi));
-        if t + 1 < tiers.len() {
-            model = model.with(constraint!(hi <= windows[t + 1].0));
+    for yj in y.iter().flatten() {
+        for k in 1..s {
+            model = model.with(constraint!(yj[k - 1] <= yj[k]));
         }
-        for &j in members {
-            let mut position = Expression::from(top);
-            for (k, v) in x[j].iter().enumerate() {
-                if let Some(v) = v {
-                    position -= (s - k) as f64 * *v;
+    }
+    for (t, c) in between.iter().enumerate() {
+        for k in 0..s {
+            for &i in &tiers[t] {
+                match &y[i] {
+                    Some(yi) => model = model.with(constraint!(c[k] <= yi[k])),
+                    None => model = model.with(constraint!(c[k] <= 0.0)),
                 }
             }
-            model = model.with(constraint!(position.clone() >= lo));
-            model = model.with(constraint!(position <= hi));
+            for &j in &tiers[t + 1] {
+                if let Some(yj) = &y[j] {
+                    model = model.with(constraint!(yj[k] <= c[k]));
+                }
+            }
         }
     }
     // Every stage opens at least one load: an empty stage has nothing to measure with.
     for k in 0..s {
-        let members: Expression = (0..n).filter_map(|j| x[j][k]).map(Expression::from).sum();
+        let members: Expression = (0..n).filter_map(|j| x(j, k)).sum();
         model = model.with(constraint!(members >= 1.0));
     }
     for req in p.requirements {
@@ -166,8 +179,8 @@ fn solve_with(p: &Problem, reach: Vec<bool>) -> Result<Vec<Option<usize>>, Assig
                 continue;
             }
             for &k in &req.stages {
-                if let Some(v) = x[j][k] {
-                    total += mw * v;
+                if let Some(xe) = x(j, k) {
+                    total += mw * xe;
                 }
             }
         }
@@ -187,7 +200,10 @@ fn solve_with(p: &Problem, reach: Vec<bool>) -> Result<Vec<Option<usize>>, Assig
         Err(other) => return Err(AssignError::Solver(other.to_string())),
     };
     Ok((0..n)
-        .map(|j| (0..s).find(|&k| x[j][k].is_some_and(|v| solution.value(v) > 0.5)))
+        .map(|j| {
+            y[j].as_ref()
+                .and_then(|yj| (0..s).find(|&k| solution.value(yj[k]) > 0.5))
+        })
         .collect())
 }
 

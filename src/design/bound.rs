@@ -17,8 +17,10 @@ use serde::Serialize;
 /// Bisection resolution, MW.
 const RESOLUTION_MW: f64 = 0.005;
 
-/// Scan points over the sheddable MW before bisecting.
+/// Scan points over the sheddable MW, and over the plant's load for a shortfall, before
+/// bisecting.
 const SCAN: usize = 40;
+const SHORTFALL_SCAN: usize = 200;
 
 /// The bound of one row.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -222,20 +224,23 @@ fn shortfall(
         .map(|f| f.message.clone())
         .unwrap_or_else(|| "a generator stays too long in an abnormal frequency band".into());
     let load: f64 = plant.operating_points[op].load_mw.iter().sum();
-    let short_mw = if judge_case(&with_extra(load)).0 == Verdict::Holds {
-        let (mut bad, mut good) = (0.0, load);
-        while good - bad > RESOLUTION_MW {
-            let mid = 0.5 * (bad + good);
-            if judge_case(&with_extra(mid)).0 == Verdict::Holds {
-                good = mid;
-            } else {
-                bad = mid;
+    // As for the bound: too little relief fails low, too much overshoots, so scan, then bisect.
+    let holds_with = |extra: f64| judge_case(&with_extra(extra)).0 == Verdict::Holds;
+    let step = load / SHORTFALL_SCAN as f64;
+    let short_mw = (1..=SHORTFALL_SCAN)
+        .find(|&j| holds_with(step * j as f64))
+        .map(|j| {
+            let (mut bad, mut good) = (step * (j - 1) as f64, step * j as f64);
+            while good - bad > RESOLUTION_MW {
+                let mid = 0.5 * (bad + good);
+                if holds_with(mid) {
+                    good = mid;
+                } else {
+                    bad = mid;
+                }
             }
-        }
-        Some(good)
-    } else {
-        None
-    };
+            good
+        });
     Shortfall {
         case: case.id.clone(),
         operating_point: plant.operating_points[op].id.clone(),

@@ -32,6 +32,8 @@ pub const EXHAUSTIVE_LAYOUTS: usize = 64;
 /// Local-search passes from each start, and how many of the best starting layouts to refine.
 const LOCAL_PASSES: usize = 6;
 const LOCAL_STARTS: usize = 3;
+/// Tables trimmed at the end of a heuristic search.
+const FINALISTS: usize = 4;
 
 /// The design's result.
 #[derive(Debug, Clone, Serialize)]
@@ -288,6 +290,9 @@ fn keep_existing(ctx: &Context, existing: &Scheme) -> (Option<Sized>, FromOutcom
 fn search(ctx: &Context, progress: Progress) -> (Option<Sized>, usize, usize) {
     let (start, exhaustive) = starting_layouts(ctx);
     let total = start.len();
+    // Different starts reach the same neighbours: size each layout once.
+    let mut known: std::collections::HashMap<String, Option<Sized>> = Default::default();
+    let key = |l: &Layout| format!("{:?}", l.stages);
     progress(&format!("sizing {total} starting layouts"));
     let sized_start: Vec<Option<Sized>> = start
         .par_iter()
@@ -295,17 +300,35 @@ fn search(ctx: &Context, progress: Progress) -> (Option<Sized>, usize, usize) {
         .collect();
     let mut sized = total;
     let mut replays: usize = sized_start.iter().flatten().map(|s| s.runs).sum();
+    for (l, s) in start.iter().zip(&sized_start) {
+        known.insert(key(l), s.clone());
+    }
     let mut ranked: Vec<Sized> = sized_start.into_iter().flatten().collect();
     // Stable: equal objectives keep the fixed layout order.
     ranked.sort_by(|a, b| a.objective.total_cmp(&b.objective));
     if exhaustive {
-        return (ranked.into_iter().next(), sized, replays);
+        replays -= ranked.iter().map(|s| s.runs).sum::<usize>();
+        let trimmed: Vec<Sized> = ranked
+            .into_par_iter()
+            .map(|s| sizing::trim(ctx, s))
+            .collect();
+        replays += trimmed.iter().map(|s| s.runs).sum::<usize>();
+        let best = trimmed.into_iter().reduce(|a, b| {
+            if b.objective < a.objective - 1e-9 {
+                b
+            } else {
+                a
+            }
+        });
+        return (best, sized, replays);
     }
-    let mut best: Option<Sized> = None;
     for (n, seed) in ranked.into_iter().take(LOCAL_STARTS).enumerate() {
         let mut current = seed;
         for pass in 0..LOCAL_PASSES {
-            let moves = neighbours(ctx, &current.layout);
+            let moves: Vec<Layout> = neighbours(ctx, &current.layout)
+                .into_iter()
+                .filter(|l| !known.contains_key(&key(l)))
+                .collect();
             progress(&format!(
                 "refining start {}, pass {} ({} moves)",
                 n + 1,
@@ -318,6 +341,9 @@ fn search(ctx: &Context, progress: Progress) -> (Option<Sized>, usize, usize) {
                 .map(|layout| sizing::size(ctx, layout, None, 0.0).ok())
                 .collect();
             replays += tried.iter().flatten().map(|s| s.runs).sum::<usize>();
+            for (l, s) in moves.iter().zip(&tried) {
+                known.insert(key(l), s.clone());
+            }
             let Some(better) = tried
                 .into_iter()
                 .flatten()
@@ -328,13 +354,30 @@ fn search(ctx: &Context, progress: Progress) -> (Option<Sized>, usize, usize) {
             };
             current = better;
         }
-        if best
-            .as_ref()
-            .is_none_or(|b| current.objective < b.objective - 1e-9)
-        {
-            best = Some(current);
-        }
     }
+    // The descent that trims excess shed is the costly part of sizing: give it to the best few
+    // layouts found, not to every layout tried.
+    let mut finalists: Vec<Sized> = known.into_values().flatten().collect();
+    finalists.sort_by(|a, b| {
+        a.objective
+            .total_cmp(&b.objective)
+            .then_with(|| format!("{:?}", a.layout.stages).cmp(&format!("{:?}", b.layout.stages)))
+    });
+    finalists.truncate(FINALISTS);
+    progress(&format!("trimming the best {} tables", finalists.len()));
+    replays -= finalists.iter().map(|s| s.runs).sum::<usize>();
+    let trimmed: Vec<Sized> = finalists
+        .into_par_iter()
+        .map(|s| sizing::trim(ctx, s))
+        .collect();
+    replays += trimmed.iter().map(|s| s.runs).sum::<usize>();
+    let best = trimmed.into_iter().reduce(|a, b| {
+        if b.objective < a.objective - 1e-9 {
+            b
+        } else {
+            a
+        }
+    });
     (best, sized, replays)
 }
 

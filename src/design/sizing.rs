@@ -248,11 +248,7 @@ pub fn size(
                 objective,
                 runs,
             };
-            return Ok(if change_cost > 0.0 {
-                sized
-            } else {
-                trim(ctx, sized, &mut memo)
-            });
+            return Ok(sized);
         }
         seen.push(assignment.clone());
         if let Some(&r) = failing.iter().find(|&&r| evals[r].operated.is_empty()) {
@@ -293,16 +289,18 @@ pub fn size(
 }
 
 /// Passes of [`trim`] over the stages, and the stage size up to which it tries every count.
-const TRIM_PASSES: usize = 4;
-const TRIM_SCAN: usize = 12;
+const TRIM_PASSES: usize = 3;
+const TRIM_SCAN: usize = 3;
+const PULL_SCAN: usize = 4;
 
-/// Improve a table that holds every row by moving loads later: for each stage from the last to
-/// the first, the largest number of its highest-ranked loads that can move to the next stage (or,
-/// from the last stage, be left unshed) with every row still holding, kept when the objective
-/// falls. The requirements of the sizing loop only ever grow, and the costs see only the stages
+/// Improve a table that holds every row by moving loads between neighbouring stages: for each
+/// stage from the last to the first, its highest-ranked loads moved to the next stage (or, from
+/// the last stage, left unshed); then for each stage the next stage's lowest-ranked loads pulled
+/// into it. A move is kept when every row still holds and the objective falls. The requirements of the sizing loop only ever grow, and the costs see only the stages
 /// that operated at the last replay, so the loop can stop at a table that sheds more than needed
 /// in its milder rows; this descent removes that excess. Every accepted step holds every row.
-fn trim(ctx: &Context, mut best: Sized, memo: &mut Memo) -> Sized {
+pub fn trim(ctx: &Context, mut best: Sized) -> Sized {
+    let memo = &mut Memo::new(ctx.rows.len());
     let stages = best.layout.stages.len();
     for _ in 0..TRIM_PASSES {
         let mut improved = false;
@@ -338,19 +336,20 @@ fn trim(ctx: &Context, mut best: Sized, memo: &mut Memo) -> Sized {
                 ok
             };
             let n = mine.len() - 1;
-            if n <= TRIM_SCAN {
-                // Few loads: try every count (holding need not be monotone in it).
-                for m in 1..=n {
-                    all_hold(m);
-                }
-            } else if all_hold(1) {
-                // Many: the largest count that holds, assuming holding is monotone in it.
-                let (mut good, mut bad) = (1, n + 1);
+            // The first few counts one by one (holding need not be monotone in the count: one
+            // load moved can leave a row short that two moved let fall through to the next
+            // stage), then the largest count that holds, assuming holding is monotone beyond.
+            let scan = n.min(TRIM_SCAN);
+            let mut last_ok = false;
+            for m in 1..=scan {
+                last_ok = all_hold(m);
+            }
+            if n > scan && last_ok {
+                let (mut good, mut bad) = (scan, n + 1);
                 if all_hold(n) {
                     good = n;
-                    bad = n + 1;
                 }
-                while bad - good > 1 {
+                while bad - good > 1 && good < n {
                     let mid = (good + bad) / 2;
                     if all_hold(mid) {
                         good = mid;
@@ -367,6 +366,44 @@ fn trim(ctx: &Context, mut best: Sized, memo: &mut Memo) -> Sized {
                     best.objective = objective;
                     improved = true;
                 }
+            }
+        }
+        // Pulling the first loads of a stage into the one before can let a milder row stop a
+        // stage earlier and shed less in all.
+        for k in 0..stages.saturating_sub(1) {
+            let next: Vec<usize> = (0..ctx.loads.len())
+                .filter(|&j| best.assignment[j] == Some(k + 1))
+                .collect();
+            if next.len() < 2 {
+                continue;
+            }
+            let n = next.len() - 1;
+            let mut counts: Vec<usize> = (1..=n.min(PULL_SCAN)).collect();
+            counts.extend([n / 4, n / 2, 3 * n / 4, n]);
+            counts.retain(|&m| m >= 1 && m <= n);
+            counts.sort_unstable();
+            counts.dedup();
+            let mut found: Option<(Vec<Option<usize>>, Vec<RowEval>, f64)> = None;
+            for m in counts {
+                let mut a = best.assignment.clone();
+                for &j in &next[..m] {
+                    a[j] = Some(k);
+                }
+                let (evals, r) = ctx.evaluate_memo(&ctx.scheme(&best.layout, &a), memo);
+                best.runs += r;
+                if evals.iter().all(|e| e.verdict == Verdict::Holds) {
+                    let objective = ctx.objective(&evals);
+                    let bar = found.as_ref().map_or(best.objective, |f| f.2);
+                    if objective < bar - 1e-9 {
+                        found = Some((a, evals, objective));
+                    }
+                }
+            }
+            if let Some((a, evals, objective)) = found {
+                best.assignment = a;
+                best.evals = evals;
+                best.objective = objective;
+                improved = true;
             }
         }
         if !improved {
