@@ -7,7 +7,8 @@
 //!    (deficit, initial ROCOF, steady-state frequency) an engineer wants before any simulation.
 //! 3. [`sim`] replays one case at one operating point with a scheme: swing equation per island,
 //!    prime movers from [`dynamics`], relays and protection from [`relay`].
-//! 4. Later layers (verify, design, report) build on `sim`.
+//! 4. [`verify`] judges replays against the criteria; [`design`] proposes a table (settings search,
+//!    simulate–assign loop with a MILP, lower bound, baseline); [`report`] writes plots and HTML.
 //! 5. The `nadir` binary is a thin front end over this library.
 //!
 //! Results from this library can inform protection settings; they must be reviewed by a qualified
