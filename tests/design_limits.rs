@@ -46,11 +46,11 @@ fn demo_plant_block_reads_as_written() {
             lowest_pickup_hz: 48.0,
             pickup_step_hz: 0.1,
             min_delay_s: 0.1,
-            max_delay_s: 0.4,
-            delay_step_s: 0.05,
+            max_delay_s: 1.0,
+            delay_step_s: 0.1,
             breaker_s: 0.08,
             armed_by: vec![BreakerRef::Utility],
-            rocof_supervision_hz_per_s: None,
+            rocof_supervision_hz_per_s: Some(0.5),
             rank_weights: Vec::new(),
         }
     );
