@@ -2,7 +2,7 @@
 """Paste the demo's real output into README.md: the first ```text block after each tour heading.
 
 Run from the repository root after `cargo build --release`; review the diff before committing.
-tests/cli.rs checks that the verify block matches today's output.
+tests/cli.rs checks that the verify block matches today's output; the design block is refreshed\nhere too (its verification matrix cut to the verdict line).
 """
 import re
 import subprocess
@@ -17,7 +17,28 @@ BLOCKS = {
     "### `nadir compare": [N, "compare", P, S, "schemes/biorefinery-proposed.yaml", "--cases", C],
 }
 
+
+def design_block():
+    """The design command and its output, with the verification matrix cut to its verdict."""
+    cmd = [N, "design", P, "--cases", C, "-o", "proposed.yaml", "--force"]
+    out = subprocess.run(cmd, capture_output=True, text=True).stdout
+    subprocess.run(["rm", "-f", "proposed.yaml"])
+    lines = out.split("\n")
+    i = next(k for k, l in enumerate(lines) if l.startswith("Verification of"))
+    verdict = [l for l in lines[i:] if l.startswith("All ") or " FAIL." in l]
+    return "\n".join(
+        ["$ nadir design " + P + " --cases " + C + " -o proposed.yaml"]
+        + [l for l in lines[:i]]
+        + [lines[i], "(the full matrix follows, as `nadir verify` prints it)"]
+        + verdict
+    ).replace("\n\nVerification of", "\nVerification of")
+
+
 text = open("README.md", encoding="utf-8").read()
+start = text.index("### `nadir design")
+fence = text.index("```text\n", start) + len("```text\n")
+end = text.index("\n```", fence)
+text = text[:fence] + design_block() + text[end:]
 for heading, cmd in BLOCKS.items():
     out = subprocess.run(cmd, capture_output=True, text=True).stdout.rstrip("\n")
     start = text.index(heading)
