@@ -5,9 +5,8 @@
 
 use super::check::{finish, fmt};
 use super::{load, Outcome};
-use anyhow::bail;
 use nadir::design::{self, DesignError, FromOutcome, Proposal, Source};
-use nadir::report::write::{write_atomic, Overwrite};
+use nadir::report::write::write_atomic;
 use nadir::verify::audit::{audit, AuditRules};
 use nadir::verify::matrix::{self, VerifyConfig};
 use std::io::IsTerminal;
@@ -36,17 +35,7 @@ pub struct DesignArgs {
 }
 
 pub fn run(args: DesignArgs) -> anyhow::Result<Outcome> {
-    let overwrite = if args.force {
-        Overwrite::Allow
-    } else {
-        Overwrite::Refuse
-    };
-    if overwrite == Overwrite::Refuse && args.output.exists() {
-        bail!(
-            "{}: already exists; pass --force to replace it, or choose another -o",
-            args.output.display()
-        );
-    }
+    let overwrite = super::overwrite_policy(&args.output, args.force)?;
     let plant = load::plant(&args.plant)?;
     let cases = load::cases(&args.cases, &plant)?;
     let existing = match &args.from {

@@ -78,6 +78,25 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
     }
 }
 
+/// How a verb that writes a file may treat an existing one, checked before minutes of work
+/// (`write_atomic` checks again at the end).
+pub fn overwrite_policy(
+    output: &std::path::Path,
+    force: bool,
+) -> anyhow::Result<nadir::report::write::Overwrite> {
+    use nadir::report::write::Overwrite;
+    if force {
+        return Ok(Overwrite::Allow);
+    }
+    if output.exists() {
+        anyhow::bail!(
+            "{}: already exists; pass --force to replace it, or choose another -o",
+            output.display()
+        );
+    }
+    Ok(Overwrite::Refuse)
+}
+
 /// `nadir: ` and the cause chain joined by `: `; input diagnostics each on their own line.
 pub fn render_error(err: &anyhow::Error) -> String {
     let mut out = String::from("nadir: ");

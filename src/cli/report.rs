@@ -9,7 +9,7 @@ use anyhow::{bail, Context};
 use nadir::model::{CaseSet, Plant, Scheme};
 use nadir::report::html::{self, CasePlot, InputFile, ReportInputs};
 use nadir::report::svg::FrequencyPlot;
-use nadir::report::write::{write_atomic, Overwrite};
+use nadir::report::write::write_atomic;
 use nadir::verify::audit::{self, AuditRules};
 use nadir::verify::matrix::{self, sim_config_for, VerifyConfig};
 use std::path::{Path, PathBuf};
@@ -36,18 +36,7 @@ pub struct ReportArgs {
 }
 
 pub fn run(args: ReportArgs) -> anyhow::Result<Outcome> {
-    let overwrite = if args.force {
-        Overwrite::Allow
-    } else {
-        Overwrite::Refuse
-    };
-    // Refuse before minutes of simulation, not after; write_atomic checks again at the end.
-    if overwrite == Overwrite::Refuse && args.output.exists() {
-        bail!(
-            "{}: already exists; pass --force to replace it",
-            args.output.display()
-        );
-    }
+    let overwrite = super::overwrite_policy(&args.output, args.force)?;
     let (plant_text, plant_file) = read_input("plant", &args.plant)?;
     let plant = nadir::input::parse_plant(&plant_text, &args.plant.display().to_string())
         .map_err(nadir::Error::Input)

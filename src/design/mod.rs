@@ -307,20 +307,8 @@ fn search(ctx: &Context, progress: Progress) -> (Option<Sized>, usize, usize) {
     // Stable: equal objectives keep the fixed layout order.
     ranked.sort_by(|a, b| a.objective.total_cmp(&b.objective));
     if exhaustive {
-        replays -= ranked.iter().map(|s| s.runs).sum::<usize>();
-        let trimmed: Vec<Sized> = ranked
-            .into_par_iter()
-            .map(|s| sizing::trim(ctx, s))
-            .collect();
-        replays += trimmed.iter().map(|s| s.runs).sum::<usize>();
-        let best = trimmed.into_iter().reduce(|a, b| {
-            if b.objective < a.objective - 1e-9 {
-                b
-            } else {
-                a
-            }
-        });
-        return (best, sized, replays);
+        let (best, extra) = trim_all(ctx, ranked);
+        return (best, sized, replays + extra);
     }
     for (n, seed) in ranked.into_iter().take(LOCAL_STARTS).enumerate() {
         let mut current = seed;
@@ -365,12 +353,19 @@ fn search(ctx: &Context, progress: Progress) -> (Option<Sized>, usize, usize) {
     });
     finalists.truncate(FINALISTS);
     progress(&format!("trimming the best {} tables", finalists.len()));
-    replays -= finalists.iter().map(|s| s.runs).sum::<usize>();
-    let trimmed: Vec<Sized> = finalists
+    let (best, extra) = trim_all(ctx, finalists);
+    (best, sized, replays + extra)
+}
+
+/// Trim every table (in parallel) and keep the one that sheds least, the first on a tie; with
+/// the replays the trimming added.
+fn trim_all(ctx: &Context, tables: Vec<Sized>) -> (Option<Sized>, usize) {
+    let before: usize = tables.iter().map(|s| s.runs).sum();
+    let trimmed: Vec<Sized> = tables
         .into_par_iter()
         .map(|s| sizing::trim(ctx, s))
         .collect();
-    replays += trimmed.iter().map(|s| s.runs).sum::<usize>();
+    let after: usize = trimmed.iter().map(|s| s.runs).sum();
     let best = trimmed.into_iter().reduce(|a, b| {
         if b.objective < a.objective - 1e-9 {
             b
@@ -378,7 +373,7 @@ fn search(ctx: &Context, progress: Progress) -> (Option<Sized>, usize, usize) {
             a
         }
     });
-    (best, sized, replays)
+    (best, after - before)
 }
 
 /// Breakers that may arm a stage and that some case opens.
