@@ -1,31 +1,10 @@
 //! The `nadir` binary run for real, through one helper: exit codes, tables, errors with file and
 //! line, schema output, every shipped example, and docs/files.md against the schema.
 
+mod binary;
+
+use binary::{nadir, root};
 use std::path::{Path, PathBuf};
-use std::process::Command;
-
-struct Run {
-    code: i32,
-    stdout: String,
-    stderr: String,
-}
-
-fn root() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-}
-
-fn nadir(args: &[&str]) -> Run {
-    let out = Command::new(env!("CARGO_BIN_EXE_nadir"))
-        .args(args)
-        .current_dir(root())
-        .output()
-        .expect("the nadir binary runs");
-    Run {
-        code: out.status.code().unwrap_or(-1),
-        stdout: String::from_utf8_lossy(&out.stdout).into_owned(),
-        stderr: String::from_utf8_lossy(&out.stderr).into_owned(),
-    }
-}
 
 fn scratch(name: &str, text: &str) -> PathBuf {
     let dir = Path::new(env!("CARGO_TARGET_TMPDIR")).join("cli");

@@ -2,31 +2,10 @@
 //! an existing output file is refused (exit 2, left byte for byte) unless `--force`, bad input is
 //! exit 2 with file and line, and a case no table can hold is exit 1 with its shortfall and no file.
 
+mod binary;
+
+use binary::{nadir, root};
 use std::path::{Path, PathBuf};
-use std::process::Command;
-
-struct Run {
-    code: i32,
-    stdout: String,
-    stderr: String,
-}
-
-fn root() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-}
-
-fn nadir(args: &[&str]) -> Run {
-    let out = Command::new(env!("CARGO_BIN_EXE_nadir"))
-        .args(args)
-        .current_dir(root())
-        .output()
-        .expect("the nadir binary runs");
-    Run {
-        code: out.status.code().unwrap_or(-1),
-        stdout: String::from_utf8_lossy(&out.stdout).into_owned(),
-        stderr: String::from_utf8_lossy(&out.stderr).into_owned(),
-    }
-}
 
 fn scratch_dir() -> PathBuf {
     let dir = Path::new(env!("CARGO_TARGET_TMPDIR")).join("design_cli");

@@ -1,12 +1,14 @@
 //! The verifier against cases whose answer is known by hand, and the verify, audit, compare and
 //! replay verbs run for real on the demo.
 
+mod binary;
+
+use binary::nadir;
 use nadir::input::{parse_cases, parse_plant, parse_scheme};
 use nadir::sim::SimConfig;
 use nadir::verify::margins::{search, Margin};
 use nadir::verify::matrix::sim_config_for;
 use std::path::PathBuf;
-use std::process::Command;
 
 /// One machine with fixed output (no governor) and one 100 MW load with frequency exponent 1, so
 /// load damping is D = 100 MW per pu exactly. A constant-power load step ΔP settles the island at
@@ -60,25 +62,6 @@ fn disturbance_margin_matches_the_hand_computed_threshold() {
         (e - 40.0).abs() <= 1.01,
         "model error {e} %, expected 40 % within 1 %"
     );
-}
-
-struct Out {
-    code: i32,
-    stdout: String,
-    stderr: String,
-}
-
-fn nadir(args: &[&str]) -> Out {
-    let out = Command::new(env!("CARGO_BIN_EXE_nadir"))
-        .args(args)
-        .current_dir(env!("CARGO_MANIFEST_DIR"))
-        .output()
-        .expect("the nadir binary runs");
-    Out {
-        code: out.status.code().unwrap_or(-1),
-        stdout: String::from_utf8_lossy(&out.stdout).into_owned(),
-        stderr: String::from_utf8_lossy(&out.stderr).into_owned(),
-    }
 }
 
 const PLANT_FILE: &str = "examples/biorefinery/plant.yaml";
