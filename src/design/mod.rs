@@ -151,9 +151,7 @@ pub fn design(
         }
     }
     let Some((best, source)) = chosen else {
-        return Err(DesignError::NoLayout(
-            "no layout within the design limits holds every case; widen the pickup band, allow more stages or an armed stage, or shorten the delays".into(),
-        ));
+        return Err(DesignError::NoLayout(why_no_layout(&ctx)));
     };
     let scheme = ctx.scheme(&best.layout, &best.assignment);
     let rows = ctx
@@ -185,6 +183,66 @@ pub fn design(
         layouts_sized,
         replays: replays + best.runs,
     })
+}
+
+/// Why no layout holds: the rows that still fail when every sheddable load is opened as early as
+/// the limits allow (by an armed stage where one may be armed, else at the highest pickup with the
+/// shortest delay), with what fails.
+fn why_no_layout(ctx: &Context) -> String {
+    let limits = &ctx.plant.design;
+    let armed: Vec<(BreakerRef, f64)> = armable(ctx)
+        .into_iter()
+        .map(|b| (b, limits.min_delay_s))
+        .collect();
+    let layout = layout::build(
+        limits,
+        &armed,
+        &[(limits.highest_pickup_hz, limits.min_delay_s, None)],
+    );
+    let everything: Vec<Option<usize>> = vec![Some(0); ctx.loads.len()];
+    let scheme = ctx.scheme(&layout, &everything);
+    let config = crate::verify::matrix::VerifyConfig {
+        sim: ctx.sim,
+        margins: false,
+    };
+    let failing: Vec<String> = ctx
+        .rows
+        .par_iter()
+        .map(|&(ci, op)| {
+            let row = crate::verify::matrix::verify_one(
+                ctx.plant,
+                &ctx.cases.cases[ci],
+                ci,
+                op,
+                &scheme,
+                &config,
+            );
+            (!row.pass).then(|| {
+                let what = row
+                    .failures
+                    .first()
+                    .map(|f| f.message.clone())
+                    .unwrap_or_default();
+                format!("{} at {} ({what})", row.case, row.operating_point)
+            })
+        })
+        .collect::<Vec<_>>()
+        .into_iter()
+        .flatten()
+        .collect();
+    let mut out = String::from(
+        "no layout within the design limits holds every case; the ideal instant shed can, so the stages act too late or in the wrong amount",
+    );
+    if !failing.is_empty() {
+        out.push_str(&format!(
+            ". Opening every sheddable load as early as the limits allow still fails: {}",
+            failing.join("; ")
+        ));
+    }
+    out.push_str(
+        ". Widen the pickup band, allow more stages or an armed stage, or shorten the delays",
+    );
+    out
 }
 
 /// The lower bound of every row, or every row that no table can hold.
