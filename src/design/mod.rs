@@ -363,7 +363,7 @@ fn search(ctx: &Context, progress: Progress) -> (Option<Sized>, usize, usize) {
     }
     let mut ranked: Vec<Sized> = sized_start.into_iter().flatten().collect();
     // Stable: equal objectives keep the fixed layout order.
-    ranked.sort_by(|a, b| a.objective.total_cmp(&b.objective));
+    ranked.sort_by(better_first);
     if exhaustive {
         let (best, extra) = trim_all(ctx, ranked);
         return (best, sized, replays + extra);
@@ -393,8 +393,8 @@ fn search(ctx: &Context, progress: Progress) -> (Option<Sized>, usize, usize) {
             let Some(better) = tried
                 .into_iter()
                 .flatten()
-                .filter(|s| s.objective < current.objective - 1e-9)
-                .min_by(|a, b| a.objective.total_cmp(&b.objective))
+                .filter(|s| better_first(s, &current) == std::cmp::Ordering::Less)
+                .min_by(better_first)
             else {
                 break;
             };
@@ -405,14 +405,23 @@ fn search(ctx: &Context, progress: Progress) -> (Option<Sized>, usize, usize) {
     // layouts found, not to every layout tried.
     let mut finalists: Vec<Sized> = known.into_values().flatten().collect();
     finalists.sort_by(|a, b| {
-        a.objective
-            .total_cmp(&b.objective)
+        better_first(a, b)
             .then_with(|| format!("{:?}", a.layout.stages).cmp(&format!("{:?}", b.layout.stages)))
     });
     finalists.truncate(FINALISTS);
     progress(&format!("trimming the best {} tables", finalists.len()));
     let (best, extra) = trim_all(ctx, finalists);
     (best, sized, replays + extra)
+}
+
+/// Order of preference: less objective (beyond rounding), then fewer stages — a stage that no
+/// case operates costs nothing in the objective but is one more setting to maintain.
+fn better_first(a: &Sized, b: &Sized) -> std::cmp::Ordering {
+    if (a.objective - b.objective).abs() > 1e-9 {
+        a.objective.total_cmp(&b.objective)
+    } else {
+        a.layout.stages.len().cmp(&b.layout.stages.len())
+    }
 }
 
 /// Trim every table (in parallel) and keep the one that sheds least, the first on a tie; with
@@ -425,7 +434,7 @@ fn trim_all(ctx: &Context, tables: Vec<Sized>) -> (Option<Sized>, usize) {
         .collect();
     let after: usize = trimmed.iter().map(|s| s.runs).sum();
     let best = trimmed.into_iter().reduce(|a, b| {
-        if b.objective < a.objective - 1e-9 {
+        if better_first(&b, &a) == std::cmp::Ordering::Less {
             b
         } else {
             a
