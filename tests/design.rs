@@ -133,7 +133,7 @@ fn a_new_process_line_moves_few_loads_and_keeps_the_settings() {
             old != new
         })
         .count();
-    assert!(moved >= 1 && moved <= 3, "{moved} loads moved");
+    assert!((1..=3).contains(&moved), "{moved} loads moved");
     let after = verify(&plant, &cases, &p.scheme, &VerifyConfig::default(), &|| {});
     assert!(after.all_pass());
     assert!(audit(&plant, &p.scheme, &AuditRules::for_plant(&plant))

@@ -125,7 +125,7 @@ impl<'a> Context<'a> {
             .map(|m| {
                 m.as_ref()
                     .map(|(_, e)| e.clone())
-                    .unwrap_or_else(|| unreachable_eval())
+                    .unwrap_or_else(unreachable_eval)
             })
             .collect();
         (evals, stale.len())
