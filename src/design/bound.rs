@@ -89,7 +89,7 @@ pub fn bound(plant: &Plant, case: &Case, op: usize, cfg: &SimConfig) -> Result<B
     let mut times: Vec<f64> = case.events.iter().map(|e| e.at_s).collect();
     times.dedup();
     if times.is_empty() {
-        times.push(super::disturbance_start(case));
+        times.push(crate::verify::matrix::disturbance_span(case).0);
     }
     // Relief (as fractions of the sheddable MW) placed at each event time so far.
     let mut placed: Vec<(f64, f64)> = Vec::new();

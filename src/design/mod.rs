@@ -17,7 +17,7 @@ pub mod evaluate;
 pub mod layout;
 pub mod sizing;
 
-use crate::model::{Action, BreakerRef, Case, CaseSet, Plant, Scheme, StageTrigger};
+use crate::model::{Action, BreakerRef, CaseSet, Plant, Scheme, StageTrigger};
 use bound::{Bound, Shortfall};
 use evaluate::{design_sim_config, Verdict};
 use layout::Layout;
@@ -296,20 +296,6 @@ pub fn bounds(ctx: &Context) -> Result<Vec<Bound>, DesignError> {
 
 fn shed_mw(ctx: &Context, op: usize, loads: &[usize]) -> f64 {
     loads.iter().map(|&i| ctx.mw[op][i]).sum()
-}
-
-/// When the disturbance of a case starts: its first event, or the utility profile leaving
-/// nominal.
-pub fn disturbance_start(case: &Case) -> f64 {
-    let profile = case
-        .utility_profile
-        .windows(2)
-        .find(|w| w[1].1 != w[0].1)
-        .map(|w| w[0].0);
-    match (case.events.first().map(|e| e.at_s), profile) {
-        (Some(a), Some(b)) => a.min(b),
-        (a, b) => a.or(b).unwrap_or(0.0),
-    }
 }
 
 /// Keep the existing table if it holds; else keep its settings and move as few loads as

@@ -236,7 +236,7 @@ pub fn observe(run: &Run, case: &Case, criteria: &Criteria) -> Observed {
 
 /// When the disturbance starts and when its last part happens: the case's events, and for a
 /// utility frequency profile the moment it first leaves nominal.
-fn disturbance_span(case: &Case) -> (f64, f64) {
+pub fn disturbance_span(case: &Case) -> (f64, f64) {
     let profile_start = case
         .utility_profile
         .windows(2)
