@@ -52,9 +52,9 @@ fn check(xs: &[CrossCase], tag: &str) {
                 return;
             }
             panic!(
-                "scipy cross-check cannot run: {why}. Install the pinned packages with \
-                 `python3 -m pip install -r tests/scipy_reference/requirements.txt`, or set \
-                 NADIR_SKIP_SCIPY=1 to skip this test explicitly"
+                "scipy cross-check cannot run: {why}. Run the tests with `scripts/test.sh`, which \
+                 prepares the pinned packages in .venv-reference/, or set NADIR_PYTHON to a python \
+                 with them, or set NADIR_SKIP_SCIPY=1 to skip this test explicitly"
             );
         }
         Err(ReferenceError::Failed(why)) => panic!("{why}"),

@@ -720,9 +720,15 @@ pub fn script_dir() -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/scipy_reference")
 }
 
+/// The Python that runs the reference: `NADIR_PYTHON` when set (scripts/test.sh points it at the
+/// virtual environment it prepares), otherwise `python3` from the PATH.
+pub fn python() -> String {
+    std::env::var("NADIR_PYTHON").unwrap_or_else(|_| "python3".to_string())
+}
+
 /// Write the cases, run `python3 reference.py in out`, read the results.
 pub fn run_reference(xs: &[CrossCase], tag: &str) -> Result<ReferenceOutput, ReferenceError> {
-    let probe = Command::new("python3")
+    let probe = Command::new(python())
         .args([
             "-c",
             "import scipy, numpy; print(scipy.__version__, numpy.__version__)",
@@ -748,7 +754,7 @@ pub fn run_reference(xs: &[CrossCase], tag: &str) -> Result<ReferenceOutput, Ref
     let output = dir.join("results.json");
     let doc = json!({"cases": xs.iter().map(to_json).collect::<Vec<_>>()});
     std::fs::write(&input, doc.to_string()).map_err(|e| ReferenceError::Failed(e.to_string()))?;
-    let o = Command::new("python3")
+    let o = Command::new(python())
         .arg(script_dir().join("reference.py"))
         .arg(&input)
         .arg(&output)
