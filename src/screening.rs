@@ -185,6 +185,14 @@ pub enum SteadyState {
         /// Governor headroom plus load relief at the floor, MW.
         available_mw: f64,
     },
+    /// A surplus that governors lowering output and load relief cannot take up before the
+    /// over-speed level (as far above nominal as the collapse floor is below it): frequency
+    /// rises past it.
+    RisesPast {
+        ceiling_hz: f64,
+        /// Governor lowering room plus load relief at the over-speed level, MW.
+        available_mw: f64,
+    },
     /// No machine runs in the island.
     NoGeneration,
 }
@@ -479,9 +487,17 @@ pub fn steady_state(
     } else {
         if total_at(max_dev_pu) < remaining {
             let iso_room: f64 = units.iter().filter(|u| u.isochronous).map(room).sum();
-            return SteadyState::NotHeld {
-                floor_hz,
-                available_mw: sign * (total_at(max_dev_pu) + iso_room),
+            let available_mw = total_at(max_dev_pu) + iso_room;
+            return if sign > 0.0 {
+                SteadyState::NotHeld {
+                    floor_hz,
+                    available_mw,
+                }
+            } else {
+                SteadyState::RisesPast {
+                    ceiling_hz: (2.0 - COLLAPSE_FLOOR_PU) * nominal_hz,
+                    available_mw,
+                }
             };
         }
         isochronous = None;
@@ -1011,6 +1027,26 @@ mod tests {
             panic!("held expected");
         };
         assert!((delta_hz + 0.011 * 50.0).abs() < 1e-9);
+    }
+
+    /// A surplus larger than the lowering room and load relief at the over-speed level rises past
+    /// it, named as a rise (the mirror of the collapse floor), not as a floor it falls below.
+    #[test]
+    fn surplus_beyond_reach_rises_past_the_ceiling() {
+        // One droop machine, gain 100 MW/pu, lowering room 5 MW; 20 MW of surplus, no load
+        // relief: 5 MW taken up at most, so frequency rises past 1.15 × 50 = 57.5 Hz.
+        let mut u = unit("a", 100.0, 10.0);
+        u.lower_mw = 5.0;
+        match steady_state(&[u], 0.0, -20.0, 50.0) {
+            SteadyState::RisesPast {
+                ceiling_hz,
+                available_mw,
+            } => {
+                assert!((ceiling_hz - 57.5).abs() < 1e-12);
+                assert!((available_mw - 5.0).abs() < 1e-9);
+            }
+            other => panic!("rises past expected, got {other:?}"),
+        }
     }
 
     #[test]

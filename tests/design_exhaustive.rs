@@ -544,10 +544,12 @@ fn describe(plant: &Plant, cases: &CaseSet, scheme: &Scheme) -> String {
         .iter()
         .map(|r| {
             format!(
-                "    {} at {}: nadir {:.3} Hz, stages [{}]",
+                "    {} at {}: nadir {}, stages [{}]",
                 r.case,
                 r.operating_point,
-                r.observed.nadir_hz,
+                r.observed
+                    .as_ref()
+                    .map_or("stopped".to_string(), |o| format!("{:.3} Hz", o.nadir_hz)),
                 r.stages_operated.join(" ")
             )
         })

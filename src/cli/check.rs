@@ -223,7 +223,9 @@ fn island_cells(i: &IslandResponse) -> Vec<String> {
     let steady = match &i.steady_state {
         SteadyState::Held { hz, .. } => fmt(*hz, 3),
         SteadyState::HeldByUtility => "nominal".into(),
-        SteadyState::NotHeld { .. } | SteadyState::NoGeneration => "-".into(),
+        SteadyState::NotHeld { .. } | SteadyState::RisesPast { .. } | SteadyState::NoGeneration => {
+            "-".into()
+        }
     };
     vec![
         island_name(&i.sections, i.on_utility),
@@ -255,6 +257,14 @@ fn steady_note(s: &SteadyState) -> String {
         } => format!(
             "no governor can hold it above {} Hz (headroom + relief {} MW)",
             fmt(*floor_hz, 1),
+            fmt(*available_mw, 2)
+        ),
+        SteadyState::RisesPast {
+            ceiling_hz,
+            available_mw,
+        } => format!(
+            "rises to above {} Hz: governors lowering output and load relief take up only {} MW there",
+            fmt(*ceiling_hz, 1),
             fmt(*available_mw, 2)
         ),
         SteadyState::NoGeneration => "no machine running".into(),

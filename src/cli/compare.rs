@@ -2,7 +2,7 @@
 //! verification of both; exit 1 when the new table fails a case the old one held.
 
 use super::check::{finish, fmt};
-use super::verify::{margin_cell, progress_bar, CAUTION};
+use super::verify::{margin_cell, progress_bar, CAUTION, NO_FIGURE, STOPPED};
 use super::{load, Outcome};
 use nadir::verify::compare::{self, Change};
 use nadir::verify::matrix::{self, VerifyConfig};
@@ -96,6 +96,11 @@ fn render(c: &compare::Comparison, old: &str, new: &str) -> String {
             Change::NowFails => "NOW FAILS",
             Change::NowHolds => "now holds",
         };
+        let nadir = |r: &matrix::Row| {
+            r.observed
+                .as_ref()
+                .map_or_else(|| STOPPED.to_string(), |ob| fmt(ob.nadir_hz, 2))
+        };
         let dist = |r: &matrix::Row| {
             r.margins
                 .map(|m| margin_cell(&m.disturbance_factor, "×"))
@@ -105,12 +110,11 @@ fn render(c: &compare::Comparison, old: &str, new: &str) -> String {
             n.case.clone(),
             n.operating_point.clone(),
             outcome.to_string(),
-            format!(
-                "{} → {}",
-                fmt(o.observed.nadir_hz, 2),
-                fmt(n.observed.nadir_hz, 2)
-            ),
-            fmt(n.observed.nadir_hz - o.observed.nadir_hz, 3),
+            format!("{} → {}", nadir(o), nadir(n)),
+            match (&o.observed, &n.observed) {
+                (Some(a), Some(b)) => fmt(b.nadir_hz - a.nadir_hz, 3),
+                _ => NO_FIGURE.into(),
+            },
             format!("{} → {}", fmt(o.shed_mw, 2), fmt(n.shed_mw, 2)),
             format!("{} → {}", dist(o), dist(n)),
             n.failures

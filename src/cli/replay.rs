@@ -92,7 +92,14 @@ pub fn run(args: ReplayArgs) -> anyhow::Result<Outcome> {
     for e in &run.events {
         out.push_str(&format!("  {:>9.4} s  {}\n", e.at_s, describe(&e.what)));
     }
-    out.push_str(&format!(
+    if let Some(status) = run.stop.status() {
+        // No figure from a broken run: the status instead of nadir, peak, ROCOF and final.
+        out.push_str(&format!(
+            "\nSummary\n  stopped early    {status}\n  figures          none from a run that stopped early\n  shed             {} MW opened before the stop\n",
+            fmt(run.shed_mw, 2),
+        ));
+    } else {
+        out.push_str(&format!(
         "\nSummary\n  nadir            {} Hz at {} s\n  peak after nadir {} Hz at {} s\n  max ROCOF        {} Hz/s over {} s\n  final            {} Hz at {} s\n  recovered above  {} Hz: {}\n  shed             {} MW ({} % of {} MW)\n",
         fmt(run.nadir_hz, 3),
         fmt(run.nadir_at_s, 3),
@@ -108,6 +115,7 @@ pub fn run(args: ReplayArgs) -> anyhow::Result<Outcome> {
         fmt(percent(run.shed_mw, point.load_mw.iter().sum()), 1),
         fmt(point.load_mw.iter().sum(), 2),
     ));
+    }
     if failures.is_empty() {
         out.push_str("\nResult: every criterion holds.\n");
     } else {
@@ -218,6 +226,12 @@ pub fn describe(what: &EventKind) -> String {
         ),
         EventKind::Collapse { island } => {
             format!("island {} COLLAPSES below the floor", island + 1)
+        }
+        EventKind::Overspeed { island } => {
+            format!(
+                "island {} OVER SPEED above the over-speed level",
+                island + 1
+            )
         }
         EventKind::Blackout { island } => {
             format!("island {} BLACKOUT: no generator left", island + 1)

@@ -5,7 +5,7 @@
 //! Each input file is read once: the bytes that are hashed for the report are the bytes parsed.
 
 use super::Outcome;
-use anyhow::{bail, Context};
+use anyhow::Context;
 use nadir::model::{CaseSet, Plant, Scheme};
 use nadir::report::html::{self, CasePlot, InputFile, ReportInputs};
 use nadir::report::svg::FrequencyPlot;
@@ -95,26 +95,12 @@ pub fn run(args: ReportArgs) -> anyhow::Result<Outcome> {
     })
 }
 
-/// Read an input file once, capped like the loaders, and identify it by its bytes.
+/// Read an input file once, under the size limit in force like the loaders
+/// (`NADIR_MAX_FILE_BYTES`), and identify it by its bytes.
 fn read_input(role: &str, path: &Path) -> anyhow::Result<(String, InputFile)> {
-    use std::io::Read;
-    let mut bytes = Vec::new();
-    std::fs::File::open(path)
-        .and_then(|f| {
-            f.take(nadir::input::MAX_FILE_BYTES + 1)
-                .read_to_end(&mut bytes)
-        })
+    let (text, name) = nadir::input::read_text(path)
         .with_context(|| format!("reading {role} file {}", path.display()))?;
-    if bytes.len() as u64 > nadir::input::MAX_FILE_BYTES {
-        bail!(
-            "reading {role} file {}: more than the {} bytes an input file may have",
-            path.display(),
-            nadir::input::MAX_FILE_BYTES
-        );
-    }
-    let file = InputFile::from_bytes(role, &path.display().to_string(), &bytes);
-    let text = String::from_utf8(bytes)
-        .with_context(|| format!("reading {role} file {}: not UTF-8 text", path.display()))?;
+    let file = InputFile::from_bytes(role, &name, text.as_bytes());
     Ok((text, file))
 }
 

@@ -86,6 +86,7 @@ pub fn progress_bar(total: u64) -> indicatif::ProgressBar {
 }
 
 pub use nadir::report::html::margin_cell;
+pub use nadir::report::{NO_FIGURE, STOPPED};
 
 /// The matrix as a table with a verdict line and the caution.
 pub fn render_table(m: &Matrix, plant: &str, scheme: &str) -> String {
@@ -115,18 +116,35 @@ pub fn render_table(m: &Matrix, plant: &str, scheme: &str) -> String {
             ),
             None => ("-".into(), "-".into()),
         };
+        // A run that stopped early has no figures: its status is the failed criterion.
+        let figures = match &r.observed {
+            Some(o) => [
+                fmt(o.nadir_hz, 2),
+                fmt(o.nadir_at_s, 2),
+                fmt(o.max_hz, 2),
+                fmt(o.max_rocof_hz_per_s, 2),
+                o.recovered_at_s
+                    .map(|t| fmt(t, 2))
+                    .unwrap_or_else(|| "never".into()),
+            ],
+            None => [
+                STOPPED.into(),
+                NO_FIGURE.into(),
+                NO_FIGURE.into(),
+                NO_FIGURE.into(),
+                NO_FIGURE.into(),
+            ],
+        };
+        let [nadir, at, peak, rocof, recovered] = figures;
         b.push_record([
             r.case.clone(),
             r.operating_point.clone(),
             if r.pass { "pass".into() } else { "FAIL".into() },
-            fmt(r.observed.nadir_hz, 2),
-            fmt(r.observed.nadir_at_s, 2),
-            fmt(r.observed.max_hz, 2),
-            fmt(r.observed.max_rocof_hz_per_s, 2),
-            r.observed
-                .recovered_at_s
-                .map(|t| fmt(t, 2))
-                .unwrap_or_else(|| "never".into()),
+            nadir,
+            at,
+            peak,
+            rocof,
+            recovered,
             fmt(r.shed_mw, 2),
             fmt(r.shed_pct, 1),
             if r.stages_operated.is_empty() {
@@ -194,19 +212,19 @@ fn render_csv(m: &Matrix) -> anyhow::Result<String> {
                 .map(|v| format!("{v:.3}"))
                 .unwrap_or_default()
         };
+        // A run that stopped early leaves its figure cells empty; `failures` gives its status.
+        let o = r.observed.as_ref();
+        let figure = |v: Option<f64>| v.map(|v| format!("{v:.4}")).unwrap_or_default();
         w.write_record([
             r.case.clone(),
             r.operating_point.clone(),
             r.pass.to_string(),
-            format!("{:.4}", r.observed.nadir_hz),
-            format!("{:.4}", r.observed.nadir_at_s),
-            format!("{:.4}", r.observed.max_hz),
-            format!("{:.4}", r.observed.max_rocof_hz_per_s),
-            r.observed
-                .recovered_at_s
-                .map(|t| format!("{t:.4}"))
-                .unwrap_or_default(),
-            format!("{:.4}", r.final_hz),
+            figure(o.map(|o| o.nadir_hz)),
+            figure(o.map(|o| o.nadir_at_s)),
+            figure(o.map(|o| o.max_hz)),
+            figure(o.map(|o| o.max_rocof_hz_per_s)),
+            figure(o.and_then(|o| o.recovered_at_s)),
+            figure(r.final_hz),
             format!("{:.4}", r.shed_mw),
             format!("{:.2}", r.shed_pct),
             r.stages_operated.join(" "),

@@ -6,7 +6,7 @@
 //! search, so that the design loop stays cheap; the final table is still verified in full.
 
 use crate::model::{Case, Plant, Scheme};
-use crate::sim::{self, EventKind, Run, SimConfig};
+use crate::sim::{self, EventKind, Run, SimConfig, StopReason};
 use crate::verify::criteria::judge;
 use crate::verify::margins::{grow_disturbance, weaken_model};
 use crate::verify::matrix::{observe, sim_config_for};
@@ -95,10 +95,15 @@ pub fn verdict_of(plant: &Plant, case: &Case, op: usize, run: &Run) -> Verdict {
             .is_some_and(|(_, hi)| hi > c.settle_high_hz),
         _ => false,
     });
-    let too_low = seen.abnormal_end.is_some()
+    // Over speed: the table (or the case) left far too little load; any other early stop fails
+    // low.
+    let overspeed = matches!(run.stop, StopReason::Overspeed { .. });
+    let too_high = too_high || overspeed;
+    let too_low = (seen.abnormal_end.is_some() && !overspeed)
         || seen.nadir_hz < c.min_hz
         || failures.iter().any(|f| match f.criterion {
-            "recover" | "run" => true,
+            "recover" => true,
+            "run" => !overspeed,
             "rocof" => !rocof_rising,
             _ => false,
         })

@@ -45,12 +45,43 @@ pub fn delay_grid(limits: &DesignLimits) -> Vec<f64> {
 }
 
 /// Points from `from` towards `to` in steps of `step`, rounded to 1e-6 so that grid values print
-/// as the user wrote them.
+/// as the user wrote them. Never more than [`MAX_GRID_POINTS`] points ([`check_grid`] refuses
+/// such a grid before any is built).
 fn grid(from: f64, to: f64, step: f64) -> Vec<f64> {
-    let n = ((to - from) / step + 1e-9).floor().max(0.0) as usize;
-    (0..=n)
+    let points =
+        crate::model::design_axis_points((to - from).abs(), step.abs()).min(MAX_GRID_POINTS);
+    (0..points as usize)
         .map(|j| ((from + j as f64 * step) * 1e6).round() / 1e6)
         .collect()
+}
+
+/// Most grid points (pickups × delays) the design builds, whatever the plant says: a guard for
+/// design limits that did not come through validation, which refuses a grid above the limit
+/// `max_design_grid_points` (docs/guarantees.md) and above this ceiling.
+pub const MAX_GRID_POINTS: f64 = crate::model::GRID_POINTS_CEILING;
+
+/// Refuses a grid of more than [`MAX_GRID_POINTS`] points, naming its size.
+pub fn check_grid(limits: &DesignLimits) -> Result<(), String> {
+    let (pickups, delays) = limits.grid_points();
+    let total = pickups * delays;
+    if total <= MAX_GRID_POINTS {
+        return Ok(());
+    }
+    Err(format!(
+        "the design grid has {} pickups × {} delays, above the {} grid points the design can \
+         search; use coarser steps (design.pickup_hz.step, design.delay_s.step)",
+        count(pickups),
+        count(delays),
+        count(MAX_GRID_POINTS)
+    ))
+}
+
+fn count(n: f64) -> String {
+    if n < 1e15 {
+        format!("{}", n as u64)
+    } else {
+        format!("{n:.1e}")
+    }
 }
 
 /// Number of grid steps two adjacent frequency stages must be apart: the coordination spacing,
@@ -191,5 +222,21 @@ mod tests {
         l.max_delay_s = 0.4;
         l.delay_step_s = 0.05;
         assert_eq!(delay_grid(&l), vec![0.1, 0.15, 0.2, 0.25, 0.3, 0.35, 0.4]);
+    }
+
+    #[test]
+    fn absurd_steps_are_refused_not_allocated() {
+        let mut l = DesignLimits::defaults(50.0, false);
+        for step in [1e-300, 1e-12, f64::MIN_POSITIVE] {
+            l.pickup_step_hz = step;
+            let e = check_grid(&l).unwrap_err();
+            assert!(e.contains("above the 10000000 grid points"), "{e}");
+            // Building it anyway stays within the guard.
+            assert_eq!(pickup_grid(&l).len(), MAX_GRID_POINTS as usize);
+        }
+        l.pickup_step_hz = 1e-300;
+        assert!(check_grid(&l).unwrap_err().contains("1.0e300 pickups"));
+        l.pickup_step_hz = 0.1;
+        assert!(check_grid(&l).is_ok());
     }
 }

@@ -112,6 +112,7 @@ pub fn design(
     from: Option<&Scheme>,
     progress: Progress,
 ) -> Result<Proposal, DesignError> {
+    layout::check_grid(&plant.design).map_err(DesignError::NoLayout)?;
     let sim = design_sim_config(plant);
     let measurement = from.map(|s| s.measurement).unwrap_or_default();
     let ctx = Context::new(plant, cases, sim, measurement, "proposed by nadir design");
@@ -502,9 +503,12 @@ pub fn starting_layouts(ctx: &Context) -> (Vec<Layout>, bool) {
     let mut all: Vec<Vec<(f64, f64, Option<f64>)>> = Vec::new();
     let mut count = 0usize;
     for k in min_k..=max_k {
-        count += spaced_choices(pickups.len(), k, gap) * delays.len().pow(k as u32);
+        count = count.saturating_add(
+            spaced_choices(pickups.len(), k, gap)
+                .saturating_mul(delays.len().saturating_pow(k as u32)),
+        );
     }
-    count *= armed_options.len() * rocof_options.len();
+    count = count.saturating_mul(armed_options.len() * rocof_options.len());
     let exhaustive = count <= EXHAUSTIVE_LAYOUTS;
     if exhaustive {
         for k in min_k..=max_k {

@@ -129,13 +129,27 @@ pub const TRACE_SAMPLES: Limit = Limit {
     env: "NADIR_MAX_TRACE_SAMPLES",
 };
 
+/// Points of the design grid: pickups × delays one proposed stage may take (the plant file's
+/// `design.pickup_hz` and `design.delay_s`). The settings search tries every delay for each stage
+/// and walks the pickups one step at a time, so its time and memory grow with these points; a
+/// step that validation would otherwise accept (1e-12 Hz) would make a grid of terabytes. The
+/// default is far finer than relays are set (a 0.01 Hz pickup grid over 2 Hz with a 0.01 s delay
+/// grid over 0.4 s has 8 241 points).
+pub const DESIGN_GRID_POINTS: Limit = Limit {
+    index: 12,
+    name: "max_design_grid_points",
+    noun: "grid points (pickups × delays)",
+    default: 10_000,
+    env: "NADIR_MAX_DESIGN_GRID_POINTS",
+};
+
 /// Diagnostics kept for one file; past this many, the rest are counted and summarised in one
 /// closing diagnostic. Not adjustable: a thousand messages already say "wrong file", and the cap
 /// keeps a generated file full of mistakes from costing time and memory in messages.
 pub const MAX_DIAGNOSTICS: usize = 1000;
 
 /// Every limit, in the order of their `index`.
-pub const ALL: [Limit; 12] = [
+pub const ALL: [Limit; 13] = [
     FILE_BYTES,
     LOADS,
     GENERATORS,
@@ -148,7 +162,18 @@ pub const ALL: [Limit; 12] = [
     CASE_DURATION_S,
     STAGES,
     TRACE_SAMPLES,
+    DESIGN_GRID_POINTS,
 ];
+
+/// Longest id (in characters) that the "did you mean" search compares with the known ids; a
+/// longer one is reported without suggestions. Not adjustable: real ids are a few words, and the
+/// edit distance costs the product of the two lengths, so a misspelt megabyte-long id would
+/// otherwise keep the search busy for minutes.
+pub const MAX_SUGGEST_CHARS: usize = 200;
+
+/// Characters of an unknown id or key quoted in a message; a longer one is shortened with its
+/// length given, so that one huge id does not make a huge message.
+pub const MAX_QUOTED_CHARS: usize = 80;
 
 /// The limits in force: the defaults, each possibly overridden by its environment variable.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -234,6 +259,16 @@ pub fn over_limit_message(limits: &Limits, limit: Limit, subject: &str, count: u
         limit.name,
         limits.get(limit)
     )
+}
+
+/// A count for a message: digits up to 10^15, else scientific notation (a grid step of 1e-300
+/// counts 1e300 points, which no integer type holds).
+pub fn count_text(count: f64) -> String {
+    if count < 1e15 {
+        format!("{}", count.round() as u64)
+    } else {
+        format!("{count:.1e}")
+    }
 }
 
 /// The help for a breach: how to raise the limit.

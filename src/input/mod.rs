@@ -153,6 +153,13 @@ fn nonempty(r: Reader, file: &str) -> Vec<Diagnostic> {
     list
 }
 
+/// Reads an input file as text under the size limit in force (`NADIR_MAX_FILE_BYTES`), with the
+/// name its messages use: for a caller that needs the bytes as well as the model (the report
+/// identifies each input by the bytes it parsed). The loaders read through it.
+pub fn read_text(path: &Path) -> Result<(String, String), Error> {
+    read_capped(path)
+}
+
 /// Reads a file as text, refusing one above the size limit before reading it: first by its
 /// metadata length, then (for pipes and devices, whose length is unknown) by reading at most one
 /// byte past the limit. Memory use is bounded by the limit either way.

@@ -63,4 +63,33 @@ impl DesignLimits {
             .map(|(_, w)| *w)
             .unwrap_or(rank as f64)
     }
+
+    /// Points of the pickup grid and of the delay grid, as floating-point counts so that an
+    /// absurd step (1e-300) gives a huge count instead of overflowing: each grid runs from one
+    /// end to the other in whole steps, both ends included when the step divides the band.
+    /// The one count that validation checks against the grid limit and that the design's grid
+    /// building obeys.
+    pub fn grid_points(&self) -> (f64, f64) {
+        (
+            axis_points(
+                self.highest_pickup_hz - self.lowest_pickup_hz,
+                self.pickup_step_hz,
+            ),
+            axis_points(self.max_delay_s - self.min_delay_s, self.delay_step_s),
+        )
+    }
+}
+
+/// Most grid points (pickups × delays) the design ever builds, whatever the limit
+/// `max_design_grid_points` is raised to: past it a grid costs gigabytes.
+pub const GRID_POINTS_CEILING: f64 = 1e7;
+
+/// Points from one end of a band `width` wide to the other in steps of `step`; the slack keeps
+/// the last point that decimal steps (0.1 Hz) reach only up to binary rounding. Infinite for a
+/// step that is not a positive finite number.
+pub fn axis_points(width: f64, step: f64) -> f64 {
+    if !(step > 0.0 && step.is_finite() && width.is_finite()) {
+        return f64::INFINITY;
+    }
+    (width / step + 1e-9).floor().max(0.0) + 1.0
 }

@@ -93,6 +93,16 @@ pub struct OffFrequencyLimit {
     pub max_s: f64,
 }
 
+/// Shortest lag the simulator integrates, seconds (10 ms). A governor, turbine or relay
+/// measurement lag shorter than this is below the integrator's reach at the step sizes a
+/// frequency study needs (an explicit method must step at about a third of the shortest time
+/// constant, so run time and memory would grow as 1/τ): it is treated as instantaneous, output
+/// equal to its (limited) input, except the engine's fuel-rack lag, whose rise is ramp limited
+/// and which is held at this value instead (docs/models.md, "Lags shorter than 10 ms"). Every
+/// published governor and turbine time constant is well above it. Validation's plausibility
+/// warning for such a lag reads this constant.
+pub const INSTANT_LAG_S: f64 = 0.01;
+
 /// Speed governing common to every prime mover.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Governor {

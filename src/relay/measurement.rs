@@ -7,11 +7,12 @@
 //! [`MIN_ROCOF_WINDOW_S`] to keep the equations non-stiff). The loop integrates these alongside
 //! the physics; relays read `m` and `r`.
 
-/// Shortest ROCOF averaging time constant used, seconds.
-pub const MIN_ROCOF_WINDOW_S: f64 = 0.005;
+/// Shortest ROCOF averaging time constant used, seconds: the simulator's shortest lag
+/// ([`crate::model::INSTANT_LAG_S`]).
+pub const MIN_ROCOF_WINDOW_S: f64 = crate::model::INSTANT_LAG_S;
 
-/// Below this a lag is algebraic.
-pub const MIN_LAG_S: f64 = 1e-6;
+/// Below this a lag is algebraic ([`crate::model::INSTANT_LAG_S`]).
+pub const MIN_LAG_S: f64 = crate::model::INSTANT_LAG_S;
 
 /// `dm/dt` of the measured frequency (any unit) given the true value and its own derivative.
 pub fn measured_derivative(

@@ -463,7 +463,25 @@ fn matrix_section(h: &mut String, r: &ReportInputs) {
             .map(|f| esc(&f.message))
             .collect::<Vec<_>>()
             .join("; ");
-        let o = &row.observed;
+        // A run that stopped early has no figures: its status is its failure.
+        let [nadir, at, peak, rocof, recovered] = match &row.observed {
+            Some(o) => [
+                num(o.nadir_hz, 2),
+                num(o.nadir_at_s, 2),
+                num(o.max_hz, 2),
+                num(o.max_rocof_hz_per_s, 2),
+                o.recovered_at_s
+                    .map(|t| num(t, 2))
+                    .unwrap_or_else(|| "never".into()),
+            ],
+            None => [
+                super::STOPPED.into(),
+                super::NO_FIGURE.into(),
+                super::NO_FIGURE.into(),
+                super::NO_FIGURE.into(),
+                super::NO_FIGURE.into(),
+            ],
+        };
         let _ = writeln!(
             h,
             "<tr{}><td class=\"id\">{}</td><td class=\"id\">{}</td><td class=\"result\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td>{}</td><td>{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"msg\">{failures}</td></tr>",
@@ -471,13 +489,11 @@ fn matrix_section(h: &mut String, r: &ReportInputs) {
             esc(&row.case),
             esc(&row.operating_point),
             if row.pass { "pass" } else { "FAIL" },
-            num(o.nadir_hz, 2),
-            num(o.nadir_at_s, 2),
-            num(o.max_hz, 2),
-            num(o.max_rocof_hz_per_s, 2),
-            o.recovered_at_s
-                .map(|t| num(t, 2))
-                .unwrap_or_else(|| "never".into()),
+            nadir,
+            at,
+            peak,
+            rocof,
+            recovered,
             num(row.shed_mw, 2),
             num(row.shed_pct, 1),
             list(&row.stages_operated),
@@ -499,18 +515,23 @@ fn plots(h: &mut String, r: &ReportInputs) {
             .rows
             .iter()
             .filter(|row| row.case == p.case)
-            .map(|row| {
-                format!(
+            .map(|row| match (&row.observed, &row.status) {
+                (Some(o), _) => format!(
                     "{}: nadir {} Hz at {} s, {}",
                     esc(&row.operating_point),
-                    num(row.observed.nadir_hz, 2),
-                    num(row.observed.nadir_at_s, 2),
+                    num(o.nadir_hz, 2),
+                    num(o.nadir_at_s, 2),
                     if row.pass {
                         "holds"
                     } else {
                         "<strong>FAILS</strong>"
                     }
-                )
+                ),
+                (None, status) => format!(
+                    "{}: <strong>FAILS</strong>, {}",
+                    esc(&row.operating_point),
+                    esc(status.as_deref().unwrap_or("the run stopped early"))
+                ),
             })
             .collect::<Vec<_>>()
             .join("; ");

@@ -3,6 +3,12 @@
 //! `report` formats results only: it computes no physics and decides no pass or fail. Every file it
 //! writes goes through [`write::write_atomic`], so an interrupted run never leaves a truncated file.
 
+/// What a table shows in the nadir cell of a run that stopped early (collapse, over-speed,
+/// blackout, a numerical stop): it has no figures, and its status is given as its failure.
+pub const STOPPED: &str = "stopped";
+/// What a table shows in any other figure cell of such a run.
+pub const NO_FIGURE: &str = "—";
+
 pub mod html;
 pub mod svg;
 pub mod write;

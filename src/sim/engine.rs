@@ -751,17 +751,29 @@ impl<'a> Engine<'a> {
             }
         }
         let floor = self.cfg.collapse_fraction - 1.0;
+        let ceiling = self.cfg.overspeed_pu();
         for i in 0..self.islands.len() {
             let s0 = self.islands[i].sections[0];
             if self.islands[i].on_utility || self.frozen[s0] {
                 continue;
             }
-            if self.y[speed_index(s0)] < floor {
+            let dw = self.y[speed_index(s0)];
+            if dw < floor {
                 let r = self.island_record[i];
                 self.freeze(i, IslandEnd::Collapsed);
                 self.log(EventKind::Collapse { island: r });
                 if self.first_failure.is_none() {
                     self.first_failure = Some(StopReason::Collapse {
+                        island: r,
+                        at_s: self.t,
+                    });
+                }
+            } else if dw > ceiling {
+                let r = self.island_record[i];
+                self.freeze(i, IslandEnd::Overspeed);
+                self.log(EventKind::Overspeed { island: r });
+                if self.first_failure.is_none() {
+                    self.first_failure = Some(StopReason::Overspeed {
                         island: r,
                         at_s: self.t,
                     });
@@ -917,7 +929,7 @@ impl<'a> Engine<'a> {
         0.0
     }
 
-    /// Every level whose crossing may change a relay or the collapse state. With `for_quiet`,
+    /// Every level whose crossing may change a relay, the collapse or the over-speed state. With `for_quiet`,
     /// the list that decides the relaxed cap: a df/dt-supervised stage whose measured df/dt is
     /// far on the blocking side cannot pick up before that df/dt crosses its level, so only the
     /// df/dt level of such a stage is watched.
@@ -964,6 +976,10 @@ impl<'a> Engine<'a> {
                 out.push(StateGuard {
                     index: speed_index(s0),
                     level: self.cfg.collapse_fraction - 1.0,
+                });
+                out.push(StateGuard {
+                    index: speed_index(s0),
+                    level: self.cfg.overspeed_pu(),
                 });
             }
         }

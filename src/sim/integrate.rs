@@ -288,10 +288,25 @@ macro_rules! dopri5_runner {
             let mut dense = ContinuousOutputModel::new();
             solver
                 .integrate_with_continuous_output_model(&mut dense)
-                .map_err(|e| e.to_string())?;
+                .map_err(in_words)?;
             Ok(dense)
         }
     };
+}
+
+/// The solver's error in the words of a run's status.
+fn in_words(e: ode_solvers::dop_shared::IntegrationError) -> String {
+    use ode_solvers::dop_shared::IntegrationError as E;
+    match e {
+        E::MaxNumStepReached { x, n_step } => format!(
+            "the integrator reached its limit of {n_step} steps in one stretch at {x:.3} s \
+             (the equations change too fast for it; see docs/models.md, lags)"
+        ),
+        E::StepSizeUnderflow { x } => {
+            format!("the integrator's step became too small at {x:.3} s")
+        }
+        E::StiffnessDetected { x } => format!("the equations became stiff at {x:.3} s"),
+    }
 }
 
 dopri5_runner!(run16, SVector<f64, 16>);

@@ -30,7 +30,10 @@ pub struct SimConfig {
     pub record_trace: bool,
     /// Sample spacing for the trace and the windowed ROCOF, seconds (0.01).
     pub sample_interval_s: f64,
-    /// An island whose frequency falls below this fraction of nominal has collapsed (0.85).
+    /// An island whose frequency falls below this fraction of nominal has collapsed (0.85); one
+    /// that rises as far above nominal (1.15 of nominal, [`SimConfig::overspeed_pu`]) is over
+    /// speed. Either island is frozen and fails its run: past these levels the machines'
+    /// own protection has long acted and the models no longer hold.
     pub collapse_fraction: f64,
     /// Window of the reported ROCOF (|f(t) − f(t − W)|/W on the samples), seconds (0.5).
     pub rocof_window_s: f64,
@@ -40,6 +43,14 @@ pub struct SimConfig {
     pub locate_tol_s: f64,
     /// Discrete events after which a run stops as an event storm (1000, plus the case's own).
     pub max_events: usize,
+}
+
+impl SimConfig {
+    /// The over-speed level as a per-unit speed deviation: as far above nominal as the collapse
+    /// floor is below it.
+    pub fn overspeed_pu(&self) -> f64 {
+        1.0 - self.collapse_fraction
+    }
 }
 
 impl Default for SimConfig {
@@ -65,9 +76,59 @@ impl Default for SimConfig {
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub enum StopReason {
     EndTime,
-    Collapse { island: usize, at_s: f64 },
-    Blackout { island: usize, at_s: f64 },
-    NumericalFault { at_s: f64, detail: String },
+    Collapse {
+        island: usize,
+        at_s: f64,
+    },
+    /// An island rose above the over-speed level ([`SimConfig::overspeed_pu`]).
+    Overspeed {
+        island: usize,
+        at_s: f64,
+    },
+    Blackout {
+        island: usize,
+        at_s: f64,
+    },
+    NumericalFault {
+        at_s: f64,
+        detail: String,
+    },
+}
+
+impl StopReason {
+    /// Whether the run went to its end time with every island's figures meaningful. Otherwise
+    /// every verb and format shows [`StopReason::status`] instead of the run's figures: after a
+    /// collapse, an over-speed, a blackout or a numerical stop, the nadir, peak, final frequency
+    /// and recovery describe a model that no longer holds or a run that did not finish.
+    pub fn is_complete(&self) -> bool {
+        matches!(self, StopReason::EndTime)
+    }
+
+    /// What stopped the run, in words (the one wording every verb and format uses); `None` for a
+    /// run that went to its end time.
+    pub fn status(&self) -> Option<String> {
+        match self {
+            StopReason::EndTime => None,
+            StopReason::Collapse { island, at_s } => Some(format!(
+                "island {} collapsed at {:.2} s (below the collapse floor)",
+                island + 1,
+                at_s
+            )),
+            StopReason::Overspeed { island, at_s } => Some(format!(
+                "island {} over speed at {:.2} s (above the over-speed level)",
+                island + 1,
+                at_s
+            )),
+            StopReason::Blackout { island, at_s } => Some(format!(
+                "island {} lost its last generator at {:.2} s (blackout)",
+                island + 1,
+                at_s
+            )),
+            StopReason::NumericalFault { at_s, detail } => {
+                Some(format!("the simulation stopped at {at_s:.3} s: {detail}"))
+            }
+        }
+    }
 }
 
 /// The result of one replay.
@@ -119,6 +180,8 @@ pub enum IslandEnd {
     /// Replaced by other islands (split or utility connection changed).
     Changed,
     Collapsed,
+    /// Rose above the over-speed level.
+    Overspeed,
     Blackout,
 }
 
@@ -186,6 +249,9 @@ pub enum EventKind {
         on_utility: bool,
     },
     Collapse {
+        island: usize,
+    },
+    Overspeed {
         island: usize,
     },
     Blackout {

@@ -44,11 +44,13 @@ pub struct Failure {
 pub fn judge(seen: &Observed, c: &Criteria) -> Vec<Failure> {
     let mut out = Vec::new();
     if let Some(why) = &seen.abnormal_end {
+        // No figure of a broken run is judged (or quoted): its status is the one failure.
         out.push(Failure {
             criterion: "run",
             message: why.clone(),
             excess: 0.0,
         });
+        return out;
     }
     if seen.nadir_hz < c.min_hz {
         out.push(Failure {
@@ -206,6 +208,10 @@ mod tests {
         assert_eq!(judge(&seen, &c)[0].criterion, "settle");
         let mut seen = healthy();
         seen.abnormal_end = Some("island 1 collapsed at 2.40 s".into());
-        assert_eq!(judge(&seen, &c)[0].criterion, "run");
+        seen.nadir_hz = 42.5;
+        let f = judge(&seen, &c);
+        assert_eq!(f.len(), 1, "only the status, no figure: {f:?}");
+        assert_eq!(f[0].criterion, "run");
+        assert_eq!(f[0].message, "island 1 collapsed at 2.40 s");
     }
 }

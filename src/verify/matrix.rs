@@ -8,7 +8,7 @@ use super::criteria::{judge, Failure, Observed};
 use super::margins::{self, Margins};
 use super::offnominal::{band_times, BandTime};
 use crate::model::{Case, CaseSet, Criteria, Plant, Scheme};
-use crate::sim::{self, EventKind, Run, SimConfig, StopReason};
+use crate::sim::{self, EventKind, Run, SimConfig};
 use rayon::prelude::*;
 use serde::Serialize;
 
@@ -37,8 +37,14 @@ pub struct Row {
     pub case_index: usize,
     pub operating_point_index: usize,
     pub pass: bool,
-    pub observed: Observed,
-    pub final_hz: f64,
+    /// Why the run stopped early (collapse, over-speed, blackout, a numerical stop), in the
+    /// words of [`sim::StopReason::status`]; `None` for a run that went to its end time.
+    pub status: Option<String>,
+    /// The run's frequency figures; `None` when it stopped early ([`Row::status`]), because
+    /// figures from a broken run mean nothing.
+    pub observed: Option<Observed>,
+    /// Lowest final frequency of the islands still running; `None` when the run stopped early.
+    pub final_hz: Option<f64>,
     pub shed_mw: f64,
     /// Shed as a percentage of the plant's load at this operating point.
     pub shed_pct: f64,
@@ -107,7 +113,12 @@ pub fn verify_one(
     let run = sim::simulate(plant, case, op, scheme, &sim_config);
     let observed = observe(&run, case, &plant.criteria);
     let mut failures = judge(&observed, &plant.criteria);
-    let off_nominal = band_times(plant, op, &run);
+    // Time in abnormal bands is a figure of the trajectory too: none from a broken run.
+    let off_nominal = if run.stop.is_complete() {
+        band_times(plant, op, &run)
+    } else {
+        Vec::new()
+    };
     for b in off_nominal.iter().filter(|b| b.exceeded()) {
         failures.push(Failure {
             criterion: "off_nominal",
@@ -138,13 +149,15 @@ pub fn verify_one(
         None
     };
     let load_mw: f64 = plant.operating_points[op].load_mw.iter().sum();
+    let complete = run.stop.is_complete();
     Row {
         case: case.id.clone(),
         operating_point: plant.operating_points[op].id.clone(),
         case_index,
         operating_point_index: op,
         pass: failures.is_empty(),
-        final_hz: run.final_hz,
+        status: run.stop.status(),
+        final_hz: complete.then_some(run.final_hz),
         shed_mw: run.shed_mw,
         shed_pct: if load_mw > 0.0 {
             100.0 * run.shed_mw / load_mw
@@ -153,7 +166,7 @@ pub fn verify_one(
         },
         stages_operated: stages_operated(&run),
         cascades: cascades(&run),
-        observed,
+        observed: complete.then_some(observed),
         failures,
         margins,
         off_nominal,
@@ -200,22 +213,7 @@ pub fn observe(run: &Run, case: &Case, criteria: &Criteria) -> Observed {
         }
         range
     });
-    let abnormal_end = match &run.stop {
-        StopReason::EndTime => None,
-        StopReason::Collapse { island, at_s } => Some(format!(
-            "island {} collapsed at {:.2} s (below the collapse floor)",
-            island + 1,
-            at_s
-        )),
-        StopReason::Blackout { island, at_s } => Some(format!(
-            "island {} lost its last generator at {:.2} s (blackout)",
-            island + 1,
-            at_s
-        )),
-        StopReason::NumericalFault { at_s, detail } => {
-            Some(format!("the simulation stopped at {at_s:.3} s: {detail}"))
-        }
-    };
+    let abnormal_end = run.stop.status();
     Observed {
         first_event_s,
         last_event_s,

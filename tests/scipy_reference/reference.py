@@ -61,8 +61,8 @@ from scipy.integrate import solve_ivp
 RTOL = 1e-9
 ATOL = 1e-11
 MAX_STEP_S = 0.02
-ALGEBRAIC_S = 1e-6
-MIN_ROCOF_WINDOW_S = 0.005
+ALGEBRAIC_S = 0.01  # nadir::model::INSTANT_LAG_S: shorter lags are instantaneous (docs/models.md)
+MIN_ROCOF_WINDOW_S = 0.01  # nadir::relay::measurement::MIN_ROCOF_WINDOW_S
 # After a threshold is crossed its level is moved this far (pu) behind the trajectory, so the
 # restart point lies unambiguously on the new side and the same crossing is not found twice.
 SIDE_BIAS = 1e-11

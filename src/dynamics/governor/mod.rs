@@ -28,8 +28,9 @@ use crate::model::{base, Generator, PrimeMover};
 /// Reset (integral) time of the isochronous integral, seconds.
 pub const ISOCHRONOUS_RESET_S: f64 = 5.0;
 
-/// A lag shorter than this is treated as algebraic (output = its clamped input).
-pub const ALGEBRAIC_LAG_S: f64 = 1e-6;
+/// A lag shorter than this is treated as algebraic (output = its clamped input); the engine's
+/// ramp-limited lag is held at this value instead ([`crate::model::INSTANT_LAG_S`]).
+pub const ALGEBRAIC_LAG_S: f64 = crate::model::INSTANT_LAG_S;
 
 /// The equations of one prime-mover model, around a command in MW.
 pub trait PrimeMoverDynamics {

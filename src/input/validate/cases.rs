@@ -6,6 +6,14 @@
 use super::*;
 
 /// Validates a cases file against its plant; `None` when any diagnostic was recorded.
+/// Largest case weight: weights are relative (the default is 1), and a bound keeps the design
+/// objective, a sum of weight × MW over every row, finite (weights of 1e308 made it infinite).
+pub const MAX_CASE_WEIGHT: f64 = 1000.0;
+
+/// Largest load step either way, MW: far above any industrial plant's single load (a step of
+/// 10 GW is several power stations), and small enough that every screening figure stays finite.
+pub const MAX_LOAD_STEP_MW: f64 = 10_000.0;
+
 pub fn cases(r: &mut Reader, map: &Mapping, plant: &Plant) -> Option<CaseSet> {
     r.check_top_keys(map, &["cases"]);
     let list: Vec<Slot<RawCase>> = r.list(map, "cases", true, limits::CASES)?;
@@ -83,7 +91,14 @@ fn case(r: &mut Reader, p: &FieldPath, c: &RawCase, plant: &Plant) -> Case {
     }
     let weight = c.weight.unwrap_or(d::CASE_WEIGHT);
     if c.weight.is_some() {
-        num(r, &p.key("weight"), weight, Lo::AtLeast(0.0), Hi::Any, "");
+        num(
+            r,
+            &p.key("weight"),
+            weight,
+            Lo::AtLeast(0.0),
+            Hi::AtMost(MAX_CASE_WEIGHT),
+            "",
+        );
     }
     if c.events.is_empty() && c.utility_hz.is_empty() {
         r.error(
@@ -206,7 +221,14 @@ fn case(r: &mut Reader, p: &FieldPath, c: &RawCase, plant: &Plant) -> Case {
             if section.is_none() {
                 unknown_id(r, &lp.key("section"), "section", &ls.section, &sections);
             }
-            num(r, &lp.key("mw"), ls.mw, Lo::Any, Hi::Any, " MW");
+            num(
+                r,
+                &lp.key("mw"),
+                ls.mw,
+                Lo::AtLeast(-MAX_LOAD_STEP_MW),
+                Hi::AtMost(MAX_LOAD_STEP_MW),
+                " MW",
+            );
             section.map(|section| Action::LoadStep { section, mw: ls.mw })
         } else if let Some(vd) = &e.voltage_dip {
             let vp = ep.key("voltage_dip");

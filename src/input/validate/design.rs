@@ -14,6 +14,10 @@ use super::*;
 /// the trade (plant-level tables rarely have more than about six).
 const MAX_STAGES: u32 = 20;
 
+/// Largest rank weight: the objective sums weight × MW over every row, and a bound keeps it
+/// finite (weights near 1e308 made it infinite) and within the assignment solver's precision.
+pub const MAX_RANK_WEIGHT: f64 = 1e6;
+
 /// Slack for comparing frequencies and counting grid points: values written to 0.1 Hz or 0.05 s
 /// are not exact in binary, and a grid must not lose its last point to rounding.
 const EPS: f64 = 1e-9;
@@ -42,7 +46,10 @@ pub(super) fn limits(
         nominal,
         &mut lim,
     );
-    delay_grid(r, &p.key("delay_s"), raw.delay_s.as_ref(), &mut lim);
+    let delays_ok = delay_grid(r, &p.key("delay_s"), raw.delay_s.as_ref(), &mut lim);
+    if pickups_ok && delays_ok {
+        grid_size(r, &p, &lim);
+    }
     if let Some(v) = raw.breaker_s {
         num(
             r,
@@ -75,11 +82,16 @@ pub(super) fn limits(
             );
             continue;
         }
-        if !(weight.is_finite() && weight > 0.0) {
+        if !(weight.is_finite() && weight > 0.0 && weight <= MAX_RANK_WEIGHT) {
             r.error(
                 &wp,
-                format!("the weight of rank {rank} is {weight}, expected a finite number greater than 0"),
-                "write the objective weight per MW shed of that rank, e.g. the rank's own number"
+                format!(
+                    "the weight of rank {rank} is {weight}, expected a number greater than 0 and \
+                     at most {MAX_RANK_WEIGHT}"
+                ),
+                "write the objective weight per MW shed of that rank, e.g. the rank's own number; \
+                 weights are relative, so a million to one already makes one rank's MW all but \
+                 free against another's"
                     .to_string(),
             );
         }
@@ -235,9 +247,15 @@ fn pickup_grid(
     ok
 }
 
-fn delay_grid(r: &mut Reader, p: &FieldPath, raw: Option<&RawDelayGrid>, lim: &mut DesignLimits) {
+/// Checks the delay grid's values and their order; `false` when any is wrong.
+fn delay_grid(
+    r: &mut Reader,
+    p: &FieldPath,
+    raw: Option<&RawDelayGrid>,
+    lim: &mut DesignLimits,
+) -> bool {
     let Some(g) = raw else {
-        return;
+        return true;
     };
     let mut ok = true;
     for (key, value, slot) in [
@@ -265,7 +283,59 @@ fn delay_grid(r: &mut Reader, p: &FieldPath, raw: Option<&RawDelayGrid>, lim: &m
             ),
             "write min ≤ max; min = max fixes every proposed delay".to_string(),
         );
+        ok = false;
     }
+    ok
+}
+
+/// The grid's points (pickups × delays) against the limit `max_design_grid_points`: the settings
+/// search's time and memory grow with them, and a tiny step would make a grid of terabytes.
+fn grid_size(r: &mut Reader, p: &FieldPath, lim: &DesignLimits) {
+    let limit = limits::DESIGN_GRID_POINTS;
+    let (pickups, delays) = lim.grid_points();
+    let total = pickups * delays;
+    if total <= r.limits.get(limit) as f64 {
+        return;
+    }
+    let raise = if total <= GRID_POINTS_CEILING {
+        format!(
+            "; to search this grid, raise the limit by setting the environment variable {}={} \
+             (or higher)",
+            limit.env,
+            limits::count_text(total)
+        )
+    } else {
+        format!(
+            "; the environment variable {} raises the limit, but no value allows more than {} \
+             grid points",
+            limit.env,
+            limits::count_text(GRID_POINTS_CEILING)
+        )
+    };
+    r.error(
+        &first_written(
+            r,
+            &[
+                p.key("pickup_hz").key("step"),
+                p.key("delay_s").key("step"),
+                p.key("pickup_hz"),
+                p.key("delay_s"),
+            ],
+        ),
+        format!(
+            "the design grid has {} pickups × {} delays = {} {}, above the limit {} = {}",
+            limits::count_text(pickups),
+            limits::count_text(delays),
+            limits::count_text(total),
+            limit.noun,
+            limit.name,
+            r.limits.get(limit)
+        ),
+        format!(
+            "use coarser steps (design.pickup_hz.step, design.delay_s.step){raise}; see \
+             docs/guarantees.md, section limits"
+        ),
+    );
 }
 
 /// The pickup band against the criteria: at or below the normal band's lower edge, above the

@@ -144,16 +144,33 @@ fn delay(r: &mut Reader, path: &FieldPath, v: f64) -> bool {
     num(r, path, v, Lo::AtLeast(0.0), Hi::AtMost(60.0), " s")
 }
 
-/// Names close to `name`, closest first, at most three: for "did you mean" hints.
+/// Names close to `name`, closest first, at most three: for "did you mean" hints. A name longer
+/// than [`limits::MAX_SUGGEST_CHARS`] gets none (the edit distance costs the product of the
+/// lengths), and a candidate whose length alone puts it out of reach is not compared.
 pub fn near_matches<'a>(name: &str, candidates: impl Iterator<Item = &'a str>) -> Vec<&'a str> {
+    let name_chars = name.chars().count();
+    if name_chars > limits::MAX_SUGGEST_CHARS {
+        return Vec::new();
+    }
     let lower = name.to_lowercase();
     let mut scored: Vec<(usize, &str)> = candidates
         .filter_map(|c| {
+            let c_chars = c.chars().count();
+            if c_chars > limits::MAX_SUGGEST_CHARS {
+                return None;
+            }
             let cl = c.to_lowercase();
-            let dist = edit_distance(&lower, &cl);
-            let limit = (name.chars().count().max(c.chars().count()) / 3).max(1);
+            let limit = (name_chars.max(c_chars) / 3).max(1);
             let contains = lower.len() >= 2 && (cl.contains(&lower) || lower.contains(&cl));
-            (dist <= limit || contains).then_some((dist, c))
+            if contains {
+                return Some((edit_distance(&lower, &cl), c));
+            }
+            // The distance is at least the difference in length.
+            if name_chars.abs_diff(c_chars) > limit {
+                return None;
+            }
+            let dist = edit_distance(&lower, &cl);
+            (dist <= limit).then_some((dist, c))
         })
         .collect();
     scored.sort();
@@ -241,6 +258,17 @@ impl Ids {
     }
 }
 
+/// An id or name as a message quotes it: shortened past [`limits::MAX_QUOTED_CHARS`]
+/// characters, with its length, so that a huge id does not make a huge message.
+pub fn shown(id: &str) -> String {
+    let n = id.chars().count();
+    if n <= limits::MAX_QUOTED_CHARS {
+        return id.to_string();
+    }
+    let head: String = id.chars().take(limits::MAX_QUOTED_CHARS).collect();
+    format!("{head}… ({n} characters)")
+}
+
 /// Reports an id that names nothing of its kind.
 fn unknown_id(r: &mut Reader, path: &FieldPath, kind: &str, id: &str, known: &[&str]) {
     if r.full() {
@@ -249,6 +277,7 @@ fn unknown_id(r: &mut Reader, path: &FieldPath, kind: &str, id: &str, known: &[&
         return;
     }
     let near = near_matches(id, known.iter().copied());
+    let id = &shown(id);
     let msg = if known.is_empty() {
         format!("unknown {kind} `{id}`; the plant has no {kind}s")
     } else if known.len() <= 8 {
