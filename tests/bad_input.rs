@@ -1304,6 +1304,21 @@ fn every_count_limit_is_enforced_and_named() {
         );
         assert!(d[0].help.as_deref().unwrap().contains(limit.env));
     }
+    let l = Limits::defaults().with(limits::DESIGN_GRID_POINTS, 1);
+    let d = parse_plant_with(&base, "p.yaml", &l).unwrap_err();
+    assert_eq!(d.len(), 1, "{d:?}");
+    assert!(d[0].path.starts_with("design"), "{}", d[0]);
+    assert!(
+        d[0].message
+            .contains("grid points (pickups × delays), above the limit max_design_grid_points = 1"),
+        "{}",
+        d[0]
+    );
+    assert!(d[0]
+        .help
+        .as_deref()
+        .unwrap()
+        .contains("NADIR_MAX_DESIGN_GRID_POINTS="));
     let one_tie = Limits::defaults().with(limits::TIES, 0);
     let d = parse_plant_with(&base, "p.yaml", &one_tie).unwrap_err();
     assert!(d[0].message.contains("max_ties = 0"), "{d:?}");

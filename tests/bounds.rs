@@ -459,3 +459,50 @@ fn screening_says_a_surplus_rises_rather_than_falls() {
     assert!(!row.contains("42.5"), "{row}");
     std::fs::remove_dir_all(&dir).ok();
 }
+
+// ------------------------------------------------------------------ the report's size
+
+#[test]
+fn report_reads_and_writes_within_max_file_bytes() {
+    let dir = scratch("report");
+    let plant = binary::root().join("examples/biorefinery/plant.yaml");
+    let plant = plant.to_str().unwrap();
+    let scheme = binary::root().join("schemes/biorefinery.yaml");
+    let scheme = scheme.to_str().unwrap();
+    let cases = write(
+        &dir,
+        "cases.yaml",
+        "cases:\n  - id: c\n    only_at: [turndown]\n    events:\n      - { at_s: 0, open: utility }\n",
+    );
+    let out = dir.join("report.html");
+    let out = out.to_str().unwrap();
+    let args = ["report", plant, scheme, "--cases", &cases, "-o", out];
+    // The inputs are read under the limit in force, as every other verb reads them (the demo
+    // plant is several kilobytes).
+    let r = nadir_env(&args, &[("NADIR_MAX_FILE_BYTES", "1000")]);
+    assert_eq!(r.code, 2, "{}", r.stderr);
+    assert!(
+        r.stderr.contains("above the limit max_file_bytes = 1000"),
+        "{}",
+        r.stderr
+    );
+    assert!(!Path::new(out).exists());
+    // The report itself is bounded by the same limit: a limit above every input but below the
+    // report refuses the report and writes nothing.
+    let r = nadir_env(&args, &[("NADIR_MAX_FILE_BYTES", "20000")]);
+    assert_eq!(r.code, 2, "{}", r.stderr);
+    assert!(
+        r.stderr.contains("the report would have")
+            && r.stderr
+                .contains("bytes, above the limit max_file_bytes = 20000; nothing was written"),
+        "{}",
+        r.stderr
+    );
+    assert!(r.stderr.contains("NADIR_MAX_FILE_BYTES="), "{}", r.stderr);
+    assert!(!Path::new(out).exists());
+    let r = binary::nadir(&args);
+    assert!(r.code == 0 || r.code == 1, "{}", r.stderr);
+    let size = std::fs::metadata(out).unwrap().len();
+    assert!(size > 20_000 && size <= 4 * 1024 * 1024, "{size}");
+    std::fs::remove_dir_all(&dir).ok();
+}

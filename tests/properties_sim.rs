@@ -558,6 +558,7 @@ fn finite_problems(run: &Run) -> Vec<String> {
     match &run.stop {
         StopReason::EndTime => {}
         StopReason::Collapse { at_s, .. }
+        | StopReason::Overspeed { at_s, .. }
         | StopReason::Blackout { at_s, .. }
         | StopReason::NumericalFault { at_s, .. } => chk("stop.at_s", *at_s),
     }
@@ -875,9 +876,9 @@ proptest! {
                 }
                 EventKind::LoadStep { mw, .. } => pieces.push((e.at_s, -mw)),
                 EventKind::LoadsOpened { mw, .. } => pieces.push((e.at_s, *mw)),
-                EventKind::Collapse { .. } | EventKind::Blackout { .. } => {
-                    end_s = end_s.min(e.at_s)
-                }
+                EventKind::Collapse { .. }
+                | EventKind::Overspeed { .. }
+                | EventKind::Blackout { .. } => end_s = end_s.min(e.at_s),
                 _ => {}
             }
         }

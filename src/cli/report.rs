@@ -75,6 +75,7 @@ pub fn run(args: ReportArgs) -> anyhow::Result<Outcome> {
         generated_utc: &generated_utc,
         tool_version: env!("CARGO_PKG_VERSION"),
     });
+    check_size(&text)?;
     write_atomic(&args.output, text.as_bytes(), overwrite).context("writing the report")?;
 
     let failed = m.rows.iter().filter(|r| !r.pass).count();
@@ -93,6 +94,25 @@ pub fn run(args: ReportArgs) -> anyhow::Result<Outcome> {
     } else {
         Outcome::Fail
     })
+}
+
+/// A report is bounded like an input file: at most `max_file_bytes` (`NADIR_MAX_FILE_BYTES`), so
+/// that many long cases cannot make a file of hundreds of megabytes; nothing is written when it
+/// would be larger.
+fn check_size(text: &str) -> anyhow::Result<()> {
+    use nadir::input::limits::{over_limit_message, FILE_BYTES};
+    let limits = nadir::input::Limits::from_env().map_err(|e| anyhow::anyhow!("{e}"))?;
+    let bytes = text.len() as u64;
+    if !limits.exceeded(FILE_BYTES, bytes) {
+        return Ok(());
+    }
+    anyhow::bail!(
+        "{}; nothing was written\n    help: report fewer cases or operating points at a time, \
+         or raise the limit by setting the environment variable {}={bytes} (or higher); see \
+         docs/guarantees.md, section limits",
+        over_limit_message(&limits, FILE_BYTES, "the report would have", bytes),
+        FILE_BYTES.env
+    )
 }
 
 /// Read an input file once, under the size limit in force like the loaders

@@ -35,6 +35,8 @@ pub(super) fn limits(
 ) -> DesignLimits {
     let mut lim = DesignLimits::defaults(nominal.unwrap_or(50.0), has_utility);
     let Some(raw) = raw else {
+        // The default grid counts against the limit too, so a lowered limit binds it.
+        grid_size(r, &FieldPath::root().key("design"), &lim);
         return lim;
     };
     let p = FieldPath::root().key("design");
