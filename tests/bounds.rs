@@ -482,7 +482,8 @@ fn report_reads_and_writes_within_max_file_bytes() {
     let r = nadir_env(&args, &[("NADIR_MAX_FILE_BYTES", "1000")]);
     assert_eq!(r.code, 2, "{}", r.stderr);
     assert!(
-        r.stderr.contains("above the limit max_file_bytes = 1000"),
+        r.stderr
+            .contains("larger than the input size limit max_file_bytes = 1000 bytes"),
         "{}",
         r.stderr
     );
