@@ -42,7 +42,10 @@ fn an_empty_only_at_is_an_error_not_every_point() {
     let text = "cases:\n  - id: c\n    only_at: []\n    events: [ { at_s: 0, open: utility } ]\n";
     let d = parse_cases(text, "c.yaml", &plant).unwrap_err();
     assert_eq!(d.len(), 1, "{d:#?}");
-    assert_eq!((d[0].path.as_str(), d[0].line), ("cases[0].only_at", Some(3)));
+    assert_eq!(
+        (d[0].path.as_str(), d[0].line),
+        ("cases[0].only_at", Some(3))
+    );
     assert_eq!(
         d[0].message,
         "case `c` lists no operating point in only_at, so it would run nowhere"
@@ -79,7 +82,8 @@ criterion needs at least 5 s of the run after that"
         Some("write `duration_s: 33` (or more) in the case, or shorten the criterion in the plant file")
     );
     // With the duration it names, the case is accepted.
-    let fixed = "cases:\n  - id: late\n    duration_s: 33\n    events: [ { at_s: 8, open: utility } ]\n";
+    let fixed =
+        "cases:\n  - id: late\n    duration_s: 33\n    events: [ { at_s: 8, open: utility } ]\n";
     assert!(parse_cases(fixed, "c.yaml", &plant).is_ok());
 }
 
@@ -108,10 +112,7 @@ fn a_run_too_short_for_the_recovery_deadline_is_an_input_error() {
 #[test]
 fn the_demo_plant_with_the_old_settling_time_is_refused_naming_the_fix() {
     // The demo's cases run 30 s; settling judged from 30 s would be one sample.
-    let text = demo_plant_text().replace(
-        "settle: { within_s: 20,",
-        "settle: { within_s: 30,",
-    );
+    let text = demo_plant_text().replace("settle: { within_s: 20,", "settle: { within_s: 30,");
     assert!(text.contains("within_s: 30"));
     let plant = scratch("demo-settle-30.yaml", &text);
     let r = nadir(&[
@@ -144,7 +145,14 @@ fn no_margins_is_refused_when_the_plant_requires_margins() {
     let plant = plant_requiring_margins();
     let p = plant.to_str().unwrap();
     for args in [
-        vec!["verify", p, DEMO_SCHEME, "--cases", DEMO_CASES, "--no-margins"],
+        vec![
+            "verify",
+            p,
+            DEMO_SCHEME,
+            "--cases",
+            DEMO_CASES,
+            "--no-margins",
+        ],
         vec![
             "compare",
             p,

@@ -13,7 +13,7 @@ mod scheme;
 pub use case::{disturbance_span, Action, Case, CaseEvent, CaseSet, Start};
 pub use design::DesignLimits;
 pub use plant::{
-    Criteria, FrequencyTrip, MIN_JUDGED_S, Generator, Governor, Load, OffFrequencyLimit, OperatingPoint, Plant,
-    PrimeMover, Section, Tie, UndervoltageTrip, Utility,
+    Criteria, FrequencyTrip, Generator, Governor, Load, OffFrequencyLimit, OperatingPoint, Plant,
+    PrimeMover, Section, Tie, UndervoltageTrip, Utility, MIN_JUDGED_S,
 };
 pub use scheme::{BreakerRef, Measurement, Scheme, Stage, StageTrigger};

@@ -210,7 +210,6 @@ impl Criteria {
         self.required_disturbance_factor > 1.0 || self.required_model_error_pct > 0.0
     }
 
-
     /// Defaults scaled from nominal frequency; docs/files.md gives each one's source.
     pub fn defaults(nominal_hz: f64) -> Criteria {
         Criteria {

@@ -298,7 +298,15 @@ fn case(r: &mut Reader, p: &FieldPath, c: &RawCase, plant: &Plant) -> Case {
 
     // Judged only on a case that is otherwise sound, so one mistake gives one message.
     if duration_ok && r.diagnostics.len() + r.suppressed == said {
-        judgeable(r, p, c, &events, &utility_profile, duration_s, &plant.criteria);
+        judgeable(
+            r,
+            p,
+            c,
+            &events,
+            &utility_profile,
+            duration_s,
+            &plant.criteria,
+        );
     }
 
     if start == Start::Islanded {
