@@ -507,3 +507,26 @@ fn report_reads_and_writes_within_max_file_bytes() {
     assert!(size > 20_000 && size <= 4 * 1024 * 1024, "{size}");
     std::fs::remove_dir_all(&dir).ok();
 }
+
+// ------------------------------------------------------------------ a run's memory ceiling
+
+#[test]
+fn a_run_past_its_memory_ceiling_stops_with_its_status() {
+    let (plant, cases, scheme) = demo_all();
+    let case = cases.cases.iter().find(|c| c.id == "utility-loss").unwrap();
+    let full = simulate(&plant, case, 0, &scheme, &SimConfig::default());
+    assert_eq!(full.stop, StopReason::EndTime);
+    let tight = SimConfig {
+        max_kept_values: 200,
+        ..SimConfig::default()
+    };
+    let run = simulate(&plant, case, 0, &scheme, &tight);
+    let StopReason::NumericalFault { detail, .. } = &run.stop else {
+        panic!("expected a stop at the ceiling, got {:?}", run.stop);
+    };
+    assert!(
+        detail.starts_with("the run needs more than 200 kept state values")
+            && detail.contains("its memory ceiling"),
+        "{detail}"
+    );
+}

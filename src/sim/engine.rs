@@ -72,6 +72,9 @@ struct Engine<'a> {
     queue: Queue,
     events: Vec<LoggedEvent>,
     n_events: usize,
+    /// State values kept so far (accepted steps × state entries), against
+    /// `SimConfig::max_kept_values`.
+    kept_values: usize,
     max_events: usize,
     dips: Vec<Dip>,
     shed_mw: f64,
@@ -200,6 +203,7 @@ impl<'a> Engine<'a> {
             queue,
             events,
             n_events: 0,
+            kept_values: 0,
             max_events,
             dips: vec![],
             shed_mw: 0.0,
@@ -297,6 +301,23 @@ impl<'a> Engine<'a> {
                     return;
                 }
             };
+            self.kept_values = self
+                .kept_values
+                .saturating_add(seg.n_points().saturating_mul(self.y.len().max(1)));
+            if self.kept_values > self.cfg.max_kept_values {
+                self.fault = Some(StopReason::NumericalFault {
+                    at_s: self.t,
+                    detail: format!(
+                        "the run needs more than {} kept state values ({} integration steps of \
+                         {} states), its memory ceiling; shorten the case (duration_s) or split \
+                         the plant",
+                        self.cfg.max_kept_values,
+                        self.cfg.max_kept_values / self.y.len().max(1),
+                        self.y.len()
+                    ),
+                });
+                return;
+            }
             let last_t = seg.times[seg.times.len() - 1];
             let (t_stop, crossed) = match seg
                 .guard_hit
