@@ -6,7 +6,6 @@
 //! with exit code 2. Both settings are process-wide (one verb runs per process), set once by
 //! [`super::run`] and read here, so that every verb gets them without passing them around.
 
-use anyhow::Context;
 use nadir::input::Warning;
 use nadir::model::{CaseSet, Plant, Scheme};
 use std::path::Path;
@@ -37,22 +36,21 @@ pub fn verdict_caveat() -> Option<String> {
 }
 
 pub fn plant(path: &Path) -> anyhow::Result<Plant> {
-    let loaded = nadir::input::load_plant_warned(path)
-        .with_context(|| format!("reading plant file {}", path.display()))?;
+    let loaded = nadir::input::load_plant_warned(path).map_err(|e| context(e, "plant", path))?;
     show(&loaded.warnings)?;
     Ok(loaded.value)
 }
 
 pub fn cases(path: &Path, plant: &Plant) -> anyhow::Result<CaseSet> {
-    let loaded = nadir::input::load_cases_warned(path, plant)
-        .with_context(|| format!("reading cases file {}", path.display()))?;
+    let loaded =
+        nadir::input::load_cases_warned(path, plant).map_err(|e| context(e, "cases", path))?;
     show(&loaded.warnings)?;
     Ok(loaded.value)
 }
 
 pub fn scheme(path: &Path, plant: &Plant) -> anyhow::Result<Scheme> {
-    let loaded = nadir::input::load_scheme_warned(path, plant)
-        .with_context(|| format!("reading scheme file {}", path.display()))?;
+    let loaded =
+        nadir::input::load_scheme_warned(path, plant).map_err(|e| context(e, "scheme", path))?;
     show(&loaded.warnings)?;
     Ok(loaded.value)
 }
@@ -79,4 +77,19 @@ pub fn show(warnings: &[Warning]) -> anyhow::Result<()> {
         );
     }
     Ok(())
+}
+
+/// "reading plant file PATH" before the error; a file that cannot be opened says why in words,
+/// naming the path once.
+fn context(e: nadir::Error, role: &str, path: &Path) -> anyhow::Error {
+    match e {
+        nadir::Error::Io { source, .. } => anyhow::anyhow!(
+            "reading {role} file {}: {}",
+            path.display(),
+            nadir::report::write::cause(&source)
+        ),
+        other => {
+            anyhow::Error::new(other).context(format!("reading {role} file {}", path.display()))
+        }
+    }
 }
