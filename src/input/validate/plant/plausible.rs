@@ -17,7 +17,8 @@ pub const LOW_DROOP_PCT: f64 = 1.0;
 
 /// Shortest lag the simulator integrates as a lag, seconds; shorter governor, turbine and
 /// measurement lags are treated as instantaneous (docs/models.md, "Lags shorter than 10 ms").
-pub const SHORT_LAG_S: f64 = 0.01;
+/// The simulator's own threshold, [`crate::model::INSTANT_LAG_S`] (one place for both).
+pub const SHORT_LAG_S: f64 = crate::model::INSTANT_LAG_S;
 
 /// Typical inertia constants H (MW·s/MVA, on the machine's own rating) by prime mover, with where
 /// each range comes from.
