@@ -43,8 +43,10 @@ pub struct SimConfig {
     pub locate_tol_s: f64,
     /// Discrete events after which a run stops as an event storm (1000, plus the case's own).
     pub max_events: usize,
-    /// State values a run may keep (accepted steps × state entries, 10 million, about half a
-    /// gigabyte with the dense output): the run's memory ceiling. A run that needs more stops
+    /// State values a run may keep (accepted steps × state entries, 5 million, about half a
+    /// gigabyte with the dense output and the recorder's knots; a one-hour case of the demo
+    /// plant with every lag at the 10 ms floor keeps about 1.2 million): the run's memory
+    /// ceiling. A run that needs more stops
     /// with `NumericalFault` saying so, instead of growing without bound.
     pub max_kept_values: usize,
 }
@@ -71,7 +73,7 @@ impl Default for SimConfig {
             recover_above_hz: None,
             locate_tol_s: 1e-6,
             max_events: 1000,
-            max_kept_values: 10_000_000,
+            max_kept_values: 5_000_000,
         }
     }
 }
