@@ -135,7 +135,11 @@ fn output_or_max_above_the_rating_is_an_error_not_only_a_warning() {
 fn a_measurement_lag_under_10_ms_is_warned_as_instantaneous() {
     let plant = parse_plant(&demo_plant(), "plant.yaml").unwrap();
     let scheme = std::fs::read_to_string(root().join(SCHEME)).unwrap();
-    let scheme = slip(&scheme, "  frequency_lag_s: 0.04\n", "  frequency_lag_s: 0.004\n");
+    let scheme = slip(
+        &scheme,
+        "  frequency_lag_s: 0.04\n",
+        "  frequency_lag_s: 0.004\n",
+    );
     let w = nadir::input::parse_scheme_warned(&scheme, "s.yaml", &plant)
         .unwrap()
         .warnings;
