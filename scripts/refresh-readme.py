@@ -13,7 +13,7 @@ BLOCKS = {
     "### `nadir verify": [N, "verify", P, S, "--cases", C],
     "### `nadir replay": [N, "replay", P, S, "--cases", C, "--case", "utility-loss-then-engine-trip",
                           "--at", "full-rate", "--plot", "docs/demo-utility-loss-then-engine-trip.svg"],
-    "### `nadir audit": [N, "audit", P, S],
+    "### `nadir audit": [N, "audit", P, S, "--cases", C],
     "### `nadir compare": [N, "compare", P, S, "schemes/biorefinery-proposed.yaml", "--cases", C],
 }
 
