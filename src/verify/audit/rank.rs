@@ -26,7 +26,7 @@
 use super::Finding;
 use crate::model::{Action, BreakerRef, Case, CaseSet, Plant, Scheme, StageTrigger, Start};
 use crate::topology::{islands, BreakerState, Island};
-use std::collections::BTreeMap;
+use std::collections::{BTreeMap, BTreeSet};
 
 /// How many places a finding names before it says "and N more".
 const PLACES_SHOWN: usize = 3;
@@ -45,27 +45,31 @@ struct Event {
     grid_low_hz: Option<f64>,
 }
 
-/// The events judged: from the cases, or each breaker opening alone. Also says which in words.
-fn events(plant: &Plant, scheme: &Scheme, cases: Option<&CaseSet>) -> (Vec<Event>, String) {
+/// Calls `visit` with each event judged: from the cases, or each breaker opening alone. Returns
+/// which, in words. Events are made one at a time, so memory does not grow with their number.
+fn for_each_event(
+    plant: &Plant,
+    scheme: &Scheme,
+    cases: Option<&CaseSet>,
+    visit: &mut dyn FnMut(&Event),
+) -> String {
     match cases {
         Some(set) => {
-            let mut out = Vec::new();
             for case in &set.cases {
                 for &op in &case.applies_to {
-                    case_events(plant, scheme, case, op, &mut out);
+                    case_events(plant, scheme, case, op, visit);
                 }
             }
-            let basis = format!(
+            format!(
                 "each event of the {} case(s) at each operating point it applies to",
                 set.cases.len()
-            );
-            (out, basis)
+            )
         }
-        None => (
-            alone_events(plant, scheme),
+        None => {
+            alone_events(plant, scheme, visit);
             "each breaker opening alone (no cases given; give the cases file to judge the studied events)"
-                .to_string(),
-        ),
+                .to_string()
+        }
     }
 }
 
@@ -78,7 +82,13 @@ fn armed_by(scheme: &Scheme, breaker: BreakerRef) -> impl Iterator<Item = usize>
         .map(|(i, _)| i)
 }
 
-fn case_events(plant: &Plant, scheme: &Scheme, case: &Case, op: usize, out: &mut Vec<Event>) {
+fn case_events(
+    plant: &Plant,
+    scheme: &Scheme,
+    case: &Case,
+    op: usize,
+    out: &mut dyn FnMut(&Event),
+) {
     let f0 = plant.nominal_hz;
     let grid_low_hz = case
         .utility_profile
@@ -128,7 +138,7 @@ fn case_events(plant: &Plant, scheme: &Scheme, case: &Case, op: usize, out: &mut
         }
         armed.sort_unstable();
         armed.dedup();
-        out.push(Event {
+        out(&Event {
             label: format!("case {}, {} at {at_s:.2} s", case.id, what.join(" and ")),
             op,
             islands: islands(plant, &state),
@@ -145,7 +155,7 @@ fn case_events(plant: &Plant, scheme: &Scheme, case: &Case, op: usize, out: &mut
     // A grid-wide event: no action, the utility frequency itself falls.
     if case.events.is_empty() {
         if let Some(low) = grid_low_hz {
-            out.push(Event {
+            out(&Event {
                 label: format!("case {}, utility frequency falls to {low:.2} Hz", case.id),
                 op,
                 islands: islands(plant, &state),
@@ -157,8 +167,7 @@ fn case_events(plant: &Plant, scheme: &Scheme, case: &Case, op: usize, out: &mut
     }
 }
 
-fn alone_events(plant: &Plant, scheme: &Scheme) -> Vec<Event> {
-    let mut out = Vec::new();
+fn alone_events(plant: &Plant, scheme: &Scheme, out: &mut dyn FnMut(&Event)) {
     for op in 0..plant.operating_points.len() {
         let start = BreakerState::initial(plant, op, true);
         let mut breakers = Vec::new();
@@ -178,7 +187,7 @@ fn alone_events(plant: &Plant, scheme: &Scheme) -> Vec<Event> {
         if breakers.is_empty() {
             // Nothing to open (an islanded plant without ties or machines to trip): frequency can
             // still fall, on a load step say.
-            out.push(Event {
+            out(&Event {
                 label: "any disturbance".to_string(),
                 op,
                 islands: islands(plant, &start),
@@ -195,7 +204,7 @@ fn alone_events(plant: &Plant, scheme: &Scheme) -> Vec<Event> {
                 BreakerRef::Generator(_) => {}
             }
             let name = super::breaker_name(plant, b);
-            out.push(Event {
+            out(&Event {
                 label: match b {
                     BreakerRef::Generator(_) => format!("{name} trips alone"),
                     _ => format!("{name} opens alone"),
@@ -208,7 +217,6 @@ fn alone_events(plant: &Plant, scheme: &Scheme) -> Vec<Event> {
             });
         }
     }
-    out
 }
 
 /// The stages that can operate in an island at an event, grouped by when they act: each group
@@ -252,22 +260,45 @@ fn walk_order(plant: &Plant, scheme: &Scheme, event: &Event, island: &Island) ->
 #[derive(Default)]
 struct Gathered {
     /// Loads the stage opens too early, by (rank, load index).
-    opened: BTreeMap<(u32, usize), ()>,
-    /// Lower-ranked loads left connected meanwhile, by (rank, load index).
-    left_on: BTreeMap<(u32, usize), ()>,
-    /// Event label → operating point indices, in the order first met.
+    opened: BTreeSet<(u32, usize)>,
+    /// Lower-ranked loads left connected meanwhile, by (rank, load index); at most
+    /// [`LOADS_SHOWN`] + 1 are kept, enough to say that there are more.
+    left_on: BTreeSet<(u32, usize)>,
+    /// The first [`PLACES_SHOWN`] event labels with their operating point indices.
     places: Vec<(String, Vec<usize>)>,
+    /// Further (event, operating point) pairs where it also happens.
+    more: usize,
 }
+
+impl Gathered {
+    fn place(&mut self, label: &str, op: usize) {
+        if let Some((_, ops)) = self.places.iter_mut().find(|(l, _)| l == label) {
+            if !ops.contains(&op) {
+                ops.push(op);
+            }
+        } else if self.places.len() < PLACES_SHOWN {
+            self.places.push((label.to_string(), vec![op]));
+        } else {
+            self.more += 1;
+        }
+    }
+}
+
+/// How many left-connected loads a finding names before it says "and more".
+const LOADS_SHOWN: usize = 12;
 
 /// Every rank-order finding, one per stage and rule, naming the loads and where it happens; and
 /// which events were judged, in words.
+///
+/// Cost: for each event, O(loads + loads listed in stages) and a sort of the island's loads by
+/// rank; memory does not grow with the number of events.
 pub fn rank_order(
     plant: &Plant,
     scheme: &Scheme,
     cases: Option<&CaseSet>,
 ) -> (Vec<Finding>, String) {
-    let (events, basis) = events(plant, scheme, cases);
-    let in_a_stage: Vec<bool> = (0..plant.loads.len())
+    let n_loads = plant.loads.len();
+    let in_a_stage: Vec<bool> = (0..n_loads)
         .map(|l| scheme.stages.iter().any(|s| s.sheds.contains(&l)))
         .collect();
     let order = scheme.operating_order();
@@ -275,20 +306,32 @@ pub fn rank_order(
     for (k, &i) in order.iter().enumerate() {
         position[i] = k;
     }
+    // Every load, by rank then index: filtered per island, the walk's "lowest still connected".
+    let mut by_rank: Vec<usize> = (0..n_loads).collect();
+    by_rank.sort_by_key(|&l| (plant.loads[l].rank, l));
     // Keyed by (stage position in operating order, rule) for a stable order.
     let mut found: BTreeMap<(usize, &'static str), Gathered> = BTreeMap::new();
-    for event in &events {
+    let mut on = vec![false; n_loads];
+    let basis = for_each_event(plant, scheme, cases, &mut |event: &Event| {
         let load_mw = &plant.operating_points[event.op].load_mw;
+        // Findings this event adds to: its place is recorded once for each.
+        let mut touched: BTreeSet<(usize, &'static str)> = BTreeSet::new();
         for island in &event.islands {
-            // Sheddable loads of this island still connected.
-            let mut on: Vec<bool> = (0..plant.loads.len())
-                .map(|l| {
+            // Sheddable loads of this island still connected, lowest rank first.
+            let island_loads: Vec<usize> = by_rank
+                .iter()
+                .copied()
+                .filter(|&l| {
                     island.contains(plant.loads[l].section)
                         && !plant.loads[l].never_shed
                         && load_mw[l] > 0.0
                         && !event.already_open[l]
                 })
                 .collect();
+            for &l in &island_loads {
+                on[l] = true;
+            }
+            let mut lowest = 0; // index into island_loads of the lowest-ranked load still on
             for group in walk_order(plant, scheme, event, island) {
                 let opened: Vec<(usize, usize)> = group
                     .iter()
@@ -298,33 +341,55 @@ pub fn rank_order(
                 for &(_, l) in &opened {
                     on[l] = false;
                 }
+                while lowest < island_loads.len() && !on[island_loads[lowest]] {
+                    lowest += 1;
+                }
                 for &(s, l) in &opened {
                     let rank = plant.loads[l].rank;
-                    for m in (0..plant.loads.len()).filter(|&m| on[m] && plant.loads[m].rank < rank)
-                    {
+                    let mut left = island_loads[lowest..]
+                        .iter()
+                        .copied()
+                        .take_while(|&m| plant.loads[m].rank < rank)
+                        .filter(|&m| on[m])
+                        .peekable();
+                    if left.peek().is_none() {
+                        continue;
+                    }
+                    for m in left {
                         let rule = if in_a_stage[m] {
                             "rank-order"
                         } else {
                             "unassigned-lower-rank"
                         };
                         let g = found.entry((position[s], rule)).or_default();
-                        g.opened.insert((rank, l), ());
-                        g.left_on.insert((plant.loads[m].rank, m), ());
-                        match g.places.iter_mut().find(|(label, _)| *label == event.label) {
-                            Some((_, ops)) if !ops.contains(&event.op) => ops.push(event.op),
-                            Some(_) => {}
-                            None => g.places.push((event.label.clone(), vec![event.op])),
+                        g.opened.insert((rank, l));
+                        if g.left_on.len() <= LOADS_SHOWN {
+                            g.left_on.insert((plant.loads[m].rank, m));
                         }
+                        touched.insert((position[s], rule));
                     }
                 }
             }
+            for &l in &island_loads {
+                on[l] = false;
+            }
         }
-    }
-    let loads = |set: &BTreeMap<(u32, usize), ()>| -> String {
-        set.keys()
+        for key in touched {
+            if let Some(g) = found.get_mut(&key) {
+                g.place(&event.label, event.op);
+            }
+        }
+    });
+    let names = |set: &BTreeSet<(u32, usize)>, cap: usize| -> String {
+        let mut out: Vec<String> = set
+            .iter()
+            .take(cap)
             .map(|&(r, m)| format!("{} (rank {r})", plant.loads[m].id))
-            .collect::<Vec<_>>()
-            .join(", ")
+            .collect();
+        if set.len() > cap {
+            out.push("more".to_string());
+        }
+        out.join(", ")
     };
     let findings = found
         .into_iter()
@@ -338,7 +403,6 @@ pub fn rank_order(
             let mut places: Vec<String> = g
                 .places
                 .iter()
-                .take(PLACES_SHOWN)
                 .map(|(label, ops)| {
                     let ops: Vec<&str> = ops
                         .iter()
@@ -347,16 +411,19 @@ pub fn rank_order(
                     format!("{label}, at {}", ops.join(", "))
                 })
                 .collect();
-            if g.places.len() > PLACES_SHOWN {
-                places.push(format!("and {} more", g.places.len() - PLACES_SHOWN));
+            if g.more > 0 {
+                places.push(format!(
+                    "and {} more (event, operating point) pair(s)",
+                    g.more
+                ));
             }
             Finding {
                 rule,
                 message: format!(
                     "stage {} opens {} while lower-ranked {} of the same island {what} ({})",
                     scheme.stages[order[pos]].id,
-                    loads(&g.opened),
-                    loads(&g.left_on),
+                    names(&g.opened, usize::MAX),
+                    names(&g.left_on, LOADS_SHOWN),
                     places.join("; ")
                 ),
             }
