@@ -26,7 +26,7 @@
 use super::Finding;
 use crate::model::{Action, BreakerRef, Case, CaseSet, Plant, Scheme, StageTrigger, Start};
 use crate::topology::{islands, BreakerState, Island};
-use std::collections::{BTreeMap, BTreeSet};
+use std::collections::BTreeSet;
 
 /// How many places a finding names before it says "and N more".
 const PLACES_SHOWN: usize = 3;
@@ -221,15 +221,20 @@ fn alone_events(plant: &Plant, scheme: &Scheme, out: &mut dyn FnMut(&Event)) {
 
 /// The stages that can operate in an island at an event, grouped by when they act: each group
 /// holds stages with the same settings, which operate together.
-fn walk_order(plant: &Plant, scheme: &Scheme, event: &Event, island: &Island) -> Vec<Vec<usize>> {
+/// `order` is the scheme's operating order, `measures` each stage's measuring section.
+fn walk_order(
+    scheme: &Scheme,
+    order: &[usize],
+    measures: &[Option<usize>],
+    event: &Event,
+    island: &Island,
+) -> Vec<Vec<usize>> {
     let can_operate = |i: usize| {
         let stage = &scheme.stages[i];
         match stage.trigger {
             StageTrigger::Breaker(_) => event.armed.contains(&i),
             StageTrigger::Frequency { pickup_hz, .. } => {
-                stage
-                    .measuring_section(plant)
-                    .is_some_and(|s| island.contains(s))
+                measures[i].is_some_and(|s| island.contains(s))
                     && (!island.on_utility || event.grid_low_hz.is_some_and(|low| low < pickup_hz))
             }
         }
@@ -243,11 +248,7 @@ fn walk_order(plant: &Plant, scheme: &Scheme, event: &Event, island: &Island) ->
             }
     };
     let mut groups: Vec<Vec<usize>> = Vec::new();
-    for i in scheme
-        .operating_order()
-        .into_iter()
-        .filter(|&i| can_operate(i))
-    {
+    for i in order.iter().copied().filter(|&i| can_operate(i)) {
         match groups.last_mut() {
             Some(g) if same_time(g[0], i) => g.push(i),
             _ => groups.push(vec![i]),
@@ -259,8 +260,8 @@ fn walk_order(plant: &Plant, scheme: &Scheme, event: &Event, island: &Island) ->
 /// One stage's broken rule, gathered over every place it happens.
 #[derive(Default)]
 struct Gathered {
-    /// Loads the stage opens too early, by (rank, load index).
-    opened: BTreeSet<(u32, usize)>,
+    /// Whether the stage opens each load (by index) too early somewhere.
+    opened: Vec<bool>,
     /// Lower-ranked loads left connected meanwhile, by (rank, load index); at most
     /// [`LOADS_SHOWN`] + 1 are kept, enough to say that there are more.
     left_on: BTreeSet<(u32, usize)>,
@@ -290,8 +291,8 @@ const LOADS_SHOWN: usize = 12;
 /// Every rank-order finding, one per stage and rule, naming the loads and where it happens; and
 /// which events were judged, in words.
 ///
-/// Cost: for each event, O(loads + loads listed in stages) and a sort of the island's loads by
-/// rank; memory does not grow with the number of events.
+/// Cost: for each event, O(sections + loads + islands × stages + loads listed in stages ×
+/// [`LOADS_SHOWN`]); memory does not grow with the number of events.
 pub fn rank_order(
     plant: &Plant,
     scheme: &Scheme,
@@ -309,73 +310,131 @@ pub fn rank_order(
     // Every load, by rank then index: filtered per island, the walk's "lowest still connected".
     let mut by_rank: Vec<usize> = (0..n_loads).collect();
     by_rank.sort_by_key(|&l| (plant.loads[l].rank, l));
+    // The hot loop reads these compact copies rather than the load records.
+    let rank: Vec<u32> = plant.loads.iter().map(|l| l.rank).collect();
+    let section: Vec<usize> = plant.loads.iter().map(|l| l.section).collect();
+    let sheddable: Vec<bool> = plant.loads.iter().map(|l| !l.never_shed).collect();
+    let measures: Vec<Option<usize>> = scheme
+        .stages
+        .iter()
+        .map(|s| s.measuring_section(plant))
+        .collect();
     // Keyed by (stage position in operating order, rule) for a stable order.
-    let mut found: BTreeMap<(usize, &'static str), Gathered> = BTreeMap::new();
+    // By stage position in operating order × 2 + rule, so the findings come out in that order.
+    let mut found: Vec<Option<Gathered>> = (0..2 * order.len()).map(|_| None).collect();
+    let mut touched_flag = vec![false; found.len()];
     let mut on = vec![false; n_loads];
+    let mut slot = vec![0; n_loads];
     let basis = for_each_event(plant, scheme, cases, &mut |event: &Event| {
         let load_mw = &plant.operating_points[event.op].load_mw;
         // Findings this event adds to: its place is recorded once for each.
-        let mut touched: BTreeSet<(usize, &'static str)> = BTreeSet::new();
-        for island in &event.islands {
-            // Sheddable loads of this island still connected, lowest rank first.
-            let island_loads: Vec<usize> = by_rank
+        let mut touched: Vec<usize> = Vec::new();
+        // Sheddable loads still connected, lowest rank first, bucketed by island in one pass.
+        let mut island_of_section = vec![usize::MAX; plant.sections.len()];
+        for (k, island) in event.islands.iter().enumerate() {
+            for &sec in &island.sections {
+                island_of_section[sec] = k;
+            }
+        }
+        let mut buckets: Vec<Vec<usize>> = vec![Vec::new(); event.islands.len()];
+        for &l in &by_rank {
+            let k = island_of_section[section[l]];
+            if k != usize::MAX && sheddable[l] && load_mw[l] > 0.0 && !event.already_open[l] {
+                buckets[k].push(l);
+            }
+        }
+        for (island, island_loads) in event.islands.iter().zip(&buckets) {
+            // Loads some stage lists, still connected, as a list linked in rank order (opening
+            // one unlinks it); loads in no stage stay connected throughout.
+            let staged: Vec<usize> = island_loads
                 .iter()
                 .copied()
-                .filter(|&l| {
-                    island.contains(plant.loads[l].section)
-                        && !plant.loads[l].never_shed
-                        && load_mw[l] > 0.0
-                        && !event.already_open[l]
-                })
+                .filter(|&l| in_a_stage[l])
                 .collect();
-            for &l in &island_loads {
+            let unstaged: Vec<usize> = island_loads
+                .iter()
+                .copied()
+                .filter(|&l| !in_a_stage[l])
+                .collect();
+            let end = staged.len();
+            let mut next: Vec<usize> = (1..=end).collect();
+            let mut prev: Vec<usize> = (0..end).map(|k| k.wrapping_sub(1)).collect();
+            let mut head = if end > 0 { 0 } else { end };
+            for (k, &l) in staged.iter().enumerate() {
                 on[l] = true;
+                slot[l] = k;
             }
-            let mut lowest = 0; // index into island_loads of the lowest-ranked load still on
-            for group in walk_order(plant, scheme, event, island) {
+            for group in walk_order(scheme, &order, &measures, event, island) {
                 let opened: Vec<(usize, usize)> = group
                     .iter()
                     .flat_map(|&s| scheme.stages[s].sheds.iter().map(move |&l| (s, l)))
                     .filter(|&(_, l)| on[l])
                     .collect();
                 for &(_, l) in &opened {
-                    on[l] = false;
-                }
-                while lowest < island_loads.len() && !on[island_loads[lowest]] {
-                    lowest += 1;
-                }
-                for &(s, l) in &opened {
-                    let rank = plant.loads[l].rank;
-                    let mut left = island_loads[lowest..]
-                        .iter()
-                        .copied()
-                        .take_while(|&m| plant.loads[m].rank < rank)
-                        .filter(|&m| on[m])
-                        .peekable();
-                    if left.peek().is_none() {
+                    if !std::mem::replace(&mut on[l], false) {
                         continue;
                     }
-                    for m in left {
-                        let rule = if in_a_stage[m] {
-                            "rank-order"
-                        } else {
-                            "unassigned-lower-rank"
+                    let k = slot[l];
+                    if prev[k] == usize::MAX {
+                        head = next[k];
+                    } else {
+                        next[prev[k]] = next[k];
+                    }
+                    if next[k] < end {
+                        prev[next[k]] = prev[k];
+                    }
+                }
+                for &(s, l) in &opened {
+                    let rank_l = rank[l];
+                    // Rule 0: a lower-ranked load some stage lists is still connected; rule 1: a
+                    // lower-ranked load in no stage is connected. No allocation on this path.
+                    for rule in [0u8, 1] {
+                        let first = match rule {
+                            0 => (head < end).then(|| staged[head]),
+                            _ => unstaged.first().copied(),
                         };
-                        let g = found.entry((position[s], rule)).or_default();
-                        g.opened.insert((rank, l));
-                        if g.left_on.len() <= LOADS_SHOWN {
-                            g.left_on.insert((plant.loads[m].rank, m));
+                        if !first.is_some_and(|m| rank[m] < rank_l) {
+                            continue;
                         }
-                        touched.insert((position[s], rule));
+                        let key = 2 * position[s] + usize::from(rule);
+                        let g = found[key].get_or_insert_with(|| Gathered {
+                            opened: vec![false; n_loads],
+                            ..Gathered::default()
+                        });
+                        g.opened[l] = true;
+                        if !std::mem::replace(&mut touched_flag[key], true) {
+                            touched.push(key);
+                        }
+                        if g.left_on.len() > LOADS_SHOWN {
+                            continue;
+                        }
+                        if rule == 0 {
+                            let mut k = head;
+                            while k < end
+                                && rank[staged[k]] < rank_l
+                                && g.left_on.len() <= LOADS_SHOWN
+                            {
+                                g.left_on.insert((rank[staged[k]], staged[k]));
+                                k = next[k];
+                            }
+                        } else {
+                            for &m in unstaged.iter().take_while(|&&m| rank[m] < rank_l) {
+                                if g.left_on.len() > LOADS_SHOWN {
+                                    break;
+                                }
+                                g.left_on.insert((rank[m], m));
+                            }
+                        }
                     }
                 }
             }
-            for &l in &island_loads {
+            for &l in &staged {
                 on[l] = false;
             }
         }
         for key in touched {
-            if let Some(g) = found.get_mut(&key) {
+            touched_flag[key] = false;
+            if let Some(g) = found[key].as_mut() {
                 g.place(&event.label, event.op);
             }
         }
@@ -393,7 +452,18 @@ pub fn rank_order(
     };
     let findings = found
         .into_iter()
-        .map(|((pos, rule), g)| {
+        .enumerate()
+        .filter_map(|(key, g)| g.map(|g| (key / 2, key % 2, g)))
+        .map(|(pos, rule, g)| {
+            let opened: BTreeSet<(u32, usize)> = (0..n_loads)
+                .filter(|&l| g.opened[l])
+                .map(|l| (rank[l], l))
+                .collect();
+            let rule = if rule == 0 {
+                "rank-order"
+            } else {
+                "unassigned-lower-rank"
+            };
             let verb = if g.left_on.len() == 1 { "is" } else { "are" };
             let what = if rule == "rank-order" {
                 format!("{verb} still connected")
@@ -422,7 +492,7 @@ pub fn rank_order(
                 message: format!(
                     "stage {} opens {} while lower-ranked {} of the same island {what} ({})",
                     scheme.stages[order[pos]].id,
-                    names(&g.opened, usize::MAX),
+                    names(&opened, usize::MAX),
                     names(&g.left_on, LOADS_SHOWN),
                     places.join("; ")
                 ),
