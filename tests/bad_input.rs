@@ -854,7 +854,7 @@ fn valid_files_give_no_diagnostics_and_resolve() {
     let cases = parse_cases(&read("cases_ok.yaml"), "cases_ok.yaml", &plant).unwrap();
     let c = &cases.cases[1];
     assert_eq!(c.applies_to, vec![0]);
-    assert_eq!(c.duration_s, 20.0);
+    assert_eq!(c.duration_s, 25.0);
     assert_eq!(cases.cases[0].duration_s, 30.0);
     assert_eq!(cases.cases[0].applies_to, vec![0, 1]);
     assert_eq!(cases.cases[0].weight, 1.0);
@@ -1178,7 +1178,7 @@ fn cases_type_errors_in_three_cases() {
 fn plant_with_loads(n: usize) -> String {
     let mut t = String::from(
         "plant: { name: generated, nominal_hz: 50 }\n\
-         generators:\n  - { id: g, section: main, rating_mva: 9000, inertia_s: 3, output_mw: 1, \
+         generators:\n  - { id: g, section: main, rating_mva: 9000, inertia_s: 3, output_mw: 0.8, \
          governor: { model: steam, droop_pct: 5 } }\nloads:\n",
     );
     for i in 0..n {

@@ -33,6 +33,7 @@ pub fn cases(r: &mut Reader, map: &Mapping, plant: &Plant) -> Option<CaseSet> {
 }
 
 fn case(r: &mut Reader, p: &FieldPath, c: &RawCase, plant: &Plant) -> Case {
+    let said = r.diagnostics.len() + r.suppressed;
     let PlantIds {
         sections,
         generators: gens,
@@ -45,7 +46,8 @@ fn case(r: &mut Reader, p: &FieldPath, c: &RawCase, plant: &Plant) -> Case {
         RawStart::Islanded => Start::Islanded,
     };
     let mut applies_to: Vec<usize> = Vec::new();
-    for (k, id) in c.only_at.iter().enumerate() {
+    let only_at = c.only_at.as_deref().unwrap_or_default();
+    for (k, id) in only_at.iter().enumerate() {
         match plant.operating_point_index(id) {
             Some(i) => {
                 if !applies_to.contains(&i) {
@@ -55,8 +57,20 @@ fn case(r: &mut Reader, p: &FieldPath, c: &RawCase, plant: &Plant) -> Case {
             None => unknown_id(r, &p.key("only_at").index(k), "operating point", id, &ops),
         }
     }
-    if c.only_at.is_empty() {
-        applies_to = (0..plant.operating_points.len()).collect();
+    match &c.only_at {
+        None => applies_to = (0..plant.operating_points.len()).collect(),
+        Some(list) if list.is_empty() => r.error(
+            &p.key("only_at"),
+            format!(
+                "case `{}` lists no operating point in only_at, so it would run nowhere",
+                c.id
+            ),
+            format!(
+                "name the points it applies to, e.g. `only_at: [{}]`, or remove only_at to run it at every point",
+                ops.first().copied().unwrap_or("normal")
+            ),
+        ),
+        Some(_) => {}
     }
     let duration_s = c.duration_s.unwrap_or(d::CASE_DURATION_S);
     let mut duration_ok = c.duration_s.is_none()
@@ -281,6 +295,32 @@ fn case(r: &mut Reader, p: &FieldPath, c: &RawCase, plant: &Plant) -> Case {
         );
         utility_profile.push((pt.at_s, pt.hz));
     }
+    // One warning per profile: its first point nearer the other nominal frequency.
+    let other = if f0 == 60.0 { 50.0 } else { 60.0 };
+    if let Some(k) = raw_profile
+        .iter()
+        .position(|pt| (pt.hz - other).abs() < (pt.hz - f0).abs())
+    {
+        other_nominal(
+            r,
+            &p.key("utility_hz").index(k).key("hz"),
+            raw_profile[k].hz,
+            f0,
+        );
+    }
+
+    // Judged only on a case that is otherwise sound, so one mistake gives one message.
+    if duration_ok && r.diagnostics.len() + r.suppressed == said {
+        judgeable(
+            r,
+            p,
+            c,
+            &events,
+            &utility_profile,
+            duration_s,
+            &plant.criteria,
+        );
+    }
 
     if start == Start::Islanded {
         for &k in &applies_to {
@@ -295,6 +335,12 @@ fn case(r: &mut Reader, p: &FieldPath, c: &RawCase, plant: &Plant) -> Case {
                             section_list(plant, island)
                         ),
                         "limit the case with only_at to operating points that can run islanded".to_string(),
+                    );
+                } else if let Some(short) = islanded_shortfall(plant, k, island) {
+                    r.error(
+                        &p.key("start"),
+                        short.message(&c.id, plant, k, island),
+                        short.help(),
                     );
                 }
             }
@@ -311,6 +357,73 @@ fn case(r: &mut Reader, p: &FieldPath, c: &RawCase, plant: &Plant) -> Case {
         events,
         utility_profile,
     }
+}
+
+/// A criterion that the run cannot judge is an input error, not a pass on the last sample: the
+/// settling band must be watched for at least [`MIN_JUDGED_S`] before the run ends, and so must
+/// the recovery level after its deadline.
+fn judgeable(
+    r: &mut Reader,
+    p: &FieldPath,
+    c: &RawCase,
+    events: &[CaseEvent],
+    profile: &[(f64, f64)],
+    duration_s: f64,
+    criteria: &Criteria,
+) {
+    let (first, last) = disturbance_span(events, profile);
+    let settle_from = first + criteria.settle_within_s;
+    let deadline = last + criteria.recover_within_s;
+    let needed = (settle_from.max(deadline) + MIN_JUDGED_S).ceil();
+    if needed <= duration_s + 1e-9 {
+        return;
+    }
+    let path = if c.duration_s.is_some() {
+        p.key("duration_s")
+    } else {
+        p.key("id")
+    };
+    let duration = if c.duration_s.is_some() {
+        format!("duration_s of {} s", num_text(duration_s))
+    } else {
+        format!("default duration_s of {} s", num_text(duration_s))
+    };
+    let mut why = Vec::new();
+    if settle_from + MIN_JUDGED_S > duration_s + 1e-9 {
+        why.push(format!(
+            "the settling band is judged from {} s ({} s after the disturbance starts at {} s, criteria.settle.within_s)",
+            num_text(settle_from),
+            num_text(criteria.settle_within_s),
+            num_text(first)
+        ));
+    }
+    if deadline + MIN_JUDGED_S > duration_s + 1e-9 {
+        why.push(format!(
+            "the recovery deadline is {} s ({} s after the last event at {} s, criteria.recover.within_s)",
+            num_text(deadline),
+            num_text(criteria.recover_within_s),
+            num_text(last)
+        ));
+    }
+    r.error(
+        &path,
+        format!(
+            "case `{}` cannot be judged within its {duration}: {}, and a criterion needs at least {} s of the run after that",
+            c.id,
+            why.join(" and "),
+            num_text(MIN_JUDGED_S)
+        ),
+        format!(
+            "write `duration_s: {}` (or more) in the case, or shorten the criterion in the plant file",
+            num_text(needed)
+        ),
+    );
+}
+
+/// A number as the user would write it: no trailing zeros.
+fn num_text(v: f64) -> String {
+    let s = format!("{v:.3}");
+    s.trim_end_matches('0').trim_end_matches('.').to_string()
 }
 
 /// The items of a list inside a case, or none when there are more than `limit` allows (reported
@@ -330,4 +443,66 @@ fn within_limit<'a, T>(
     let message = limits::over_limit_message(&r.limits, limit, &subject, n);
     r.error(path, message, limits::over_limit_help(limit, n));
     &[]
+}
+
+/// What the machines of an island cannot take up when a case starts islanded.
+struct Shortfall {
+    /// Load − generation of the island (the import it loses; negative: an export).
+    need_mw: f64,
+    /// What its governed machines can raise (or lower, for an export) within their limits.
+    room_mw: f64,
+}
+
+impl Shortfall {
+    fn message(&self, case: &str, plant: &Plant, op: usize, island: &Island) -> String {
+        let (flow, can, short) = if self.need_mw > 0.0 {
+            ("import", "raise their output by", "short")
+        } else {
+            ("export", "lower their output by", "in excess")
+        };
+        format!(
+            "case `{case}` starts islanded, but at operating point `{}` the {} MW {flow} must be taken up by the machines online in section(s) {}, which can {can} only {} MW (governed machines within max_mw and min_mw): {} MW {short}",
+            plant.operating_points[op].id,
+            mw(self.need_mw.abs()),
+            section_list(plant, island),
+            mw(self.room_mw),
+            mw(self.need_mw.abs() - self.room_mw),
+        )
+    }
+
+    fn help(&self) -> String {
+        "start the case connected and open the utility breaker as its first event, limit it with only_at to operating points that can island, or change the dispatch or loads of this point".to_string()
+    }
+}
+
+/// Starting islanded, the island's governed machines must take up its load − generation within
+/// their limits (the rule of [`crate::screening`] and the simulator's start); `None` when they
+/// can, to within 1 kW.
+fn islanded_shortfall(plant: &Plant, op: usize, island: &Island) -> Option<Shortfall> {
+    let o = &plant.operating_points[op];
+    let load: f64 = plant
+        .loads
+        .iter()
+        .enumerate()
+        .filter(|(_, l)| island.contains(l.section))
+        .map(|(i, _)| o.load_mw[i])
+        .sum();
+    let mut gen = 0.0;
+    let mut raise = 0.0;
+    let mut lower = 0.0;
+    for (g, m) in plant.generators.iter().enumerate() {
+        if !o.online[g] || !island.contains(m.section) {
+            continue;
+        }
+        gen += o.output_mw[g];
+        let governed = m.governor.prime_mover != PrimeMover::Fixed
+            && (m.governor.isochronous || m.governor.droop_pct > 0.0);
+        if governed {
+            raise += (m.max_mw - o.output_mw[g]).max(0.0);
+            lower += (o.output_mw[g] - m.min_mw).max(0.0);
+        }
+    }
+    let need_mw = load - gen;
+    let room_mw = if need_mw > 0.0 { raise } else { lower };
+    (need_mw.abs() > room_mw + 1e-3).then_some(Shortfall { need_mw, room_mw })
 }
