@@ -71,7 +71,14 @@ pub fn run(args: VerifyArgs) -> anyhow::Result<Outcome> {
     let m = matrix::verify(&plant, &cases, &scheme, &config, &|| bar.inc(1));
     bar.finish_and_clear();
     let text = match args.format {
-        Format::Table => render_table(&m, &plant, &scheme.name, args.wide),
+        Format::Table => {
+            let mut t = render_table(&m, &plant, &scheme.name, args.wide);
+            if let Some(caveat) = load::verdict_caveat() {
+                t.push_str(&caveat);
+                t.push('\n');
+            }
+            t
+        }
         Format::Json => {
             let doc = verify_document(&m, &plant, &scheme, env!("CARGO_PKG_VERSION"));
             serde_json::to_string_pretty(&doc)? + "\n"
