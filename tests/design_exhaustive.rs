@@ -547,9 +547,11 @@ fn describe(plant: &Plant, cases: &CaseSet, scheme: &Scheme) -> String {
                 "    {} at {}: nadir {}, stages [{}]",
                 r.case,
                 r.operating_point,
-                r.observed
-                    .as_ref()
-                    .map_or("stopped".to_string(), |o| format!("{:.3} Hz", o.nadir_hz)),
+                if r.status.is_some() {
+                    "stopped".to_string()
+                } else {
+                    format!("{:.3} Hz", r.observed.nadir_hz)
+                },
                 r.stages_operated.join(" ")
             )
         })

@@ -9,6 +9,8 @@ pub const STOPPED: &str = "stopped";
 /// What a table shows in any other figure cell of such a run.
 pub const NO_FIGURE: &str = "—";
 
+pub mod figures;
 pub mod html;
+pub mod output;
 pub mod svg;
 pub mod write;
