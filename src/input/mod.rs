@@ -44,6 +44,9 @@ pub fn parse_scheme(text: &str, file: &str, plant: &Plant) -> Result<Scheme, Vec
 /// [`parse_plant`] under the given limits instead of the environment's.
 pub fn parse_plant_with(text: &str, file: &str, limits: &Limits) -> Result<Plant, Vec<Diagnostic>> {
     let (mut r, map) = Reader::open(text, file, limits)?;
+    if validate::wrong_kind(&mut r, &map, validate::FileKind::Plant) {
+        return Err(nonempty(r, file));
+    }
     match validate::plant(&mut r, &map) {
         Some(p) if r.diagnostics.is_empty() => Ok(p),
         _ => Err(nonempty(r, file)),
@@ -58,6 +61,9 @@ pub fn parse_cases_with(
     limits: &Limits,
 ) -> Result<CaseSet, Vec<Diagnostic>> {
     let (mut r, map) = Reader::open(text, file, limits)?;
+    if validate::wrong_kind(&mut r, &map, validate::FileKind::Cases) {
+        return Err(nonempty(r, file));
+    }
     match validate::cases(&mut r, &map, plant) {
         Some(c) if r.diagnostics.is_empty() => Ok(c),
         _ => Err(nonempty(r, file)),
@@ -72,6 +78,9 @@ pub fn parse_scheme_with(
     limits: &Limits,
 ) -> Result<Scheme, Vec<Diagnostic>> {
     let (mut r, map) = Reader::open(text, file, limits)?;
+    if validate::wrong_kind(&mut r, &map, validate::FileKind::Scheme) {
+        return Err(nonempty(r, file));
+    }
     let stem = Path::new(file)
         .file_stem()
         .and_then(|s| s.to_str())
