@@ -18,6 +18,7 @@ mod scheme;
 
 pub use cases::cases;
 pub use plant::plant;
+use plant::{other_nominal, short_lag, SHORT_LAG_S};
 pub use scheme::scheme;
 
 use super::defaults as d;
@@ -25,6 +26,7 @@ use super::limits;
 use super::locate::{FieldPath, Seg};
 use super::raw::*;
 use super::read::{quoted_list, Reader, Slot};
+use super::warn::Code;
 use crate::model::*;
 use crate::topology::{self, BreakerState, Island};
 use serde_yaml::Mapping;
@@ -62,8 +64,9 @@ fn written(options: &[(&'static str, bool)]) -> (usize, String) {
     (given.len(), said)
 }
 
-/// A number as a message shows it: at most 6 significant digits and no trailing zeros, so a sum
-/// such as 5.712000000000001 reads 5.712; very large and very small magnitudes in exponent form.
+/// A value of any unit in a range message: at most 6 significant digits and no trailing zeros, so
+/// 5.712000000000001 reads 5.712, while a tiny time constant such as 1e-12 s is still shown (MW
+/// figures that nadir computes use [`mw`]); very large and very small magnitudes in exponent form.
 fn shown(x: f64) -> String {
     if !x.is_finite() {
         return format!("{x}");
@@ -162,6 +165,21 @@ fn num(r: &mut Reader, path: &FieldPath, v: f64, lo: Lo, hi: Hi, unit: &str) -> 
         return false;
     }
     true
+}
+
+/// MW (or any figure) as a message shows it: at most three decimals, no trailing zeros.
+fn mw(v: f64) -> String {
+    if v.abs() >= 1e9 {
+        // A slip of many orders of magnitude: keep the message short.
+        return format!("{v:e}");
+    }
+    let s = format!("{v:.3}");
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    if s == "-0" {
+        "0".to_string()
+    } else {
+        s.to_string()
+    }
 }
 
 /// Time delays and time constants: (0, 60] s unless said otherwise.
