@@ -4,6 +4,8 @@
 //! writes goes through [`write`] (outputs checked against the inputs before any work, then written
 //! atomically and race-free), so an interrupted run never leaves a truncated file.
 
+pub mod figures;
 pub mod html;
+pub mod output;
 pub mod svg;
 pub mod write;
