@@ -311,7 +311,7 @@ impl Ids {
 
 /// An id or name as a message quotes it: shortened past [`limits::MAX_QUOTED_CHARS`]
 /// characters, with its length, so that a huge id does not make a huge message.
-pub fn shown(id: &str) -> String {
+pub fn shown_id(id: &str) -> String {
     let n = id.chars().count();
     if n <= limits::MAX_QUOTED_CHARS {
         return id.to_string();
@@ -463,7 +463,7 @@ fn unknown_id(r: &mut Reader, path: &FieldPath, kind: &str, id: &str, known: &[&
         return;
     }
     let near = near_matches(id, known.iter().copied());
-    let id = &shown(id);
+    let id = &shown_id(id);
     let msg = if known.is_empty() {
         format!("unknown {kind} `{id}`; the plant has no {kind}s")
     } else if known.len() <= 8 {
