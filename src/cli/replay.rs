@@ -4,8 +4,8 @@
 use super::check::fmt;
 use super::{load, Outcome};
 use anyhow::{bail, Context};
-use nadir::model::{Plant, Scheme, StageTrigger};
-use nadir::report::svg::{self, FrequencyPlot, Level, LevelKind, Series};
+use nadir::model::Plant;
+use nadir::report::plot::{self, RunAt};
 use nadir::report::write::{write_atomic, Overwrite};
 use nadir::sim::{self, Cause, EventKind, Run};
 use nadir::verify::criteria::judge;
@@ -33,12 +33,17 @@ pub struct ReplayArgs {
     /// Write the sampled frequencies and shed MW as CSV.
     #[arg(long, value_name = "FILE")]
     pub csv: Option<PathBuf>,
-    /// Write a plot of frequency and shed MW against time as SVG.
-    #[arg(long, value_name = "FILE.svg")]
+    /// Write a plot of every island's frequency, the limits, events, stages and MW shed against
+    /// time: PNG when FILE ends in .png, SVG when it ends in .svg (other extensions are refused).
+    #[arg(long, value_name = "FILE.svg|FILE.png")]
     pub plot: Option<PathBuf>,
 }
 
 pub fn run(args: ReplayArgs) -> anyhow::Result<Outcome> {
+    let plot_format = match &args.plot {
+        Some(path) => Some(plot::Format::for_path(path).map_err(anyhow::Error::msg)?),
+        None => None,
+    };
     let plant = load::plant(&args.plant)?;
     let cases = load::cases(&args.cases, &plant)?;
     let scheme = load::scheme(&args.scheme, &plant)?;
@@ -121,11 +126,15 @@ pub fn run(args: ReplayArgs) -> anyhow::Result<Outcome> {
             .with_context(|| "writing the CSV")?;
         out.push_str(&format!("Samples written to {}\n", path.display()));
     }
-    if let Some(path) = &args.plot {
+    if let (Some(path), Some(format)) = (&args.plot, plot_format) {
         let title = format!("{} at {} — {}", case.id, point.id, scheme.name);
-        let plot = plot_for(&plant, &scheme, &run, title, case.duration_s);
-        write_atomic(path, svg::render(&plot).as_bytes(), Overwrite::Allow)
-            .with_context(|| "writing the plot")?;
+        let runs = [RunAt {
+            point: &point.id,
+            run: &run,
+        }];
+        let drawn = plot::build(&plant, &scheme, case, &runs, title, false);
+        let bytes = format.bytes(&drawn).context("drawing the plot")?;
+        write_atomic(path, &bytes, Overwrite::Allow).with_context(|| "writing the plot")?;
         out.push_str(&format!("Plot written to {}\n", path.display()));
     }
     out.push_str(&format!("{}\n", super::verify::CAUTION));
@@ -241,71 +250,4 @@ fn csv_text(plant: &Plant, run: &Run) -> anyhow::Result<String> {
         w.write_record(&rec)?;
     }
     Ok(String::from_utf8(w.into_inner()?)?)
-}
-
-/// The plot of one run: one trace per section (sections of one island overlap), the scheme's
-/// pickups, the criteria's limits and recovery level, and the cumulative shed.
-pub fn plot_for(
-    plant: &Plant,
-    scheme: &Scheme,
-    run: &Run,
-    title: String,
-    duration_s: f64,
-) -> FrequencyPlot {
-    let mut series = Vec::new();
-    if let Some(trace) = &run.trace {
-        let shed: Vec<(f64, f64)> = trace
-            .t_s
-            .iter()
-            .copied()
-            .zip(trace.shed_mw.iter().copied())
-            .collect();
-        for (s, hz) in trace.section_hz.iter().enumerate() {
-            series.push(Series {
-                label: plant.sections[s].id.clone(),
-                points: trace.t_s.iter().copied().zip(hz.iter().copied()).collect(),
-                shed_mw: if s == 0 { shed.clone() } else { Vec::new() },
-            });
-        }
-    }
-    FrequencyPlot {
-        title,
-        nominal_hz: plant.nominal_hz,
-        duration_s,
-        series,
-        levels: levels(plant, scheme),
-    }
-}
-
-/// Stage pickups and the criteria as labelled lines.
-pub fn levels(plant: &Plant, scheme: &Scheme) -> Vec<Level> {
-    let mut levels: Vec<Level> = scheme
-        .stages
-        .iter()
-        .filter_map(|s| match s.trigger {
-            StageTrigger::Frequency { pickup_hz, .. } => Some(Level {
-                label: s.id.clone(),
-                hz: pickup_hz,
-                kind: LevelKind::Pickup,
-            }),
-            StageTrigger::Breaker(_) => None,
-        })
-        .collect();
-    let c = &plant.criteria;
-    levels.push(Level {
-        label: "min".into(),
-        hz: c.min_hz,
-        kind: LevelKind::Limit,
-    });
-    levels.push(Level {
-        label: "max".into(),
-        hz: c.max_hz,
-        kind: LevelKind::Limit,
-    });
-    levels.push(Level {
-        label: "recover".into(),
-        hz: c.recover_above_hz,
-        kind: LevelKind::Recovery,
-    });
-    levels
 }

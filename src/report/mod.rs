@@ -1,8 +1,12 @@
-//! Output formats: SVG plots, the HTML sign-off report and atomic file writing.
+//! Output formats: the plots, the HTML sign-off report, the relay setting sheet, trace thinning,
+//! PNG rendering and atomic file writing.
 //!
 //! `report` formats results only: it computes no physics and decides no pass or fail. Every file it
 //! writes goes through [`write::write_atomic`], so an interrupted run never leaves a truncated file.
 
 pub mod html;
-pub mod svg;
+pub mod plot;
+pub mod png;
+pub mod sheet;
+pub mod thin;
 pub mod write;
