@@ -12,7 +12,7 @@ P, C, S = "examples/biorefinery/plant.yaml", "examples/biorefinery/cases.yaml", 
 BLOCKS = {
     "### `nadir verify": [N, "verify", P, S, "--cases", C],
     "### `nadir replay": [N, "replay", P, S, "--cases", C, "--case", "utility-loss-then-engine-trip",
-                          "--at", "full-rate", "--plot", "docs/demo-utility-loss-then-engine-trip.svg"],
+                          "--at", "full-rate", "--plot", "docs/demo-utility-loss-then-engine-trip.svg", "--force"],
     "### `nadir audit": [N, "audit", P, S],
     "### `nadir sheet": [N, "sheet", P, S],
     "### `nadir compare": [N, "compare", P, S, "schemes/biorefinery-proposed.yaml", "--cases", C],
@@ -49,4 +49,4 @@ for heading, cmd in BLOCKS.items():
 open("README.md", "w", encoding="utf-8").write(text)
 # The second demo plot the README links: both islands after the bus split.
 subprocess.run([N, "replay", P, S, "--cases", C, "--case", "bus-split-islanded",
-                "--plot", "docs/demo-bus-split-islanded.svg"], capture_output=True, check=True)
+                "--plot", "docs/demo-bus-split-islanded.svg", "--force"], capture_output=True, check=True)

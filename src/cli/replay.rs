@@ -6,7 +6,6 @@ use super::{load, Outcome};
 use anyhow::{bail, Context};
 use nadir::model::Plant;
 use nadir::report::plot::{self, RunAt};
-use nadir::report::write::{write_atomic, Overwrite};
 use nadir::sim::{self, Cause, EventKind, Run};
 use nadir::verify::criteria::judge;
 use nadir::verify::matrix::{observe, sim_config_for};
@@ -37,13 +36,34 @@ pub struct ReplayArgs {
     /// time: PNG when FILE ends in .png, SVG when it ends in .svg (other extensions are refused).
     #[arg(long, value_name = "FILE.svg|FILE.png")]
     pub plot: Option<PathBuf>,
+    /// Replace the --csv and --plot files if they exist (never one of the input files). A
+    /// symbolic link there is replaced as a link; the file it points to is not written.
+    #[arg(long)]
+    pub force: bool,
 }
 
 pub fn run(args: ReplayArgs) -> anyhow::Result<Outcome> {
+    let outputs: Vec<&std::path::Path> = [&args.csv, &args.plot]
+        .into_iter()
+        .flatten()
+        .map(PathBuf::as_path)
+        .collect();
+    let targets = super::check_outputs(
+        &outputs,
+        &[
+            ("plant", args.plant.as_path()),
+            ("scheme", args.scheme.as_path()),
+            ("cases", args.cases.as_path()),
+        ],
+        args.force,
+    )?;
     let plot_format = match &args.plot {
         Some(path) => Some(plot::Format::for_path(path).map_err(anyhow::Error::msg)?),
         None => None,
     };
+    let mut targets = targets.into_iter();
+    let csv_target = args.csv.as_ref().and_then(|_| targets.next());
+    let plot_target = args.plot.as_ref().and_then(|_| targets.next());
     let plant = load::plant(&args.plant)?;
     let cases = load::cases(&args.cases, &plant)?;
     let scheme = load::scheme(&args.scheme, &plant)?;
@@ -121,21 +141,19 @@ pub fn run(args: ReplayArgs) -> anyhow::Result<Outcome> {
             out.push_str(&format!("  {}: {}\n", f.criterion, f.message));
         }
     }
-    if let Some(path) = &args.csv {
-        write_atomic(path, csv_text(&plant, &run)?.as_bytes(), Overwrite::Allow)
-            .with_context(|| "writing the CSV")?;
-        out.push_str(&format!("Samples written to {}\n", path.display()));
+    if let Some(target) = &csv_target {
+        target.write(csv_text(&plant, &run)?.as_bytes())?;
+        out.push_str(&format!("Samples written to {}\n", target.path().display()));
     }
-    if let (Some(path), Some(format)) = (&args.plot, plot_format) {
+    if let (Some(target), Some(format)) = (&plot_target, plot_format) {
         let title = format!("{} at {} — {}", case.id, point.id, scheme.name);
         let runs = [RunAt {
             point: &point.id,
             run: &run,
         }];
         let drawn = plot::build(&plant, &scheme, case, &runs, title, false);
-        let bytes = format.bytes(&drawn).context("drawing the plot")?;
-        write_atomic(path, &bytes, Overwrite::Allow).with_context(|| "writing the plot")?;
-        out.push_str(&format!("Plot written to {}\n", path.display()));
+        target.write(&format.bytes(&drawn).context("drawing the plot")?)?;
+        out.push_str(&format!("Plot written to {}\n", target.path().display()));
     }
     out.push_str(&format!("{}\n", super::verify::CAUTION));
     super::write_stdout(&out)?;

@@ -5,7 +5,6 @@
 use super::{load, Outcome};
 use anyhow::{bail, Context};
 use nadir::report::sheet;
-use nadir::report::write::write_atomic;
 use std::path::{Path, PathBuf};
 
 /// Write the relay setting sheet: stage, element (under-frequency, df/dt supervision,
@@ -27,7 +26,7 @@ pub struct SheetArgs {
         value_name = "FILE.csv|FILE.html|FILE.md"
     )]
     pub output: Option<PathBuf>,
-    /// Replace the output file if it exists.
+    /// Replace the output file if it exists (never one of the input files).
     #[arg(long)]
     pub force: bool,
 }
@@ -58,11 +57,18 @@ fn kind_of(path: &Path) -> anyhow::Result<Kind> {
 
 pub fn run(args: SheetArgs) -> anyhow::Result<Outcome> {
     let target = match &args.output {
-        Some(path) => Some((
-            path,
-            kind_of(path)?,
-            super::overwrite_policy(path, args.force)?,
-        )),
+        Some(path) => {
+            let kind = kind_of(path)?;
+            let mut targets = super::check_outputs(
+                &[path.as_path()],
+                &[
+                    ("plant", args.plant.as_path()),
+                    ("scheme", args.scheme.as_path()),
+                ],
+                args.force,
+            )?;
+            Some((targets.remove(0), kind))
+        }
         None => None,
     };
     let plant = load::plant(&args.plant)?;
@@ -70,16 +76,18 @@ pub fn run(args: SheetArgs) -> anyhow::Result<Outcome> {
     let s = sheet::sheet(&plant, &scheme);
     match target {
         None => super::write_stdout(&sheet::markdown(&s))?,
-        Some((path, kind, overwrite)) => {
+        Some((target, kind)) => {
             let text = match kind {
                 Kind::Csv => sheet::csv(&s),
                 Kind::Html => sheet::html_page(&s),
                 Kind::Markdown => sheet::markdown(&s),
             };
-            write_atomic(path, text.as_bytes(), overwrite).context("writing the setting sheet")?;
+            target
+                .write(text.as_bytes())
+                .context("writing the setting sheet")?;
             super::write_stdout(&format!(
                 "Setting sheet written to {} ({} rows for {} stages).\n{}\n",
-                path.display(),
+                target.path().display(),
                 s.rows.len(),
                 scheme.stages.len(),
                 super::verify::CAUTION
