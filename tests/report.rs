@@ -104,7 +104,7 @@ fn the_demo_report_has_every_section_and_identifies_its_inputs() {
         "<h2>Frequency after each case</h2>",
         "Each line is one island's frequency at one operating point",
         "<nav class=\"toc\">",
-        "<section id=\"warnings\"",
+        "<div id=\"warnings\">",
         "<h2>Relay setting sheet</h2>",
         "<td>df/dt supervision</td>",
         "<h2>Review and sign-off</h2>",
@@ -172,8 +172,8 @@ fn the_demo_report_is_under_400_kb() {
 fn contents_then_warnings_then_verdict() {
     let (_, html) = demo();
     let toc = html.find("<nav class=\"toc\">").unwrap();
-    let warnings = html.find("<section id=\"warnings\"").unwrap();
-    let verdict = html.find("<section id=\"verdict\"").unwrap();
+    let warnings = html.find("<div id=\"warnings\">").unwrap();
+    let verdict = html.find("<section class=\"verdict").unwrap();
     assert!(toc < warnings && warnings < verdict);
     for anchor in [
         "#verdict",

@@ -9,6 +9,7 @@
 
 use super::plot::{self, Plot};
 use super::sheet::{self, Sheet};
+use crate::input::Warning;
 use crate::model::{Plant, Scheme};
 use crate::screening::Screening;
 use crate::verify::audit::{Audit, AuditRules};
@@ -67,12 +68,12 @@ pub struct ReportInputs<'a> {
     pub files: &'a [InputFile],
     /// The relay setting sheet of the scheme.
     pub sheet: &'a Sheet,
-    /// Plausibility warnings about the inputs, shown in a box above the verdict.
-    pub warnings: &'a [String],
     /// When the run was made, e.g. from [`utc_timestamp`].
     pub generated_utc: &'a str,
     /// The nadir version that made the report.
     pub tool_version: &'a str,
+    /// Plausibility warnings and notes of the input files, acknowledged ones included.
+    pub warnings: &'a [Warning],
 }
 
 /// Lower-case hexadecimal SHA-256 of `bytes`.
@@ -132,7 +133,13 @@ pub fn render(r: &ReportInputs) -> String {
     );
     title_block(&mut h, r);
     contents(&mut h, r);
-    warnings(&mut h, r);
+    h.push_str("<div id=\"warnings\">\n");
+    if r.warnings.is_empty() {
+        h.push_str("<section class=\"warnings none\">\n<strong>Warnings about the inputs:</strong> none raised.\n</section>\n");
+    } else {
+        warnings_box(&mut h, r.warnings);
+    }
+    h.push_str("</div>\n");
     verdict(&mut h, r);
     caution(&mut h);
     inputs(&mut h, r);
@@ -170,6 +177,11 @@ tr.fail td.result::before { content: "\2716\00a0"; }
 td.result { white-space: nowrap; }
 .verdict { border: 2px solid #333; padding: 8px 12px; margin: 10px 0; font-size: 11.5pt; }
 .verdict.fail { border-color: #a00; border-width: 3px; }
+.warnings { border: 3px solid #b35900; background: #fff1e0; padding: 8px 12px; margin: 10px 0;
+  -webkit-print-color-adjust: exact; print-color-adjust: exact; break-inside: avoid; page-break-inside: avoid; }
+.warnings ul { margin: 4px 0; padding-left: 18px; }
+.warnings li { margin: 3px 0; }
+.warnings code { font-size: 9pt; }
 .caution { border: 2px solid #8a6d00; background: #fff8dc; padding: 8px 12px; margin: 10px 0; }
 .caution strong { display: block; margin-bottom: 2px; }
 figure { margin: 8px 0 18px 0; break-inside: avoid; page-break-inside: avoid; }
@@ -183,9 +195,7 @@ nav.toc h2 { border: none; margin: 4px 0; font-size: 11pt; column-span: all; }
 nav.toc ol { margin: 0; padding-left: 20px; }
 nav.toc ol.cases { columns: 1; font-size: 9pt; }
 nav.toc a { color: #113; text-decoration: none; }
-.warnings { border: 2px solid #8a4b00; background: #fff1e0; padding: 8px 12px; margin: 10px 0; }
-.warnings.none { border-width: 1px; background: #f7f7f7; }
-.warnings ul { margin: 4px 0 0 0; }
+.warnings.none { border: 1px solid #8a4b00; background: #f7f7f7; }
 table.sheet { font-size: 8.5pt; }
 table.sheet td.blank { min-width: 5em; }
 @page { size: landscape; margin: 11mm; }
@@ -213,6 +223,79 @@ fn title_block(h: &mut String, r: &ReportInputs) {
         esc(r.generated_utc),
         esc(r.tool_version)
     );
+}
+
+/// The input warnings, above the verdict: open ones first (each with its place, field, value, why
+/// and fix), then those acknowledged in the files with their reasons, then notes. Nothing when
+/// there are none.
+pub fn warnings_box(h: &mut String, warnings: &[Warning]) {
+    if warnings.is_empty() {
+        return;
+    }
+    let open: Vec<&Warning> = warnings.iter().filter(|w| w.is_open()).collect();
+    let acked: Vec<&Warning> = warnings
+        .iter()
+        .filter(|w| !w.code.is_note() && w.acknowledged.is_some())
+        .collect();
+    let notes: Vec<&Warning> = warnings.iter().filter(|w| w.code.is_note()).collect();
+    let item = |h: &mut String, w: &Warning| {
+        let _ = write!(
+            h,
+            "<li><code>{}</code> <code>{}</code> = <strong>{}</strong>{}: {}.",
+            esc(&w.place()),
+            esc(&w.path),
+            esc(&w.value),
+            if w.code.is_note() {
+                String::new()
+            } else {
+                format!(" [{}]", esc(w.code.name()))
+            },
+            esc(&w.message),
+        );
+        if !w.help.is_empty() && !w.code.is_note() {
+            let _ = write!(h, " Likely fix: {}.", esc(&w.help));
+        }
+        match &w.acknowledged {
+            Some(reason) if !reason.is_empty() => {
+                let _ = write!(h, " Acknowledged in the file: {}.", esc(reason));
+            }
+            Some(_) => h.push_str(" Acknowledged in the file."),
+            None => {}
+        }
+        h.push_str("</li>\n");
+    };
+    h.push_str("<section class=\"warnings\">\n");
+    if !open.is_empty() {
+        let _ = write!(
+            h,
+            "<strong>Input warnings: {} {} not acknowledged.</strong> Each value below is allowed but looks like a slip; the verdict assumes it is right.\n<ul>\n",
+            open.len(),
+            plural(open.len(), "value", "values")
+        );
+        for w in &open {
+            item(h, w);
+        }
+        h.push_str("</ul>\n");
+    }
+    if !acked.is_empty() {
+        let _ = write!(
+            h,
+            "<strong>Acknowledged input warnings ({}):</strong>\n<ul>\n",
+            acked.len()
+        );
+        for w in &acked {
+            item(h, w);
+        }
+        h.push_str("</ul>\n");
+    }
+    if !notes.is_empty() {
+        h.push_str("<strong>Computed input figures:</strong>\n<ul>\n");
+        for w in &notes {
+            item(h, w);
+        }
+        h.push_str("</ul>\n");
+    }
+    h.push_str("</section>\n");
 }
 
 fn verdict(h: &mut String, r: &ReportInputs) {
@@ -248,10 +331,21 @@ fn verdict(h: &mut String, r: &ReportInputs) {
         )
     };
     let ok = failed == 0 && violations == 0;
+    let open = r.warnings.iter().filter(|w| w.is_open()).count();
+    let assumes = if open == 0 {
+        String::new()
+    } else {
+        format!(
+            " It assumes the {} input {} flagged above {} right.",
+            words(open),
+            plural(open, "value", "values"),
+            plural(open, "is", "are")
+        )
+    };
     let _ = write!(
         h,
-        "<section id=\"verdict\" class=\"verdict{}\">\n<strong>Verdict: {}.</strong> {runs}; {audit}. \
-({total} runs: {} pass, {failed} fail; {violations} audit {}.)\n</section>\n",
+        "<section class=\"verdict{}\" id=\"verdict\">\n<strong>Verdict: {}.</strong> {runs}; {audit}. \
+({total} runs: {} pass, {failed} fail; {violations} audit {}.){assumes}\n</section>\n",
         if ok { "" } else { " fail" },
         if ok {
             "the table holds every case"
@@ -551,23 +645,6 @@ fn contents(h: &mut String, r: &ReportInputs) {
     h.push_str(
         "</ol></li>\n<li><a href=\"#sign-off\">Review and sign-off</a></li>\n</ol>\n</nav>\n",
     );
-}
-
-fn warnings(h: &mut String, r: &ReportInputs) {
-    if r.warnings.is_empty() {
-        h.push_str("<section id=\"warnings\" class=\"warnings none\">\n<strong>Warnings about the inputs:</strong> none raised.\n</section>\n");
-        return;
-    }
-    let _ = write!(
-        h,
-        "<section id=\"warnings\" class=\"warnings\">\n<strong>{} {} about the inputs — read before the verdict</strong>\n<ul>\n",
-        r.warnings.len(),
-        plural(r.warnings.len(), "warning", "warnings")
-    );
-    for w in r.warnings {
-        let _ = writeln!(h, "<li>{}</li>", esc(w));
-    }
-    h.push_str("</ul>\n</section>\n");
 }
 
 fn setting_sheet(h: &mut String, r: &ReportInputs) {
