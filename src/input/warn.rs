@@ -10,9 +10,10 @@
 
 use std::fmt;
 
-/// What a warning is about. Each has a fixed kebab-case name, used in messages and in the
-/// acknowledgement comment.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+/// What a warning is about. Each has a fixed kebab-case name, used in messages, in the
+/// acknowledgement comment and in machine-readable output.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord, serde::Serialize)]
+#[serde(rename_all = "kebab-case")]
 pub enum Code {
     /// A machine rating far above the plant's whole load (likely kVA written as MVA).
     RatingVsLoad,
@@ -66,7 +67,7 @@ impl Code {
 }
 
 /// One plausibility warning (or note) in an input file.
-#[derive(Debug, Clone, PartialEq, Eq)]
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
 pub struct Warning {
     /// The file as the user named it.
     pub file: String,
@@ -288,6 +289,16 @@ mod tests {
         assert!(acks.find(Code::LowDroop, 3).is_none());
         // Inside quotes it is text, not a comment.
         assert!(acks.find(Code::ShortLag, 5).is_none());
+    }
+
+    #[test]
+    fn machine_readable_names_are_the_comment_names() {
+        for c in Code::WARNINGS {
+            assert_eq!(
+                serde_json::to_value(c).unwrap(),
+                serde_json::Value::String(c.name().to_string())
+            );
+        }
     }
 
     #[test]

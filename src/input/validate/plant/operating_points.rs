@@ -298,7 +298,11 @@ pub(super) fn balance(
                     let fix = if spec.own || !explicit_ops {
                         format!("write `import_mw: {}`", mw(need))
                     } else {
-                        format!("add `import_mw: {}` to this operating point", mw(need))
+                        format!(
+                            "add `import_mw: {}` to this operating point, which now inherits the utility's {} MW",
+                            mw(need),
+                            mw(import_mw)
+                        )
                     };
                     r.error(
                         &at,

@@ -309,6 +309,11 @@ fn lags(r: &mut Reader, p: &FieldPath, g: &Generator) {
 /// A lag below [`SHORT_LAG_S`]; `held` for the engine's ramp-limited fuel-rack lag, which is held
 /// at that value instead of being dropped.
 pub(in crate::input::validate) fn short_lag(r: &mut Reader, path: &FieldPath, v: f64, held: bool) {
+    let outcome = if held {
+        format!("the run uses {} s", mw(SHORT_LAG_S))
+    } else {
+        "the run is as if the lag were left out".to_string()
+    };
     let treated = if held {
         format!(
             "the simulator holds it at {} s (the engine's lag is ramp limited, so it is not dropped)",
@@ -326,6 +331,6 @@ pub(in crate::input::validate) fn short_lag(r: &mut Reader, path: &FieldPath, v:
             mw(v),
             mw(SHORT_LAG_S)
         ),
-        "lags are in seconds; if the maker's lag is this short, acknowledge the warning (the run is as if the lag were left out)".to_string(),
+        format!("lags are in seconds; if the maker's lag is this short, acknowledge the warning ({outcome})"),
     );
 }
