@@ -95,16 +95,40 @@ impl Drawn {
     }
 }
 
-/// Every frequency stage of the demo scheme, with its pickup as the scheme file gives it.
-const PICKUPS: [&str; 7] = [
-    "uf-fast 49.2 Hz if df/dt ≤ −1 Hz/s",
-    "uf-1 49 Hz",
-    "uf-2 48.8 Hz",
-    "uf-3 48.6 Hz",
-    "uf-4 48.4 Hz",
-    "uf-5 48.2 Hz",
-    "uf-6 48 Hz",
-];
+/// The pickup label of every frequency stage of the demo scheme, read with the library: stages
+/// with the same pickup and supervision share one line, their ids joined.
+fn pickups() -> Vec<String> {
+    use nadir::model::StageTrigger;
+    let root = binary::root();
+    let plant = nadir::input::load_plant(&root.join(PLANT)).unwrap();
+    let scheme = nadir::input::load_scheme(&root.join(SCHEME), &plant).unwrap();
+    let mut out: Vec<(f64, Option<f64>, String)> = Vec::new();
+    for s in &scheme.stages {
+        if let StageTrigger::Frequency {
+            pickup_hz,
+            min_rocof_hz_per_s,
+        } = s.trigger
+        {
+            match out
+                .iter_mut()
+                .find(|o| o.0 == pickup_hz && o.1 == min_rocof_hz_per_s)
+            {
+                Some(o) => o.2 = format!("{}, {}", o.2, s.id),
+                None => out.push((pickup_hz, min_rocof_hz_per_s, s.id.clone())),
+            }
+        }
+    }
+    assert!(
+        out.len() >= 7,
+        "the demo has frequency stages at seven pickups"
+    );
+    out.into_iter()
+        .map(|(hz, rate, ids)| match rate {
+            Some(r) => format!("{ids} {hz} Hz if df/dt ≤ −{r} Hz/s"),
+            None => format!("{ids} {hz} Hz"),
+        })
+        .collect()
+}
 
 #[test]
 fn a_bus_split_draws_both_islands_with_their_extremes_and_every_limit() {
@@ -116,8 +140,8 @@ fn a_bus_split_draws_both_islands_with_their_extremes_and_every_limit() {
     assert!(d.label("recovery", "recovery 49.5 Hz").is_some());
     // The recovery deadline: the last event (0 s) plus the plant's 10 s.
     assert!(d.label("deadline", "recover by 10 s").is_some());
-    for p in PICKUPS {
-        assert!(d.label("pickup", p).is_some(), "no pickup label {p:?}");
+    for p in pickups() {
+        assert!(d.label("pickup", &p).is_some(), "no pickup label {p:?}");
     }
     assert!(d.label("event", "bus-tie opens").is_some());
     // The over-frequency island's peak (the 50.39 Hz of the verification matrix) and the other's nadir.
@@ -142,15 +166,15 @@ fn events_armed_trips_stage_steps_and_a_supervised_stage_that_did_not_operate() 
     assert!(d.label("event", "armed-utility (armed) trips").is_some());
     assert!(d.label("shed", "armed-utility 1.65 MW").is_some());
     assert!(d.label("shed", "uf-1 2 MW").is_some());
-    // uf-fast (49.2 Hz, df/dt ≤ −1 Hz/s) is crossed on the slow fall after the engine trips and
-    // does not operate: the plot says why.
+    // The df/dt-supervised stages (49.2 Hz, df/dt ≤ −1 Hz/s) are crossed on the slow fall after
+    // the engine trips and do not operate: the plot says why.
     assert_eq!(
         d.label("idle", "uf-fast"),
-        Some("uf-fast no trip: fell slower than 1 Hz/s (df/dt supervision)")
+        Some("uf-fast-a, uf-fast-b no trip: fell slower than 1 Hz/s (df/dt supervision)")
     );
     assert!(d.has_text("nadir 49.00 Hz at 14.73 s"));
-    for p in PICKUPS {
-        assert!(d.label("pickup", p).is_some(), "no pickup label {p:?}");
+    for p in pickups() {
+        assert!(d.label("pickup", &p).is_some(), "no pickup label {p:?}");
     }
 }
 

@@ -191,10 +191,29 @@ fn html_and_markdown_forms_and_the_report_copy() {
     let md = nadir(&["sheet", PLANT, "schemes/biorefinery.yaml"]);
     assert_eq!(md.code, 0);
     assert!(md.stdout.contains(
-        "| uf-fast | df/dt supervision |  |  |  | 1.0 | 0.1 |  |  |  |  |  | picked up while df/dt ≤ −1.0 Hz/s over 0.1 s"
+        "| uf-fast-a | df/dt supervision |  |  |  | 1.0 | 0.1 |  |  |  |  |  | picked up while df/dt ≤ −1.0 Hz/s over 0.1 s"
     ));
-    // Nine rows for eight stages (uf-fast has two elements), plus the header and rule.
-    assert_eq!(md.stdout.lines().filter(|l| l.starts_with('|')).count(), 11);
+    // One row per stage and one more per df/dt-supervised stage, plus the header and rule.
+    let plant = nadir::input::load_plant(&root().join(PLANT)).unwrap();
+    let scheme =
+        nadir::input::load_scheme(&root().join("schemes/biorefinery.yaml"), &plant).unwrap();
+    let supervised = scheme
+        .stages
+        .iter()
+        .filter(|s| {
+            matches!(
+                s.trigger,
+                StageTrigger::Frequency {
+                    min_rocof_hz_per_s: Some(_),
+                    ..
+                }
+            )
+        })
+        .count();
+    assert_eq!(
+        md.stdout.lines().filter(|l| l.starts_with('|')).count(),
+        scheme.stages.len() + supervised + 2
+    );
 }
 
 #[test]

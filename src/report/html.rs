@@ -486,12 +486,9 @@ fn audit_section(h: &mut String, r: &ReportInputs) {
     let rules = r.audit_rules;
     let _ = write!(
         h,
-        "<section id=\"audit\">\n<h2>Audit against the plant's own rules</h2>\n<p>Rules: loads shed in rank order; \
-no never-shed load in a stage; no stage empty at any operating point; frequency stages at least {} Hz \
-or {} s apart; no pickup above {} Hz.</p>\n",
-        num(rules.min_spacing_hz, 2),
-        num(rules.min_spacing_s, 2),
-        num(rules.normal_low_hz, 2)
+        "<section id=\"audit\">\n<h2>Audit against the plant's own rules</h2>\n<p>Rules: {}.</p>\n<p>Rank order judged in {}.</p>\n",
+        esc(&rules.statement()),
+        esc(&r.audit.rank_order_judged_in)
     );
     if r.audit.violations.is_empty() {
         h.push_str("<p><strong>Violations: none.</strong></p>\n");
@@ -511,6 +508,18 @@ or {} s apart; no pickup above {} Hz.</p>\n",
             );
         }
         h.push_str("</tbody>\n</table>\n");
+    }
+    if !r.audit.notes.is_empty() {
+        let _ = write!(
+            h,
+            "<p>{} {}, not violations:</p>\n<ul>\n",
+            r.audit.notes.len(),
+            plural(r.audit.notes.len(), "note", "notes")
+        );
+        for n in &r.audit.notes {
+            let _ = writeln!(h, "<li>[{}] {}</li>", esc(n.rule), esc(&n.message));
+        }
+        h.push_str("</ul>\n");
     }
     h.push_str("</section>\n");
 }

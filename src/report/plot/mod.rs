@@ -289,28 +289,36 @@ fn profile_corners(case: &Case) -> Vec<(f64, f64, f64)> {
         .collect()
 }
 
-/// The stage pickups and the criteria's levels.
+/// The stage pickups (stages with the same pickup and supervision share one line, their ids
+/// joined) and the criteria's levels.
 pub fn levels(plant: &Plant, scheme: &Scheme) -> Vec<Level> {
-    let mut out: Vec<Level> = scheme
-        .stages
-        .iter()
-        .filter_map(|s| match s.trigger {
-            StageTrigger::Frequency {
-                pickup_hz,
-                min_rocof_hz_per_s,
-            } => Some(Level {
+    let mut out: Vec<Level> = Vec::new();
+    for s in &scheme.stages {
+        let StageTrigger::Frequency {
+            pickup_hz,
+            min_rocof_hz_per_s,
+        } = s.trigger
+        else {
+            continue;
+        };
+        let kind = match min_rocof_hz_per_s {
+            Some(r) => LevelKind::SupervisedPickup {
+                min_rocof_hz_per_s: r,
+            },
+            None => LevelKind::Pickup,
+        };
+        match out.iter_mut().find(|l| l.hz == pickup_hz && l.kind == kind) {
+            Some(level) => {
+                level.label.push_str(", ");
+                level.label.push_str(&s.id);
+            }
+            None => out.push(Level {
                 label: s.id.clone(),
                 hz: pickup_hz,
-                kind: match min_rocof_hz_per_s {
-                    Some(r) => LevelKind::SupervisedPickup {
-                        min_rocof_hz_per_s: r,
-                    },
-                    None => LevelKind::Pickup,
-                },
+                kind,
             }),
-            StageTrigger::Breaker(_) => None,
-        })
-        .collect();
+        }
+    }
     let c = &plant.criteria;
     out.push(Level {
         label: "minimum".into(),
@@ -588,13 +596,24 @@ fn add_idle(plot: &mut Plot, plant: &Plant, scheme: &Scheme, r: &RunAt, first_st
                 trim(pickup_hz)
             ),
         };
-        plot.idle.push(Idle {
-            style: line.style,
-            stage: stage.id.clone(),
-            at_s,
-            hz,
-            reason,
-        });
+        // Stages that did not operate at the same crossing for the same reason share one label.
+        match plot
+            .idle
+            .iter_mut()
+            .find(|i| i.style == line.style && i.at_s == at_s && i.reason == reason)
+        {
+            Some(idle) => {
+                idle.stage.push_str(", ");
+                idle.stage.push_str(&stage.id);
+            }
+            None => plot.idle.push(Idle {
+                style: line.style,
+                stage: stage.id.clone(),
+                at_s,
+                hz,
+                reason,
+            }),
+        }
     }
 }
 
