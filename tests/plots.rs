@@ -61,7 +61,13 @@ fn parse(svg: &[u8]) -> Drawn {
                 .filter_map(|a| a.attribute("class"))
                 .map(String::from)
                 .collect();
-            texts.push((node.text().unwrap_or("").to_string(), classes));
+            // A label in several lines (tspans) reads as one, lines joined by a space.
+            let text: Vec<&str> = node
+                .descendants()
+                .filter(|n| n.is_text())
+                .filter_map(|n| n.text())
+                .collect();
+            texts.push((text.join(" "), classes));
         }
         if node.has_tag_name("g") && node.attribute("class") == Some("trace") {
             // A trace is a group holding a non-empty polyline.

@@ -262,28 +262,45 @@ pub fn render(plot: &Plot) -> String {
     // Levels: drawn across the panel, labelled right of it, labels pushed apart.
     let mut levels: Vec<_> = plot.levels.iter().filter(|l| l.hz.is_finite()).collect();
     levels.sort_by(|a, b| b.hz.total_cmp(&a.hz));
+    // Each label in lines that fit the room right of the panel.
+    let texts: Vec<Vec<String>> = levels
+        .iter()
+        .map(|level| {
+            let text = match level.kind {
+                LevelKind::SupervisedPickup { min_rocof_hz_per_s } => format!(
+                    "{} {} Hz if df/dt ≤ −{} Hz/s",
+                    level.label,
+                    trim(level.hz),
+                    trim(min_rocof_hz_per_s)
+                ),
+                _ => format!("{} {} Hz", level.label, trim(level.hz)),
+            };
+            wrap(&text, ((RIGHT - 10.0) / CHAR_W) as usize)
+        })
+        .collect();
+    let heights: Vec<f64> = texts.iter().map(|t| 12.0 * t.len() as f64).collect();
     let mut label_y: Vec<f64> = levels.iter().map(|l| yf(l.hz) + 4.0).collect();
-    spread(&mut label_y, 12.0, freq_top + 4.0, freq_bottom + 30.0);
-    for (level, ly) in levels.iter().zip(&label_y) {
+    spread(&mut label_y, &heights, freq_top + 4.0, freq_bottom + 30.0);
+    for ((level, ly), lines) in levels.iter().zip(&label_y).zip(&texts) {
         let (colour, dash, width, class) = level_style(level.kind);
         let y = yf(level.hz);
-        let text = match level.kind {
-            LevelKind::Pickup => format!("{} {} Hz", level.label, trim(level.hz)),
-            LevelKind::SupervisedPickup { min_rocof_hz_per_s } => format!(
-                "{} {} Hz if df/dt ≤ −{} Hz/s",
-                level.label,
-                trim(level.hz),
-                trim(min_rocof_hz_per_s)
-            ),
-            _ => format!("{} {} Hz", level.label, trim(level.hz)),
-        };
+        let mut text = String::new();
+        for (k, line) in lines.iter().enumerate() {
+            let _ = write!(
+                text,
+                r#"<tspan x="{:.1}" dy="{}">{}</tspan>"#,
+                PANEL_RIGHT + 6.0,
+                if k == 0 { 0 } else { 12 },
+                escape(line)
+            );
+        }
         let _ = write!(
             s,
-            r#"<g class="{class}"><line x1="{LEFT}" y1="{y:.1}" x2="{PANEL_RIGHT}" y2="{y:.1}" stroke="{colour}" stroke-width="{width}" stroke-dasharray="{dash}"/><line x1="{PANEL_RIGHT}" y1="{y:.1}" x2="{:.1}" y2="{:.1}" stroke="{colour}" stroke-width="0.6"/><text x="{:.1}" y="{ly:.1}" fill="{colour}">{}</text></g>"#,
+            r#"<g class="{class}"><line x1="{LEFT}" y1="{y:.1}" x2="{PANEL_RIGHT}" y2="{y:.1}" stroke="{colour}" stroke-width="{width}" stroke-dasharray="{dash}"/><line x1="{PANEL_RIGHT}" y1="{y:.1}" x2="{:.1}" y2="{:.1}" stroke="{colour}" stroke-width="0.6"/><text x="{:.1}" y="{ly:.1}" fill="{colour}" data-text="{}">{text}</text></g>"#,
             PANEL_RIGHT + 4.0,
             ly - 4.0,
             PANEL_RIGHT + 6.0,
-            escape(&text)
+            escape(&lines.join(" "))
         );
     }
     // Event markers and their labels.
@@ -725,20 +742,41 @@ fn frequency_range(plot: &Plot) -> (f64, f64) {
     (lo - pad, hi + pad)
 }
 
-/// Move label baselines (sorted top to bottom) apart by at least `gap`, within [top, bottom].
-fn spread(ys: &mut [f64], gap: f64, top: f64, bottom: f64) {
+/// Move label baselines (sorted top to bottom) apart by each label's height, within [top, bottom].
+fn spread(ys: &mut [f64], heights: &[f64], top: f64, bottom: f64) {
     for k in 0..ys.len() {
-        let min = if k == 0 { top } else { ys[k - 1] + gap };
+        let min = if k == 0 {
+            top
+        } else {
+            ys[k - 1] + heights[k - 1]
+        };
         ys[k] = ys[k].max(min);
     }
     for k in (0..ys.len()).rev() {
         let max = if k + 1 == ys.len() {
-            bottom
+            bottom - (heights[k] - 12.0)
         } else {
-            ys[k + 1] - gap
+            ys[k + 1] - heights[k]
         };
         ys[k] = ys[k].min(max);
     }
+}
+
+/// Split text at spaces into lines of at most `width` characters (a longer word stays whole).
+fn wrap(text: &str, width: usize) -> Vec<String> {
+    let mut lines: Vec<String> = Vec::new();
+    let mut line = String::new();
+    for word in text.split(' ') {
+        if !line.is_empty() && line.chars().count() + 1 + word.chars().count() > width {
+            lines.push(std::mem::take(&mut line));
+        }
+        if !line.is_empty() {
+            line.push(' ');
+        }
+        line.push_str(word);
+    }
+    lines.push(line);
+    lines
 }
 
 /// A thin line from a marker at (px, py) to its label at (lx, ly) (start of the baseline) when the
