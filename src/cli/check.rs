@@ -79,7 +79,7 @@ pub fn render_tables(s: &Screening) -> String {
     }
     if let Some(scheme) = &s.scheme {
         out.push_str(&format!(
-            "\nScheme {} (in order of operation; loads at each point's values)\n{}\n",
+            "\nScheme {} (in order of operation; loads at each point's values; the cumulative MW counts a load listed in several stages once)\n{}\n",
             scheme.scheme,
             stages_table(scheme)
         ));

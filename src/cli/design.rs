@@ -6,7 +6,7 @@
 use super::check::{finish, fmt};
 use super::{load, Outcome};
 use nadir::design::{self, DesignError, FromOutcome, Proposal, Source};
-use nadir::verify::audit::{audit, AuditRules};
+use nadir::verify::audit::{audit_cases, AuditRules};
 use nadir::verify::matrix::{self, VerifyConfig};
 use std::io::IsTerminal;
 use std::path::PathBuf;
@@ -85,7 +85,14 @@ pub fn run(args: DesignArgs) -> anyhow::Result<Outcome> {
         &|| bar.inc(1),
     );
     bar.finish_and_clear();
-    let violations = audit(&plant, &proposal.scheme, &AuditRules::for_plant(&plant)).violations;
+    // The studied cases decide which breakers open together, as in `nadir audit --cases`.
+    let violations = audit_cases(
+        &plant,
+        &proposal.scheme,
+        Some(&cases),
+        &AuditRules::for_plant(&plant),
+    )
+    .violations;
 
     let mut text = format!("Wrote {}.\n\n", args.output.display());
     if let (Some(old), Some(outcome)) = (&existing, proposal.from) {

@@ -79,7 +79,7 @@ pub struct OrderedStage {
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Finding {
     /// A short stable name. Violations: `rank-order`, `unassigned-lower-rank`, `never-shed`,
-    /// `spacing`, `above-normal-band`. Notes: `empty-at-point`, `several-stages`.
+    /// `spacing`, `above-normal-band`. Notes: `empty-at-point`, `several-stages`, `measured-elsewhere`.
     pub rule: &'static str,
     /// The finding in words, naming stages, loads, events and values.
     pub message: String,
@@ -152,13 +152,14 @@ pub fn audit_cases(
             cumulative_mw: cumulative.clone(),
         });
     }
-    let (mut violations, judged_in) = rank::rank_order(plant, scheme, cases);
+    let (mut violations, elsewhere, judged_in) = rank::rank_order(plant, scheme, cases);
     never_shed(plant, scheme, &mut violations);
     spacing(scheme, &order_idx, rules, &mut violations);
     normal_band(scheme, rules, &mut violations);
     let mut notes = Vec::new();
     several_stages(plant, scheme, &order_idx, &mut notes);
     empty_at_points(plant, scheme, &order_idx, &mut notes);
+    notes.extend(elsewhere);
     Audit {
         operating_points: plant
             .operating_points

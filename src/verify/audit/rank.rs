@@ -288,8 +288,9 @@ impl Gathered {
 /// How many left-connected loads a finding names before it says "and more".
 const LOADS_SHOWN: usize = 12;
 
-/// Every rank-order finding, one per stage and rule, naming the loads and where it happens; and
-/// which events were judged, in words.
+/// Every rank-order finding, one per stage and rule, naming the loads and where it happens; the
+/// notes on frequency stages that open loads outside the island they measure in; and which events
+/// were judged, in words.
 ///
 /// Cost: for each event, O(sections + loads + islands × stages + loads listed in stages ×
 /// [`LOADS_SHOWN`]); memory does not grow with the number of events.
@@ -297,7 +298,7 @@ pub fn rank_order(
     plant: &Plant,
     scheme: &Scheme,
     cases: Option<&CaseSet>,
-) -> (Vec<Finding>, String) {
+) -> (Vec<Finding>, Vec<Finding>, String) {
     let n_loads = plant.loads.len();
     let in_a_stage: Vec<bool> = (0..n_loads)
         .map(|l| scheme.stages.iter().any(|s| s.sheds.contains(&l)))
@@ -323,6 +324,9 @@ pub fn rank_order(
     // By stage position in operating order × 2 + rule, so the findings come out in that order.
     let mut found: Vec<Option<Gathered>> = (0..2 * order.len()).map(|_| None).collect();
     let mut touched_flag = vec![false; found.len()];
+    // By stage: loads it opens in another island than the one it measures in, and where first.
+    let mut elsewhere: Vec<Option<(BTreeSet<(u32, usize)>, String)>> =
+        vec![None; scheme.stages.len()];
     let mut on = vec![false; n_loads];
     let mut slot = vec![0; n_loads];
     let basis = for_each_event(plant, scheme, cases, &mut |event: &Event| {
@@ -341,6 +345,32 @@ pub fn rank_order(
             let k = island_of_section[section[l]];
             if k != usize::MAX && sheddable[l] && load_mw[l] > 0.0 && !event.already_open[l] {
                 buckets[k].push(l);
+            }
+        }
+        // A frequency stage that can operate and opens loads outside its own island.
+        for (i, stage) in scheme.stages.iter().enumerate() {
+            let (StageTrigger::Frequency { pickup_hz, .. }, Some(m)) = (stage.trigger, measures[i])
+            else {
+                continue;
+            };
+            let home = island_of_section[m];
+            let island = &event.islands[home];
+            if island.on_utility && !event.grid_low_hz.is_some_and(|low| low < pickup_hz) {
+                continue;
+            }
+            for &l in &stage.sheds {
+                if island_of_section[section[l]] != home && load_mw[l] > 0.0 {
+                    let (loads, _) = elsewhere[i].get_or_insert_with(|| {
+                        (
+                            BTreeSet::new(),
+                            format!(
+                                "{}, at {}",
+                                event.label, plant.operating_points[event.op].id
+                            ),
+                        )
+                    });
+                    loads.insert((rank[l], l));
+                }
             }
         }
         for (island, island_loads) in event.islands.iter().zip(&buckets) {
@@ -499,5 +529,20 @@ pub fn rank_order(
             }
         })
         .collect();
-    (findings, basis)
+    let notes = order
+        .iter()
+        .filter_map(|&i| elsewhere[i].as_ref().map(|e| (i, e)))
+        .map(|(i, (loads, place))| {
+            let sec = &plant.sections[measures[i].unwrap_or(0)].id;
+            Finding {
+                rule: "measured-elsewhere",
+                message: format!(
+                    "stage {} measures at {sec}; once its loads are in different islands ({place}) it also opens {} on {sec}'s frequency, and the rank rule does not count them there",
+                    scheme.stages[i].id,
+                    names(loads, LOADS_SHOWN)
+                ),
+            }
+        })
+        .collect();
+    (findings, notes, basis)
 }
