@@ -104,8 +104,9 @@ pub fn run(args: DesignArgs) -> anyhow::Result<Outcome> {
     text.push('\n');
     text.push_str(&super::verify::render_table(
         &m,
-        &plant.name,
+        &plant,
         &proposal.scheme.name,
+        false,
     ));
     if !violations.is_empty() {
         text.push_str("\nAudit violations in the proposal:\n");

@@ -439,7 +439,7 @@ fn add_lines(plot: &mut Plot, plant: &Plant, r: &RunAt, several: bool, events_s:
             .min_by(|a, b| a.1.total_cmp(&b.1));
         let peak = islands
             .iter()
-            .map(|i| (i.peak_at_s, i.peak_hz))
+            .filter_map(|i| Some((i.peak_at_s?, i.peak_hz?)))
             .filter(|p| p.1.is_finite())
             .max_by(|a, b| a.1.total_cmp(&b.1));
         for p in [nadir, peak].into_iter().flatten() {
