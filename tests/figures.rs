@@ -518,3 +518,24 @@ fn csv_keeps_figures_apart_and_neutralises_formulas() {
     assert_eq!(&first[col("rocof_window_s")], "0.5");
     assert_eq!(&first[col("uv_dropped_mw")], "0.0000");
 }
+
+#[test]
+fn check_tables_fit_120_columns_and_wide_gives_every_column() {
+    let r = demo("check", &[]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    assert!(width(&r.stdout) <= 120, "{} columns", width(&r.stdout));
+    // The screening ROCOF is the initial one, at the instant of the event: said so.
+    assert!(r.stdout.contains("│ initial │"), "{}", r.stdout);
+    assert!(r.stdout.contains("--wide shows every column on one line."));
+    let wide = demo("check", &["--wide"]);
+    assert_eq!(wide.code, 0);
+    assert!(width(&wide.stdout) > 120);
+    for heading in [
+        "initial ROCOF Hz/s",
+        "balance MW",
+        "online MVA",
+        "full-rate cum. MW",
+    ] {
+        assert!(wide.stdout.contains(heading), "missing {heading:?}");
+    }
+}
