@@ -122,20 +122,35 @@ fn partial_block_takes_the_documented_defaults() {
 #[test]
 fn plant_without_block_gets_the_defaults() {
     let plant = parse(&demo_without_design());
-    assert_eq!(plant.design, DesignLimits::defaults(50.0, true));
-    assert_eq!(plant.design.armed_by, vec![BreakerRef::Utility]);
+    // Every breaker a case can open may arm a stage: the utility, the tie, each generator.
+    let every = vec![
+        BreakerRef::Utility,
+        BreakerRef::Tie(0),
+        BreakerRef::Generator(0),
+        BreakerRef::Generator(1),
+        BreakerRef::Generator(2),
+    ];
+    assert_eq!(
+        plant.design,
+        DesignLimits {
+            armed_by: every.clone(),
+            ..DesignLimits::defaults(50.0, true)
+        }
+    );
+    assert_eq!(plant.design.armed_by, every);
     assert_eq!((plant.design.min_stages, plant.design.max_stages), (1, 6));
 }
 
-/// Without a utility nothing is armed by default, and a 60 Hz plant's pickup band scales with
-/// nominal frequency (docs/files.md: 0.98·f0 to 0.96·f0 in 0.002·f0 steps).
+/// Without a utility or ties only the generator breakers may arm by default, and a 60 Hz
+/// plant's pickup band scales with nominal frequency (docs/files.md: 0.98·f0 to 0.96·f0 in
+/// 0.002·f0 steps).
 #[test]
-fn islanded_60_hz_plant_defaults_scale_and_arm_nothing() {
+fn islanded_60_hz_plant_defaults_scale_and_arm_its_generator() {
     let text = "plant: { name: t, nominal_hz: 60 }\n\
                 generators:\n  - { id: g1, section: main, rating_mva: 10, inertia_s: 4, output_mw: 5, governor: { model: steam, droop_pct: 5 } }\n\
                 loads:\n  - { id: l1, section: main, p_mw: 5, rank: 1 }\n";
     let d = parse(text).design;
-    assert!(d.armed_by.is_empty());
+    assert_eq!(d.armed_by, vec![BreakerRef::Generator(0)]);
     assert!(close(d.highest_pickup_hz, 58.8), "{}", d.highest_pickup_hz);
     assert!(close(d.lowest_pickup_hz, 57.6), "{}", d.lowest_pickup_hz);
     assert!(close(d.pickup_step_hz, 0.12), "{}", d.pickup_step_hz);

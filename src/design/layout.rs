@@ -10,6 +10,10 @@ pub struct Setting {
     pub trigger: StageTrigger,
     pub delay_s: f64,
     pub breaker_s: f64,
+    /// The section a frequency stage measures at, chosen by the design (the relay measures at
+    /// its first listed load's section, so a load of this section is listed first); `None`:
+    /// wherever the stage's lowest-ranked load is.
+    pub section: Option<usize>,
 }
 
 /// Stages in operating order: armed stages first, then frequency stages by falling pickup.
@@ -76,6 +80,7 @@ pub fn build(
             trigger: StageTrigger::Breaker(b),
             delay_s,
             breaker_s,
+            section: None,
         })
         .collect();
     stages.extend(
@@ -88,6 +93,7 @@ pub fn build(
                 },
                 delay_s,
                 breaker_s,
+                section: None,
             }),
     );
     Layout {
@@ -98,7 +104,7 @@ pub fn build(
 
 /// The layout of an existing table, in operating order, keeping its ids and breaker times; with
 /// the table's stage index for each layout position.
-pub fn of_scheme(scheme: &Scheme) -> (Layout, Vec<usize>) {
+pub fn of_scheme(plant: &Plant, scheme: &Scheme) -> (Layout, Vec<usize>) {
     let order = crate::verify::audit::operating_order(scheme);
     let stages = order
         .iter()
@@ -108,6 +114,12 @@ pub fn of_scheme(scheme: &Scheme) -> (Layout, Vec<usize>) {
                 trigger: s.trigger,
                 delay_s: s.delay_s,
                 breaker_s: s.breaker_s,
+                section: match s.trigger {
+                    StageTrigger::Frequency { .. } => {
+                        s.sheds.first().map(|&l| plant.loads[l].section)
+                    }
+                    StageTrigger::Breaker(_) => None,
+                },
             }
         })
         .collect();
@@ -116,7 +128,8 @@ pub fn of_scheme(scheme: &Scheme) -> (Layout, Vec<usize>) {
 }
 
 /// The table of a layout with each candidate load's stage position; loads are listed in
-/// priority order within a stage so that each stage measures at its lowest-ranked load's section.
+/// priority order within a stage, except that a stage with a chosen measuring section lists
+/// that section's lowest-ranked load first.
 pub fn scheme(
     plant: &Plant,
     name: &str,
@@ -151,17 +164,26 @@ pub fn scheme(
                     format!("uf-{uf}")
                 }
             };
+            let mut sheds: Vec<usize> = loads
+                .iter()
+                .zip(assignment)
+                .filter(|(_, a)| **a == Some(k))
+                .map(|((i, _), _)| *i)
+                .collect();
+            // The relay measures at its first listed load's section: list the chosen section's
+            // lowest-ranked load first.
+            if let Some(s) = st.section {
+                if let Some(pos) = sheds.iter().position(|&i| plant.loads[i].section == s) {
+                    let first = sheds.remove(pos);
+                    sheds.insert(0, first);
+                }
+            }
             Stage {
                 id: layout.ids.get(k).cloned().unwrap_or(generated),
                 trigger: st.trigger,
                 delay_s: st.delay_s,
                 breaker_s: st.breaker_s,
-                sheds: loads
-                    .iter()
-                    .zip(assignment)
-                    .filter(|(_, a)| **a == Some(k))
-                    .map(|((i, _), _)| *i)
-                    .collect(),
+                sheds,
             }
         })
         .collect();

@@ -301,7 +301,7 @@ fn shed_mw(ctx: &Context, op: usize, loads: &[usize]) -> f64 {
 /// Keep the existing table if it holds; else keep its settings and move as few loads as
 /// possible. Returns the result, how it relates to the table, and the replays used.
 fn keep_existing(ctx: &Context, existing: &Scheme) -> (Option<Sized>, FromOutcome, usize) {
-    let (layout, order) = layout::of_scheme(existing);
+    let (layout, order) = layout::of_scheme(ctx.plant, existing);
     let position = |load: usize| {
         existing
             .stages
@@ -487,38 +487,60 @@ pub fn starting_layouts(ctx: &Context) -> (Vec<Layout>, bool) {
     let pickups = layout::pickup_grid(limits);
     let delays = layout::delay_grid(limits);
     let gap = layout::spacing_steps(ctx.plant);
-    let mut armed_options: Vec<Vec<(BreakerRef, f64)>> = vec![Vec::new()];
-    for b in armable(ctx) {
-        armed_options.push(vec![(b, limits.min_delay_s)]);
+    // Armed stages, one per breaker: none, each breaker alone, and every breaker together (in
+    // an exhaustive search, every subset).
+    let breakers = armable(ctx);
+    let subsets = |n: usize| -> Vec<Vec<BreakerRef>> {
+        (0u32..(1 << n))
+            .map(|mask| {
+                (0..n)
+                    .filter(|&j| mask & (1 << j) != 0)
+                    .map(|j| breakers[j])
+                    .collect()
+            })
+            .collect()
+    };
+    let mut few: Vec<Vec<BreakerRef>> = vec![Vec::new()];
+    few.extend(breakers.iter().map(|&b| vec![b]));
+    if breakers.len() > 1 {
+        few.push(breakers.clone());
     }
-    let rocof_options: Vec<Option<f64>> = match limits.rocof_supervision_hz_per_s {
-        Some(r) => vec![None, Some(r)],
-        None => vec![None],
+    let rocof = limits.rocof_supervision_hz_per_s;
+    // df/dt supervision on any subset of the frequency stages (by mask), or on none.
+    let rocof_masks = |k: usize, all: bool| -> Vec<u32> {
+        match rocof {
+            None => vec![0],
+            Some(_) if all => (0u32..(1 << k.min(12))).collect(),
+            Some(_) => vec![0, 1],
+        }
     };
     let max_k = limits.max_stages.min(ctx.loads.len());
     let min_k = limits.min_stages.max(1).min(max_k);
 
-    // Exhaustive: every spaced choice of pickups, every delay for each.
+    // Exhaustive: every spaced choice of pickups, every delay and df/dt choice for each.
     let mut all: Vec<Vec<(f64, f64, Option<f64>)>> = Vec::new();
     let mut count = 0usize;
     for k in min_k..=max_k {
-        count += spaced_choices(pickups.len(), k, gap) * delays.len().pow(k as u32);
+        count = count.saturating_add(
+            spaced_choices(pickups.len(), k, gap)
+                .saturating_mul(delays.len().saturating_pow(k as u32))
+                .saturating_mul(rocof_masks(k, true).len()),
+        );
     }
-    count *= armed_options.len() * rocof_options.len();
-    let exhaustive = count <= EXHAUSTIVE_LAYOUTS;
+    let exhaustive =
+        breakers.len() < 16 && count.saturating_mul(1 << breakers.len()) <= EXHAUSTIVE_LAYOUTS;
+    let with_rocof = |j: usize, mask: u32| rocof.filter(|_| mask & (1 << j) != 0);
     if exhaustive {
         for k in min_k..=max_k {
             for choice in choose_spaced(pickups.len(), k, gap) {
                 for ds in delay_combinations(delays.len(), k) {
-                    for &rocof in &rocof_options {
+                    for mask in rocof_masks(k, true) {
                         all.push(
                             choice
                                 .iter()
                                 .zip(&ds)
                                 .enumerate()
-                                .map(|(j, (&p, &d))| {
-                                    (pickups[p], delays[d], if j == 0 { rocof } else { None })
-                                })
+                                .map(|(j, (&p, &d))| (pickups[p], delays[d], with_rocof(j, mask)))
                                 .collect(),
                         );
                     }
@@ -541,24 +563,30 @@ pub fn starting_layouts(ctx: &Context) -> (Vec<Layout>, bool) {
                 }
             }
             for choice in choices {
-                for &rocof in &rocof_options {
+                for mask in rocof_masks(k, false) {
                     all.push(
                         choice
                             .iter()
                             .enumerate()
-                            .map(|(j, &p)| {
-                                (pickups[p], delays[0], if j == 0 { rocof } else { None })
-                            })
+                            .map(|(j, &p)| (pickups[p], delays[0], with_rocof(j, mask)))
                             .collect(),
                     );
                 }
             }
         }
     }
+    // Armed options of the heuristic: none, each breaker alone, every breaker together.
+    let armed_options = if exhaustive {
+        subsets(breakers.len())
+    } else {
+        few
+    };
     let mut out = Vec::new();
     for armed in &armed_options {
+        let armed: Vec<(BreakerRef, f64)> =
+            armed.iter().map(|&b| (b, limits.min_delay_s)).collect();
         for f in &all {
-            out.push(layout::build(limits, armed, f));
+            out.push(layout::build(limits, &armed, f));
         }
     }
     (out, exhaustive)
@@ -618,6 +646,16 @@ fn neighbours(ctx: &Context, layout: &Layout) -> Vec<Layout> {
                 };
                 out.push(l);
             }
+            // Where the stage measures, when the plant has more than one section.
+            if ctx.plant.sections.len() > 1 {
+                for sec in 0..ctx.plant.sections.len() {
+                    if st.section != Some(sec) {
+                        let mut l = layout.clone();
+                        l.stages[k].section = Some(sec);
+                        out.push(l);
+                    }
+                }
+            }
         }
         // Every other delay: a long delay can ride through a slow dip that a short one cannot,
         // which no single step shows.
@@ -667,6 +705,7 @@ fn neighbours(ctx: &Context, layout: &Layout) -> Vec<Layout> {
                             },
                             delay_s: delays[0],
                             breaker_s: limits.breaker_s,
+                            section: None,
                         });
                         out.push(l);
                     }
@@ -674,25 +713,40 @@ fn neighbours(ctx: &Context, layout: &Layout) -> Vec<Layout> {
             }
         }
     }
-    let armed_now = layout.stages.len() - frequency.len();
-    if armed_now > 0 && !frequency.is_empty() {
+    // Each breaker that may arm a stage: its stage removed when there is one, added when there
+    // is none (one stage per breaker; armed stages stay in the fixed order of `armable`).
+    let breakers = armable(ctx);
+    for &b in &breakers {
         let mut l = layout.clone();
-        l.stages
-            .retain(|s| matches!(s.trigger, StageTrigger::Frequency { .. }));
-        out.push(l);
-    } else if armed_now == 0 {
-        for b in armable(ctx) {
-            let mut l = layout.clone();
+        if let Some(k) = l
+            .stages
+            .iter()
+            .position(|s| s.trigger == StageTrigger::Breaker(b))
+        {
+            l.stages.remove(k);
+        } else {
+            let at = l
+                .stages
+                .iter()
+                .take_while(|s| match s.trigger {
+                    StageTrigger::Breaker(o) => {
+                        breakers.iter().position(|&x| x == o)
+                            < breakers.iter().position(|&x| x == b)
+                    }
+                    StageTrigger::Frequency { .. } => false,
+                })
+                .count();
             l.stages.insert(
-                0,
+                at,
                 layout::Setting {
                     trigger: StageTrigger::Breaker(b),
                     delay_s: limits.min_delay_s,
                     breaker_s: limits.breaker_s,
+                    section: None,
                 },
             );
-            out.push(l);
         }
+        out.push(l);
     }
     out.retain(|l| spaced(l, &pickups, gap) && l.frequency_stages() >= 1);
     out.dedup();

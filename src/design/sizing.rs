@@ -24,6 +24,8 @@ pub struct Context<'a> {
     pub rows: Vec<(usize, usize)>,
     /// Sheddable loads in priority order (rank, then file order): (load index, rank).
     pub loads: Vec<(usize, u32)>,
+    /// Section of each candidate load (`loads` order).
+    pub load_section: Vec<usize>,
     /// `mw[op][load]`: demand of each load at each operating point.
     pub mw: Vec<Vec<f64>>,
     pub sim: SimConfig,
@@ -52,11 +54,13 @@ impl<'a> Context<'a> {
             .map(|(i, l)| (i, l.rank))
             .collect();
         loads.sort_by_key(|&(i, rank)| (rank, i));
+        let load_section = loads.iter().map(|&(i, _)| plant.loads[i].section).collect();
         Context {
             plant,
             cases,
             rows: crate::verify::matrix::pairs(cases),
             loads,
+            load_section,
             mw,
             sim,
             measurement,
@@ -74,6 +78,25 @@ impl<'a> Context<'a> {
             &self.loads,
             assignment,
         )
+    }
+
+    /// Whether every stage of `layout` opens some load switched on at every operating point, and
+    /// holds a load of the section it is to measure at: the rules the assignment model keeps,
+    /// checked for tables built outside it (the first guess, trimmed tables).
+    pub fn well_formed(&self, layout: &Layout, assignment: &[Option<usize>]) -> bool {
+        layout.stages.iter().enumerate().all(|(k, st)| {
+            let mine: Vec<usize> = (0..self.loads.len())
+                .filter(|&j| assignment[j] == Some(k))
+                .collect();
+            let live = self
+                .mw
+                .iter()
+                .all(|mw| mine.iter().any(|&j| mw[self.loads[j].0] > 0.0));
+            let measured = st
+                .section
+                .is_none_or(|s| mine.iter().any(|&j| self.load_section[j] == s));
+            live && measured
+        })
     }
 
     /// Replay every row.
@@ -239,7 +262,7 @@ pub fn size(
         let failing: Vec<usize> = (0..evals.len())
             .filter(|&r| evals[r].verdict != Verdict::Holds)
             .collect();
-        if failing.is_empty() {
+        if failing.is_empty() && ctx.well_formed(layout, &assignment) {
             let objective = ctx.objective(&evals);
             let sized = Sized {
                 layout: layout.clone(),
@@ -267,10 +290,13 @@ pub fn size(
             }
         }
         let cost = costs(ctx, stages, &evals);
+        let measure: Vec<Option<usize>> = layout.stages.iter().map(|s| s.section).collect();
         let problem = Problem {
             loads: &ctx.loads,
             mw: &ctx.mw,
             stages,
+            load_section: &ctx.load_section,
+            measure: &measure,
             requirements: &requirements,
             cost: &cost,
             start: &keep,
@@ -327,7 +353,7 @@ pub fn trim(ctx: &Context, mut best: Sized) -> Sized {
                 let (evals, n) = ctx.evaluate_memo(&ctx.scheme(&best.layout, &a), memo);
                 runs += n;
                 let ok = evals.iter().all(|e| e.verdict == Verdict::Holds);
-                if ok {
+                if ok && ctx.well_formed(&best.layout, &a) {
                     let objective = ctx.objective(&evals);
                     if tried.as_ref().is_none_or(|(_, _, o)| objective < *o - 1e-9) {
                         tried = Some((a, evals, objective));
@@ -391,7 +417,9 @@ pub fn trim(ctx: &Context, mut best: Sized) -> Sized {
                 }
                 let (evals, r) = ctx.evaluate_memo(&ctx.scheme(&best.layout, &a), memo);
                 best.runs += r;
-                if evals.iter().all(|e| e.verdict == Verdict::Holds) {
+                if evals.iter().all(|e| e.verdict == Verdict::Holds)
+                    && ctx.well_formed(&best.layout, &a)
+                {
                     let objective = ctx.objective(&evals);
                     let bar = found.as_ref().map_or(best.objective, |f| f.2);
                     if objective < bar - 1e-9 {
@@ -463,10 +491,10 @@ fn requirement(
     let mut runs = 0;
     // Bisect on the side of the failure only: "no longer short" is monotone in the loads added
     // even where adding many would overshoot, and the overshoot is the next round's business.
-    let mut no_longer = |trial: &[Option<usize>], side: Verdict| {
+    let mut judge = |trial: &[Option<usize>]| {
         runs += 1;
         let scheme = ctx.scheme(layout, trial);
-        evaluate(ctx.plant, case, op, &scheme, &ctx.sim).verdict != side
+        evaluate(ctx.plant, case, op, &scheme, &ctx.sim).verdict
     };
     let opened = |trial: &[Option<usize>]| -> f64 {
         ctx.loads
@@ -479,31 +507,56 @@ fn requirement(
     match eval.verdict {
         Verdict::Holds => (None, 0),
         Verdict::Short => {
-            // The next loads in priority order that the row did not shed.
-            let later: Vec<usize> = (0..ctx.loads.len())
-                .filter(|&j| {
-                    assignment[j].is_none_or(|k| k > deepest) && ctx.mw[op][ctx.loads[j].0] > 0.0
-                })
-                .collect();
-            if later.is_empty() {
-                return (None, 0);
-            }
-            let moved = |m: usize| {
-                let mut a = assignment.to_vec();
-                for &j in &later[..m] {
-                    a[j] = Some(deepest);
+            // The next loads in priority order that the row did not shed, moved into its
+            // deepest operated stage until it is no longer short. When that overshoots (the
+            // stage acts too late, so enough of it sheds too much), the same into the operated
+            // stage before it, and so on to the first; if no stage holds the row, the deepest's.
+            let mut fallback = None;
+            for &stage in eval.operated.iter().rev() {
+                let later: Vec<usize> = (0..ctx.loads.len())
+                    .filter(|&j| {
+                        assignment[j].is_none_or(|k| k > stage) && ctx.mw[op][ctx.loads[j].0] > 0.0
+                    })
+                    .collect();
+                if later.is_empty() {
+                    continue;
                 }
-                a
-            };
-            let m = least(later.len(), |m| no_longer(&moved(m), Verdict::Short));
-            let trial = moved(m.unwrap_or(later.len()));
-            let req = Requirement {
-                op,
-                stages: eval.operated.clone(),
-                mw: opened(&trial),
-                at_least: true,
-            };
-            (Some(req), runs)
+                let moved = |m: usize| {
+                    let mut a = assignment.to_vec();
+                    for &j in &later[..m] {
+                        a[j] = Some(stage);
+                    }
+                    a
+                };
+                let found = least(later.len(), |m| judge(&moved(m)) != Verdict::Short);
+                let trial = moved(found.unwrap_or(later.len()));
+                let upto: Vec<usize> = eval
+                    .operated
+                    .iter()
+                    .copied()
+                    .filter(|&k| k <= stage)
+                    .collect();
+                let mw: f64 = ctx
+                    .loads
+                    .iter()
+                    .zip(&trial)
+                    .filter(|(_, a)| a.is_some_and(|k| upto.contains(&k)))
+                    .map(|((i, _), _)| ctx.mw[op][*i])
+                    .sum();
+                let req = Requirement {
+                    op,
+                    stages: upto,
+                    mw,
+                    at_least: true,
+                };
+                if found.is_some() && judge(&trial) == Verdict::Holds {
+                    return (Some(req), runs);
+                }
+                if fallback.is_none() {
+                    fallback = Some(req);
+                }
+            }
+            (fallback, runs)
         }
         Verdict::TooMuch => {
             let mine: Vec<usize> = (0..ctx.loads.len())
@@ -521,7 +574,7 @@ fn requirement(
                 }
                 a
             };
-            let m = least(mine.len() - 1, |m| no_longer(&moved(m), Verdict::TooMuch));
+            let m = least(mine.len() - 1, |m| judge(&moved(m)) != Verdict::TooMuch);
             let trial = moved(m.unwrap_or(mine.len() - 1));
             let req = Requirement {
                 op,

@@ -372,7 +372,7 @@ pub struct RawDesign {
     /// Load breaker opening time of every proposed stage, s (default 0.08).
     #[serde(default)]
     pub breaker_s: Option<f64>,
-    /// Breakers whose opening may arm a stage: the utility breaker, a tie or a generator, by id; `[]` for none (default: the utility breaker when the plant has one).
+    /// Breakers whose opening may arm a stage: the utility breaker, a tie or a generator, by id; `[]` for none (default: every breaker — the utility's, every tie, every generator).
     #[serde(default)]
     pub armed_by: Option<Vec<String>>,
     /// df/dt threshold with which the design may supervise a stage, Hz/s (default: no df/dt-supervised stage).

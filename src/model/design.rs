@@ -33,7 +33,8 @@ pub struct DesignLimits {
 
 impl DesignLimits {
     /// Defaults scaled from nominal frequency (docs/files.md gives each one's basis); the
-    /// utility breaker may arm a stage when the plant has one.
+    /// utility breaker may arm a stage when the plant has one (reading a plant file widens this
+    /// to every breaker — ties and generators too — when its design block leaves `armed_by` out).
     pub fn defaults(nominal_hz: f64, has_utility: bool) -> DesignLimits {
         DesignLimits {
             min_stages: 1,

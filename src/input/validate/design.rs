@@ -136,6 +136,18 @@ pub(super) fn armed_by(
     Some(out)
 }
 
+/// The default of `armed_by`: every breaker whose opening a case can cause — the utility
+/// breaker when the plant has one, every tie, and every generator breaker (a trip).
+pub(super) fn every_breaker(plant: &Plant) -> Vec<BreakerRef> {
+    let mut out = Vec::new();
+    if plant.utility.is_some() {
+        out.push(BreakerRef::Utility);
+    }
+    out.extend((0..plant.ties.len()).map(BreakerRef::Tie));
+    out.extend((0..plant.generators.len()).map(BreakerRef::Generator));
+    out
+}
+
 // ---------------------------------------------------------------- parts of the block
 
 fn stage_count(
