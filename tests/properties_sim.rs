@@ -6,7 +6,7 @@
 //! a quiet start with no disturbance. It must not restate the simulator's arithmetic: each law
 //! is checked against physics or against the simulator itself under a changed input.
 //!
-//! Generated plants stay inside the validator's plausible ranges (src/input/validate/plant.rs):
+//! Generated plants stay inside the validator's plausible ranges (src/input/validate/plant/):
 //! H in (0, 20] s, droop in (0, 20] %, dead band ≤ 0.5 Hz, HP fraction in [0, 1], water starting
 //! time ≤ 10 s, transient droop ≤ 100 %, load frequency exponent in [−2, 8] (here 0–3, Kundur
 //! 1994 §7.1 Table 7.1), load inertia ≤ 20 s. Parameter sub-ranges are common practice, no source.
