@@ -50,6 +50,19 @@ fn demo_proposal_verifies_audits_clean_beats_the_baseline_and_is_thread_count_in
     assert!(failing.is_empty(), "proposal fails: {failing:#?}");
     let a = audit(&plant, &two.scheme, &AuditRules::for_plant(&plant));
     assert!(a.violations.is_empty(), "{:#?}", a.violations);
+    // The backstop: every sheddable load is in some stage.
+    assert!(
+        two.unassigned.is_empty(),
+        "sheddable loads in no stage: {:?}",
+        two.unassigned
+    );
+    for (i, l) in plant.loads.iter().enumerate() {
+        assert!(
+            l.never_shed || two.scheme.stages.iter().any(|s| s.sheds.contains(&i)),
+            "{} is in no stage",
+            l.id
+        );
+    }
 
     let baseline = two
         .baseline

@@ -1,6 +1,7 @@
 //! `nadir design` with every kind of initiator: a plant whose only holding tables need a stage
 //! armed by a generator breaker (a turbine trip), designed with the default `armed_by` (every
-//! breaker a case opens); and the same plant with arming forbidden, which no table holds.
+//! breaker a case opens); the same plant with arming forbidden, which no table holds; and the
+//! same plant with only a case that needs no shedding, which gets the backstop alone.
 //!
 //! The plant (tests/design_plants/sugar-mill.yaml) is invented for the test; it describes no real
 //! site. Its numbers were chosen so that a 5 MW trip in a 15 MW island with H ≈ 2.2 s falls at
@@ -8,7 +9,8 @@
 //! Control, 1994, §3.9, from memory), too fast for any under-frequency stage on the 58.8–57.6 Hz
 //! grid to act before the 2 Hz/s ROCOF limit or the 57 Hz minimum is crossed.
 
-use nadir::design::{self, DesignError};
+use nadir::design::backstop::Backstop;
+use nadir::design::{self, DesignError, Source};
 use nadir::model::{BreakerRef, CaseSet, Plant, StageTrigger};
 use nadir::verify::audit::{audit, AuditRules};
 use nadir::verify::matrix::{verify, VerifyConfig};
@@ -57,4 +59,55 @@ fn with_arming_forbidden_no_table_holds_the_turbine_trip() {
         Err(DesignError::NoLayout(why)) => assert!(why.contains("tg-2-trip"), "{why}"),
         other => panic!("expected no layout, got {other:?}"),
     }
+}
+
+/// Only the small load step, which holds with no table: the proposal is the backstop alone (one
+/// stage at the lowest pickup with every sheddable load, which no case operates), never a token
+/// stage; with the backstop turned off there is nothing to propose.
+#[test]
+fn when_nothing_needs_shedding_the_backstop_alone_is_proposed() {
+    let (plant, mut cases) = mill("");
+    cases.cases.retain(|c| c.id == "small-step");
+    let p = design::design(&plant, &cases, None, &|_| {}).expect("a table");
+    assert_eq!(p.source, Source::BackstopOnly);
+    assert_eq!(p.objective, 0.0);
+    assert_eq!(p.scheme.stages.len(), 1, "{:#?}", p.scheme);
+    let stage = &p.scheme.stages[0];
+    let StageTrigger::Frequency {
+        pickup_hz,
+        min_rocof_hz_per_s: None,
+    } = stage.trigger
+    else {
+        panic!(
+            "the backstop is a plain frequency stage: {:?}",
+            stage.trigger
+        );
+    };
+    assert!(
+        (pickup_hz - plant.design.lowest_pickup_hz).abs() < 1e-6,
+        "{pickup_hz}"
+    );
+    let sheddable = plant.loads.iter().filter(|l| !l.never_shed).count();
+    assert_eq!(stage.sheds.len(), sheddable);
+    assert!(p.rows.iter().all(|r| r.shed_mw == 0.0));
+
+    let (plant, _) = mill("design:\n  backstop: false\n");
+    assert_eq!(
+        design::design(&plant, &cases, None, &|_| {}).err(),
+        Some(DesignError::NothingNeeded)
+    );
+}
+
+/// The turbine-trip design leaves no sheddable load in no stage: the loads no case needs go to
+/// the backstop.
+#[test]
+fn the_turbine_trip_design_assigns_every_sheddable_load() {
+    let (plant, cases) = mill("");
+    let p = design::design(&plant, &cases, None, &|_| {}).unwrap();
+    assert!(p.unassigned.is_empty(), "{:?}", p.unassigned);
+    assert!(
+        matches!(p.backstop, Backstop::NewStage | Backstop::LastStage),
+        "{:?}",
+        p.backstop
+    );
 }

@@ -52,6 +52,7 @@ fn demo_plant_block_reads_as_written() {
             armed_by: vec![BreakerRef::Utility],
             rocof_supervision_hz_per_s: Some(0.5),
             rank_weights: Vec::new(),
+            backstop: true,
         }
     );
 }
@@ -91,6 +92,7 @@ fn full_block_on_the_demo_plant_resolves_breakers_and_weights() {
             rocof_supervision_hz_per_s: Some(1.0),
             // In rank order, whatever the order written.
             rank_weights: vec![(1, 1.5), (2, 2.0), (10, 25.0)],
+            backstop: false,
         }
     );
     assert_eq!(d.rank_weight(10), 25.0);

@@ -5,6 +5,7 @@
 
 use super::check::{finish, fmt};
 use super::{load, Outcome};
+use nadir::design::backstop::Backstop;
 use nadir::design::{self, DesignError, FromOutcome, Proposal, Source};
 use nadir::report::write::write_atomic;
 use nadir::verify::audit::{audit, AuditRules};
@@ -57,6 +58,14 @@ pub fn run(args: DesignArgs) -> anyhow::Result<Outcome> {
             text.push_str("Nothing was written.\n");
             super::write_stdout(&text)?;
             return Ok(Outcome::Fail);
+        }
+        Err(DesignError::NothingNeeded) => {
+            super::write_stdout(
+                "No case needs shedding: every case holds every criterion, with the required margins, with no table at all.\n\
+The plant's design block turns the backstop off (`backstop: false`), so there is no table to propose.\n\
+Nothing was written.\n",
+            )?;
+            return Ok(Outcome::Pass);
         }
         Err(DesignError::NoLayout(why)) => {
             super::write_stdout(&format!(
@@ -164,11 +173,7 @@ fn stage_table(plant: &nadir::model::Plant, p: &Proposal) -> String {
             nadir::verify::audit::describe_trigger(plant, &s.trigger),
             fmt(s.delay_s, 2),
             fmt(s.breaker_s, 2),
-            s.sheds
-                .iter()
-                .map(|&l| format!("{} ({})", plant.loads[l].id, plant.loads[l].rank))
-                .collect::<Vec<_>>()
-                .join(", "),
+            loads_in_words(plant, &s.sheds),
         ];
         for op in &plant.operating_points {
             row.push(fmt(s.sheds.iter().map(|&l| op.load_mw[l]).sum(), 2));
@@ -184,11 +189,41 @@ fn stage_table(plant: &nadir::model::Plant, p: &Proposal) -> String {
             "the plain baseline table: the search found nothing that sheds less".into()
         }
         Source::Existing => "the existing table's settings".into(),
+        Source::BackstopOnly => "the backstop alone: no studied case needs shedding (every case holds with no table), so its one stage at the lowest pickup holds every sheddable load, in rank order, for events beyond the studied ones".into(),
+    };
+    let backstop = match &p.backstop {
+        Backstop::NewStage if p.source != Source::BackstopOnly => {
+            "Backstop: the loads no studied case needs are in the last stage, at the lowest pickup; no studied case operates it unless its shed is shown below.\n".to_string()
+        }
+        Backstop::LastStage => {
+            "Backstop: the loads no studied case needs were added to the last frequency stage.\n".to_string()
+        }
+        Backstop::Off => format!(
+            "No backstop (the design block says `backstop: false`): {} sheddable load(s) in no stage.\n",
+            p.unassigned.len()
+        ),
+        Backstop::NotHeld(why) => format!(
+            "No backstop: {why}; these sheddable loads are in no stage: {}.\n",
+            p.unassigned.join(", ")
+        ),
+        _ => String::new(),
     };
     format!(
-        "Proposed table, {source}:\n{}\n",
+        "Proposed table, {source}:\n{}\n{backstop}",
         finish(b, 2..4 + 1 + plant.operating_points.len())
     )
+}
+
+/// A stage's loads with their ranks; a long list as its first and last load and a count, so
+/// that the table stays readable (the scheme file lists every load).
+fn loads_in_words(plant: &nadir::model::Plant, sheds: &[usize]) -> String {
+    let one = |l: usize| format!("{} ({})", plant.loads[l].id, plant.loads[l].rank);
+    match sheds {
+        [first, .., last] if sheds.len() > 4 => {
+            format!("{} … {}: {} loads", one(*first), one(*last), sheds.len())
+        }
+        _ => sheds.iter().map(|&l| one(l)).collect::<Vec<_>>().join(", "),
+    }
 }
 
 fn shed_table(p: &Proposal) -> String {

@@ -11,6 +11,7 @@
 //! layouts are tried in a fixed order, so the proposal does not depend on the thread count.
 
 pub mod assign;
+pub mod backstop;
 pub mod baseline;
 pub mod bound;
 pub mod evaluate;
@@ -18,6 +19,7 @@ pub mod layout;
 pub mod sizing;
 
 use crate::model::{Action, BreakerRef, CaseSet, Plant, Scheme, StageTrigger};
+use backstop::Backstop;
 use bound::{Bound, Shortfall};
 use evaluate::{design_sim_config, Verdict};
 use layout::Layout;
@@ -49,6 +51,10 @@ pub struct Proposal {
     pub from: Option<FromOutcome>,
     /// Where the proposal came from.
     pub source: Source,
+    /// What became of the loads no studied case needs.
+    pub backstop: Backstop,
+    /// Sheddable loads (ids) that no stage of the proposal opens.
+    pub unassigned: Vec<String>,
     pub layouts_sized: usize,
     pub replays: usize,
 }
@@ -81,6 +87,8 @@ pub enum Source {
     Baseline,
     /// The existing table, kept or with loads reassigned.
     Existing,
+    /// No case needs shedding: the backstop stage alone.
+    BackstopOnly,
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
@@ -100,6 +108,9 @@ pub enum DesignError {
     Unholdable(Vec<Shortfall>),
     /// No layout within the limits could be sized to hold every row.
     NoLayout(String),
+    /// No case needs shedding and the plant's design block turns the backstop off: there is no
+    /// table to propose.
+    NothingNeeded,
 }
 
 /// What design reports as it goes.
@@ -119,9 +130,32 @@ pub fn design(
     progress("lower bounds");
     let bounds = bounds(&ctx)?;
 
+    if from.is_none() && backstop::nothing_needed(&ctx) {
+        // No case needs shedding: the backstop alone, labelled as such; never a token stage.
+        if !plant.design.backstop {
+            return Err(DesignError::NothingNeeded);
+        }
+        progress("backstop table");
+        if let Some(best) = backstop::alone(&ctx) {
+            return Ok(finish(
+                &ctx,
+                &bounds,
+                best,
+                None,
+                None,
+                Source::BackstopOnly,
+                Backstop::NewStage,
+                0,
+                0,
+            ));
+        }
+    }
+
     progress("plain baseline table");
-    let baseline = baseline::plain(&ctx);
+    let mut baseline = baseline::plain(&ctx);
     let mut replays = baseline.as_ref().map_or(0, |b| b.runs);
+    // The baseline gets the same backstop, so that the two are compared like for like.
+    let baseline_backstop = baseline.as_mut().map(|b| backstop::add(&ctx, b));
     let mut layouts_sized = 0;
 
     let mut chosen: Option<(Sized, Source)> = None;
@@ -135,11 +169,16 @@ pub fn design(
             chosen = Some((s, Source::Existing));
         }
     }
+    let mut backstop = Backstop::NotNeeded;
     if chosen.is_none() {
         let (best, sized, n) = search(&ctx, progress);
         layouts_sized = sized;
         replays += n;
-        chosen = best.map(|b| (b, Source::Search));
+        chosen = best.map(|mut b| {
+            drop_idle_last_stages(&ctx, &mut b);
+            backstop = backstop::add(&ctx, &mut b);
+            (b, Source::Search)
+        });
     }
     if let Some(b) = &baseline {
         let better = match &chosen {
@@ -148,14 +187,39 @@ pub fn design(
         };
         if better {
             chosen = Some((b.clone(), Source::Baseline));
+            backstop = baseline_backstop.unwrap_or(Backstop::NotNeeded);
         }
     }
-    let Some((mut best, source)) = chosen else {
+    let Some((best, source)) = chosen else {
         return Err(DesignError::NoLayout(why_no_layout(&ctx)));
     };
-    if source != Source::Existing {
-        drop_idle_last_stages(&ctx, &mut best);
-    }
+    Ok(finish(
+        &ctx,
+        &bounds,
+        best,
+        baseline,
+        from_outcome,
+        source,
+        backstop,
+        layouts_sized,
+        replays,
+    ))
+}
+
+/// The proposal of a finished table.
+#[allow(clippy::too_many_arguments)]
+fn finish(
+    ctx: &Context,
+    bounds: &[Bound],
+    best: Sized,
+    baseline: Option<Sized>,
+    from: Option<FromOutcome>,
+    source: Source,
+    backstop: Backstop,
+    layouts_sized: usize,
+    replays: usize,
+) -> Proposal {
+    let (plant, cases) = (ctx.plant, ctx.cases);
     let scheme = ctx.scheme(&best.layout, &best.assignment);
     let rows = ctx
         .rows
@@ -165,14 +229,21 @@ pub fn design(
             case: cases.cases[ci].id.clone(),
             operating_point: plant.operating_points[op].id.clone(),
             weight: cases.cases[ci].weight,
-            shed_mw: shed_mw(&ctx, op, &best.evals[r].shed_loads),
+            shed_mw: shed_mw(ctx, op, &best.evals[r].shed_loads),
             bound_mw: bounds[r].mw,
             baseline_mw: baseline
                 .as_ref()
-                .map(|b| shed_mw(&ctx, op, &b.evals[r].shed_loads)),
+                .map(|b| shed_mw(ctx, op, &b.evals[r].shed_loads)),
         })
         .collect();
-    Ok(Proposal {
+    let unassigned = ctx
+        .loads
+        .iter()
+        .zip(&best.assignment)
+        .filter(|(_, a)| a.is_none())
+        .map(|(&(i, _), _)| plant.loads[i].id.clone())
+        .collect();
+    Proposal {
         scheme,
         objective: best.objective,
         rows,
@@ -181,11 +252,13 @@ pub fn design(
             stages: b.layout.stages.len(),
             scheme: ctx.scheme(&b.layout, &b.assignment),
         }),
-        from: from_outcome,
+        from,
         source,
+        backstop,
+        unassigned,
         layouts_sized,
         replays: replays + best.runs,
-    })
+    }
 }
 
 /// Remove frequency stages at the bottom that no row operates (above the limits' minimum count),

@@ -381,6 +381,9 @@ pub struct RawDesign {
     /// Objective weight per MW shed of a rank, as `rank: weight` (default: a rank not listed weighs its own number).
     #[serde(default)]
     pub rank_weights: BTreeMap<u32, f64>,
+    /// Assign every sheddable load that no studied case needs to a backstop at the lowest pickup (default true).
+    #[serde(default)]
+    pub backstop: Option<bool>,
 }
 
 /// How many under-frequency stages a proposal may have.

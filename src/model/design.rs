@@ -29,6 +29,9 @@ pub struct DesignLimits {
     /// Objective weight per MW shed of a rank, as (rank, weight); a rank not listed weighs its
     /// own number (rank 1 weighs 1, rank 7 weighs 7).
     pub rank_weights: Vec<(u32, f64)>,
+    /// Every sheddable load no studied case needs shed is still assigned, to a backstop at the
+    /// lowest pickup (beyond-design events get the whole sheddable load, in rank order).
+    pub backstop: bool,
 }
 
 impl DesignLimits {
@@ -53,6 +56,7 @@ impl DesignLimits {
             },
             rocof_supervision_hz_per_s: None,
             rank_weights: Vec::new(),
+            backstop: true,
         }
     }
 

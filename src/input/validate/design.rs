@@ -65,6 +65,9 @@ pub(super) fn limits(
         );
         lim.rocof_supervision_hz_per_s = Some(v);
     }
+    if let Some(b) = raw.backstop {
+        lim.backstop = b;
+    }
     for (&rank, &weight) in &raw.rank_weights {
         let wp = p.key("rank_weights").key(&rank.to_string());
         if rank == 0 {
