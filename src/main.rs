@@ -12,6 +12,7 @@ use cli::{Cli, Outcome};
 use std::process::ExitCode;
 
 fn main() -> ExitCode {
+    cli::clean_up_on_signals();
     let cli = match Cli::try_parse() {
         Ok(cli) => cli,
         Err(e) => {
@@ -25,7 +26,9 @@ fn main() -> ExitCode {
         Ok(Outcome::Pass) => ExitCode::from(0),
         Ok(Outcome::Fail) => ExitCode::from(1),
         Err(err) => {
-            eprintln!("{}", cli::render_error(&err));
+            // A closed stderr must not turn a clean error into a panic.
+            use std::io::Write;
+            let _ = writeln!(std::io::stderr(), "{}", cli::render_error(&err));
             ExitCode::from(2)
         }
     }

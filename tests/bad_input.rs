@@ -848,7 +848,7 @@ fn valid_files_give_no_diagnostics_and_resolve() {
     let cases = parse_cases(&read("cases_ok.yaml"), "cases_ok.yaml", &plant).unwrap();
     let c = &cases.cases[1];
     assert_eq!(c.applies_to, vec![0]);
-    assert_eq!(c.duration_s, 20.0);
+    assert_eq!(c.duration_s, 25.0);
     assert_eq!(cases.cases[0].duration_s, 30.0);
     assert_eq!(cases.cases[0].applies_to, vec![0, 1]);
     assert_eq!(cases.cases[0].weight, 1.0);

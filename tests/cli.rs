@@ -108,6 +108,7 @@ fn schema_prints_valid_json_and_writes_three_files() {
         assert!(v[name].is_object(), "{name} missing");
     }
     let dir = Path::new(env!("CARGO_TARGET_TMPDIR")).join("schemas");
+    let _ = std::fs::remove_dir_all(&dir);
     let r = nadir(&["schema", "--out", dir.to_str().unwrap()]);
     assert_eq!(r.code, 0, "stderr: {}", r.stderr);
     for name in [

@@ -169,6 +169,7 @@ fn audit_passes_the_demo_and_names_each_broken_rule() {
 #[test]
 fn replay_prints_the_event_log_and_writes_csv_and_plot() {
     let dir = PathBuf::from(env!("CARGO_TARGET_TMPDIR")).join("replay");
+    let _ = std::fs::remove_dir_all(&dir);
     std::fs::create_dir_all(&dir).unwrap();
     let svg = dir.join("utility-loss.svg");
     let csv = dir.join("utility-loss.csv");

@@ -5,7 +5,6 @@
 //! JSON output is the library's serde form, unrounded.
 
 use super::Outcome;
-use anyhow::Context;
 use nadir::screening::{
     self, CaseFigures, CaseProblem, IslandResponse, Screening, StateFigures, SteadyState,
     TriggerFigure,
@@ -46,20 +45,13 @@ pub const CAUTION: &str = "Screening figures only; settings must be reviewed by 
 protection engineer, coordinated with the grid operator, and conform to local codes.";
 
 pub fn run(args: CheckArgs) -> anyhow::Result<Outcome> {
-    let plant = nadir::input::load_plant(&args.plant)
-        .with_context(|| format!("reading plant file {}", args.plant.display()))?;
+    let plant = super::load::plant(&args.plant)?;
     let cases = match &args.cases {
-        Some(path) => Some(
-            nadir::input::load_cases(path, &plant)
-                .with_context(|| format!("reading cases file {}", path.display()))?,
-        ),
+        Some(path) => Some(super::load::cases(path, &plant)?),
         None => None,
     };
     let scheme = match &args.scheme {
-        Some(path) => Some(
-            nadir::input::load_scheme(path, &plant)
-                .with_context(|| format!("reading scheme file {}", path.display()))?,
-        ),
+        Some(path) => Some(super::load::scheme(path, &plant)?),
         None => None,
     };
     let figures = screening::screen(&plant, cases.as_ref(), scheme.as_ref());

@@ -27,7 +27,7 @@ pub struct CompareArgs {
     /// Output format.
     #[arg(long, value_enum, default_value_t = super::check::Format::Table)]
     pub format: super::check::Format,
-    /// Skip the margin searches.
+    /// Skip the margin searches; refused when the plant's criteria require a margin.
     #[arg(long)]
     pub no_margins: bool,
 }
@@ -37,6 +37,7 @@ pub fn run(args: CompareArgs) -> anyhow::Result<Outcome> {
     let cases = load::cases(&args.cases, &plant)?;
     let old = load::scheme(&args.old, &plant)?;
     let new = load::scheme(&args.new, &plant)?;
+    super::verify::refuse_skipped_margins(args.no_margins, &plant, &args.plant)?;
     let config = VerifyConfig {
         margins: !args.no_margins,
         ..VerifyConfig::default()

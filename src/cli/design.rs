@@ -7,7 +7,6 @@ use super::check::{finish, fmt};
 use super::{load, Outcome};
 use nadir::design::backstop::Backstop;
 use nadir::design::{self, DesignError, FromOutcome, Proposal, Source};
-use nadir::report::write::write_atomic;
 use nadir::verify::audit::{audit, AuditRules};
 use nadir::verify::matrix::{self, VerifyConfig};
 use std::io::IsTerminal;
@@ -30,13 +29,21 @@ pub struct DesignArgs {
     /// assignments as possible.
     #[arg(long, value_name = "EXISTING_SCHEME")]
     pub from: Option<PathBuf>,
-    /// Replace the output file if it exists.
+    /// Replace the output file if it exists (never one of the input files). A symbolic link at
+    /// the output is replaced as a link; the file it points to is not written.
     #[arg(long)]
     pub force: bool,
 }
 
 pub fn run(args: DesignArgs) -> anyhow::Result<Outcome> {
-    let overwrite = super::overwrite_policy(&args.output, args.force)?;
+    let mut inputs = vec![
+        ("plant", args.plant.as_path()),
+        ("cases", args.cases.as_path()),
+    ];
+    if let Some(from) = &args.from {
+        inputs.push(("scheme", from.as_path()));
+    }
+    let target = super::check_outputs(&[args.output.as_path()], &inputs, args.force)?;
     let plant = load::plant(&args.plant)?;
     let cases = load::cases(&args.cases, &plant)?;
     let existing = match &args.from {
@@ -76,7 +83,7 @@ Nothing was written.\n",
     };
 
     let yaml = scheme_text(&plant, &proposal, &args);
-    write_atomic(&args.output, yaml.as_bytes(), overwrite)?;
+    target[0].write(yaml.as_bytes())?;
 
     let bar = super::verify::progress_bar(matrix::pairs(&cases).len() as u64);
     let m = matrix::verify(

@@ -78,23 +78,20 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
     }
 }
 
-/// How a verb that writes a file may treat an existing one, checked before minutes of work
-/// (`write_atomic` checks again at the end).
-pub fn overwrite_policy(
-    output: &std::path::Path,
+/// A verb's output files, checked before any work against its inputs (`(role, path)`) and the one
+/// overwrite rule (`--force` allows replacing an existing file, never an input); the rule and the
+/// checks live in `nadir::report::write`. A verb writes each file with `Target::write`.
+pub fn check_outputs(
+    outputs: &[&std::path::Path],
+    inputs: &[(&str, &std::path::Path)],
     force: bool,
-) -> anyhow::Result<nadir::report::write::Overwrite> {
-    use nadir::report::write::Overwrite;
-    if force {
-        return Ok(Overwrite::Allow);
-    }
-    if output.exists() {
-        anyhow::bail!(
-            "{}: already exists; pass --force to replace it, or choose another -o",
-            output.display()
-        );
-    }
-    Ok(Overwrite::Refuse)
+) -> anyhow::Result<Vec<nadir::report::write::Target>> {
+    use nadir::report::write::{self, Overwrite};
+    Ok(write::check_outputs(
+        outputs,
+        inputs,
+        Overwrite::from_force(force),
+    )?)
 }
 
 /// `nadir: ` and the cause chain joined by `: `; input diagnostics each on their own line.
@@ -109,22 +106,73 @@ pub fn render_error(err: &anyhow::Error) -> String {
             }
             break;
         }
+        let text = cause.to_string();
+        // A cause that its context already quotes (an I/O error shown inside its wrapper) is
+        // not repeated.
+        if !first && out.ends_with(&text) {
+            continue;
+        }
         if !first {
             out.push_str(": ");
         }
-        out.push_str(&cause.to_string());
+        out.push_str(&text);
         first = false;
     }
     out
 }
 
-/// Writes a verb's output to standard output. A closed pipe (`nadir check … | head`) ends the
-/// output quietly instead of panicking as `println!` would.
+/// Writes a verb's output to standard output. When the reader has closed the pipe
+/// (`nadir verify … | head -1` once `head` has exited), nadir follows the usual convention for
+/// SIGPIPE: it removes any temporary file and ends by SIGPIPE, which a shell reports as exit
+/// status 141; it never panics and never exits 0 with its output cut short.
 pub fn write_stdout(text: &str) -> anyhow::Result<()> {
     use std::io::Write;
     let mut out = std::io::stdout().lock();
     match out.write_all(text.as_bytes()).and_then(|()| out.flush()) {
-        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Ok(()),
+        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => {
+            end_by_signal(SIGPIPE);
+            anyhow::bail!("standard output was closed before the output was complete")
+        }
         other => Ok(other?),
+    }
+}
+
+#[cfg(unix)]
+const SIGPIPE: i32 = signal_hook::consts::SIGPIPE;
+#[cfg(not(unix))]
+const SIGPIPE: i32 = 13;
+
+/// Removes every temporary output file, then ends the process by `signal` with its default
+/// action (so the parent sees "killed by SIGINT", exit status 130 in a shell; SIGTERM 143;
+/// SIGPIPE 141). Returns only where signals cannot be raised.
+fn end_by_signal(signal: i32) {
+    nadir::report::write::remove_temporaries_then(|| {
+        #[cfg(unix)]
+        {
+            let _ = signal_hook::low_level::emulate_default_handler(signal);
+            std::process::exit(128 + signal);
+        }
+        #[cfg(not(unix))]
+        let _ = signal;
+    })
+}
+
+/// On SIGINT and SIGTERM, remove the temporary files of any write in progress, then end by the
+/// signal as the default action would. A thread waits for the signals, so the clean-up runs in
+/// normal code, not in a signal handler.
+pub fn clean_up_on_signals() {
+    #[cfg(unix)]
+    {
+        use signal_hook::consts::{SIGINT, SIGTERM};
+        let Ok(mut signals) = signal_hook::iterator::Signals::new([SIGINT, SIGTERM]) else {
+            return;
+        };
+        let _ = std::thread::Builder::new()
+            .name("signals".into())
+            .spawn(move || {
+                if let Some(signal) = signals.forever().next() {
+                    end_by_signal(signal);
+                }
+            });
     }
 }

@@ -3,10 +3,9 @@
 
 use super::check::fmt;
 use super::{load, Outcome};
-use anyhow::{bail, Context};
+use anyhow::bail;
 use nadir::model::{Plant, Scheme, StageTrigger};
 use nadir::report::svg::{self, FrequencyPlot, Level, LevelKind, Series};
-use nadir::report::write::{write_atomic, Overwrite};
 use nadir::sim::{self, Cause, EventKind, Run};
 use nadir::verify::criteria::judge;
 use nadir::verify::matrix::{observe, sim_config_for};
@@ -36,9 +35,30 @@ pub struct ReplayArgs {
     /// Write a plot of frequency and shed MW against time as SVG.
     #[arg(long, value_name = "FILE.svg")]
     pub plot: Option<PathBuf>,
+    /// Replace the --csv and --plot files if they exist (never one of the input files). A
+    /// symbolic link there is replaced as a link; the file it points to is not written.
+    #[arg(long)]
+    pub force: bool,
 }
 
 pub fn run(args: ReplayArgs) -> anyhow::Result<Outcome> {
+    let outputs: Vec<&std::path::Path> = [&args.csv, &args.plot]
+        .into_iter()
+        .flatten()
+        .map(PathBuf::as_path)
+        .collect();
+    let targets = super::check_outputs(
+        &outputs,
+        &[
+            ("plant", args.plant.as_path()),
+            ("scheme", args.scheme.as_path()),
+            ("cases", args.cases.as_path()),
+        ],
+        args.force,
+    )?;
+    let mut targets = targets.into_iter();
+    let csv_target = args.csv.as_ref().and(targets.next());
+    let plot_target = args.plot.as_ref().and(targets.next());
     let plant = load::plant(&args.plant)?;
     let cases = load::cases(&args.cases, &plant)?;
     let scheme = load::scheme(&args.scheme, &plant)?;
@@ -116,17 +136,15 @@ pub fn run(args: ReplayArgs) -> anyhow::Result<Outcome> {
             out.push_str(&format!("  {}: {}\n", f.criterion, f.message));
         }
     }
-    if let Some(path) = &args.csv {
-        write_atomic(path, csv_text(&plant, &run)?.as_bytes(), Overwrite::Allow)
-            .with_context(|| "writing the CSV")?;
-        out.push_str(&format!("Samples written to {}\n", path.display()));
+    if let Some(target) = &csv_target {
+        target.write(csv_text(&plant, &run)?.as_bytes())?;
+        out.push_str(&format!("Samples written to {}\n", target.path().display()));
     }
-    if let Some(path) = &args.plot {
+    if let Some(target) = &plot_target {
         let title = format!("{} at {} — {}", case.id, point.id, scheme.name);
         let plot = plot_for(&plant, &scheme, &run, title, case.duration_s);
-        write_atomic(path, svg::render(&plot).as_bytes(), Overwrite::Allow)
-            .with_context(|| "writing the plot")?;
-        out.push_str(&format!("Plot written to {}\n", path.display()));
+        target.write(svg::render(&plot).as_bytes())?;
+        out.push_str(&format!("Plot written to {}\n", target.path().display()));
     }
     out.push_str(&format!("{}\n", super::verify::CAUTION));
     super::write_stdout(&out)?;

@@ -9,7 +9,6 @@ use anyhow::{bail, Context};
 use nadir::model::{CaseSet, Plant, Scheme};
 use nadir::report::html::{self, CasePlot, InputFile, ReportInputs};
 use nadir::report::svg::FrequencyPlot;
-use nadir::report::write::write_atomic;
 use nadir::verify::audit::{self, AuditRules};
 use nadir::verify::matrix::{self, sim_config_for, VerifyConfig};
 use std::path::{Path, PathBuf};
@@ -30,13 +29,22 @@ pub struct ReportArgs {
     /// The HTML file to write.
     #[arg(short = 'o', long = "output", value_name = "FILE.html")]
     pub output: PathBuf,
-    /// Replace the output file if it exists.
+    /// Replace the output file if it exists (never one of the input files). A symbolic link at
+    /// the output is replaced as a link; the file it points to is not written.
     #[arg(long)]
     pub force: bool,
 }
 
 pub fn run(args: ReportArgs) -> anyhow::Result<Outcome> {
-    let overwrite = super::overwrite_policy(&args.output, args.force)?;
+    let target = super::check_outputs(
+        &[args.output.as_path()],
+        &[
+            ("plant", args.plant.as_path()),
+            ("cases", args.cases.as_path()),
+            ("scheme", args.scheme.as_path()),
+        ],
+        args.force,
+    )?;
     let (plant_text, plant_file) = read_input("plant", &args.plant)?;
     let plant = nadir::input::parse_plant(&plant_text, &args.plant.display().to_string())
         .map_err(nadir::Error::Input)
@@ -75,7 +83,7 @@ pub fn run(args: ReportArgs) -> anyhow::Result<Outcome> {
         generated_utc: &generated_utc,
         tool_version: env!("CARGO_PKG_VERSION"),
     });
-    write_atomic(&args.output, text.as_bytes(), overwrite).context("writing the report")?;
+    target[0].write(text.as_bytes())?;
 
     let failed = m.rows.iter().filter(|r| !r.pass).count();
     let mut out = format!(
@@ -104,7 +112,13 @@ fn read_input(role: &str, path: &Path) -> anyhow::Result<(String, InputFile)> {
             f.take(nadir::input::MAX_FILE_BYTES + 1)
                 .read_to_end(&mut bytes)
         })
-        .with_context(|| format!("reading {role} file {}", path.display()))?;
+        .map_err(|e| {
+            anyhow::anyhow!(
+                "reading {role} file {}: {}",
+                path.display(),
+                nadir::report::write::cause(&e)
+            )
+        })?;
     if bytes.len() as u64 > nadir::input::MAX_FILE_BYTES {
         bail!(
             "reading {role} file {}: more than the {} bytes an input file may have",

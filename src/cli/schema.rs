@@ -4,17 +4,20 @@
 //! Owns writing or printing the schemas; must not describe any field by hand.
 
 use super::Outcome;
-use anyhow::Context;
 use nadir::input::raw::{CasesFile, PlantFile, SchemeFile};
 use std::path::PathBuf;
 
 /// Write plant.schema.json, cases.schema.json and scheme.schema.json (JSON Schema 2020-12).
 #[derive(Debug, clap::Args)]
 pub struct SchemaArgs {
-    /// Directory to write the three files into; without it one JSON object is printed whose keys
-    /// are the three file names.
+    /// Folder to write the three files into (created if missing; existing files need --force);
+    /// without it one JSON object is printed whose keys are the three file names.
     #[arg(long, value_name = "DIR")]
     pub out: Option<PathBuf>,
+    /// Replace the schema files in DIR if they exist. A symbolic link there is replaced as a
+    /// link; the file it points to is not written.
+    #[arg(long)]
+    pub force: bool,
 }
 
 /// The schema files: name and schema.
@@ -30,13 +33,19 @@ pub fn run(args: SchemaArgs) -> anyhow::Result<Outcome> {
     let files = schemas();
     match args.out {
         Some(dir) => {
-            std::fs::create_dir_all(&dir)
-                .with_context(|| format!("creating directory {}", dir.display()))?;
-            for (name, schema) in files {
-                let path = dir.join(name);
-                let text = serde_json::to_string_pretty(&schema)?;
-                std::fs::write(&path, text + "\n")
-                    .with_context(|| format!("writing {}", path.display()))?;
+            std::fs::create_dir_all(&dir).map_err(|e| {
+                anyhow::anyhow!(
+                    "{}: cannot create the folder: {}",
+                    dir.display(),
+                    nadir::report::write::cause(&e)
+                )
+            })?;
+            let paths: Vec<PathBuf> = files.iter().map(|(name, _)| dir.join(name)).collect();
+            let outputs: Vec<&std::path::Path> = paths.iter().map(PathBuf::as_path).collect();
+            let targets = super::check_outputs(&outputs, &[], args.force)?;
+            for ((_, schema), target) in files.iter().zip(&targets) {
+                let text = serde_json::to_string_pretty(schema)? + "\n";
+                target.write(text.as_bytes())?;
             }
         }
         None => {

@@ -24,7 +24,8 @@ pub struct VerifyArgs {
     /// Output format.
     #[arg(long, value_enum, default_value_t = Format::Table)]
     pub format: Format,
-    /// Skip the margin searches (about fifteen extra runs per row).
+    /// Skip the margin searches (about fifteen extra runs per row); refused when the plant's
+    /// criteria require a margin.
     #[arg(long)]
     pub no_margins: bool,
 }
@@ -49,6 +50,7 @@ pub fn run(args: VerifyArgs) -> anyhow::Result<Outcome> {
     let plant = load::plant(&args.plant)?;
     let cases = load::cases(&args.cases, &plant)?;
     let scheme = load::scheme(&args.scheme, &plant)?;
+    refuse_skipped_margins(args.no_margins, &plant, &args.plant)?;
     let config = VerifyConfig {
         margins: !args.no_margins,
         ..VerifyConfig::default()
@@ -68,6 +70,38 @@ pub fn run(args: VerifyArgs) -> anyhow::Result<Outcome> {
     } else {
         Outcome::Fail
     })
+}
+
+/// `--no-margins` on a plant that requires margins would print a verdict that never judged them:
+/// refused (exit 2) with the requirement and the fix.
+pub fn refuse_skipped_margins(
+    no_margins: bool,
+    plant: &nadir::model::Plant,
+    path: &std::path::Path,
+) -> anyhow::Result<()> {
+    let c = &plant.criteria;
+    if !no_margins || !c.margins_required() {
+        return Ok(());
+    }
+    let mut wanted = Vec::new();
+    if c.required_disturbance_factor > 1.0 {
+        wanted.push(format!(
+            "disturbance_factor {}",
+            fmt(c.required_disturbance_factor, 2)
+        ));
+    }
+    if c.required_model_error_pct > 0.0 {
+        wanted.push(format!(
+            "model_error_pct {}",
+            fmt(c.required_model_error_pct, 0)
+        ));
+    }
+    anyhow::bail!(
+        "--no-margins: {} requires margins (criteria.required_margin: {}), so a run without the \
+margin searches could not judge every criterion; leave out --no-margins",
+        path.display(),
+        wanted.join(", ")
+    )
 }
 
 /// A progress bar on stderr, hidden when stderr is not a terminal.

@@ -461,9 +461,10 @@ pub struct RawCase {
     /// connected (default) or islanded.
     #[serde(default)]
     pub start: RawStart,
-    /// Operating points this case applies to (default: all).
+    /// Operating points this case applies to (default, when omitted: all; an empty list is an
+    /// error).
     #[serde(default)]
-    pub only_at: Vec<String>,
+    pub only_at: Option<Vec<String>>,
     /// Simulated time, s (default 30).
     #[serde(default)]
     pub duration_s: Option<f64>,

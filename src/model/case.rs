@@ -28,6 +28,31 @@ pub struct Case {
     pub utility_profile: Vec<(f64, f64)>,
 }
 
+impl Case {
+    /// When the disturbance starts and when its last part happens: see [`disturbance_span`].
+    pub fn disturbance_span(&self) -> (f64, f64) {
+        disturbance_span(&self.events, &self.utility_profile)
+    }
+}
+
+/// When a disturbance starts and when its last part happens: the first and last event, and for a
+/// utility frequency profile the moment it first leaves nominal (the profile counts as starting
+/// then and as having no later part). With neither, (0, 0). Settling is judged from the start,
+/// recovery from the last part.
+pub fn disturbance_span(events: &[CaseEvent], utility_profile: &[(f64, f64)]) -> (f64, f64) {
+    let profile_start = utility_profile
+        .windows(2)
+        .find(|w| w[1].1 != w[0].1)
+        .map(|w| w[0].0);
+    let first = events.iter().map(|e| e.at_s).reduce(f64::min);
+    let last = events.iter().map(|e| e.at_s).reduce(f64::max);
+    let start = match (first, profile_start) {
+        (Some(a), Some(b)) => a.min(b),
+        (a, b) => a.or(b).unwrap_or(0.0),
+    };
+    (start, last.unwrap_or(start).max(start))
+}
+
 /// Whether the plant is joined to the utility when the case starts.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Start {

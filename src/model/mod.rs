@@ -10,10 +10,10 @@ mod design;
 mod plant;
 mod scheme;
 
-pub use case::{Action, Case, CaseEvent, CaseSet, Start};
+pub use case::{disturbance_span, Action, Case, CaseEvent, CaseSet, Start};
 pub use design::DesignLimits;
 pub use plant::{
     Criteria, FrequencyTrip, Generator, Governor, Load, OffFrequencyLimit, OperatingPoint, Plant,
-    PrimeMover, Section, Tie, UndervoltageTrip, Utility,
+    PrimeMover, Section, Tie, UndervoltageTrip, Utility, MIN_JUDGED_S,
 };
 pub use scheme::{BreakerRef, Measurement, Scheme, Stage, StageTrigger};

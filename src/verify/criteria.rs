@@ -109,8 +109,18 @@ pub fn judge(seen: &Observed, c: &Criteria) -> Vec<Failure> {
             excess: f64::INFINITY,
         }),
     }
+    let from = seen.first_event_s + c.settle_within_s;
+    if seen.settle_range_hz.is_none() && seen.abnormal_end.is_none() {
+        // Input validation refuses such a case; a case built in code gets a failure, not a pass.
+        out.push(Failure {
+            criterion: "settle",
+            message: format!(
+                "the run ended before the settling band could be judged (from {from:.2} s)"
+            ),
+            excess: f64::INFINITY,
+        });
+    }
     if let Some((lo, hi)) = seen.settle_range_hz {
-        let from = seen.first_event_s + c.settle_within_s;
         if lo < c.settle_low_hz {
             out.push(Failure {
                 criterion: "settle",
@@ -204,6 +214,12 @@ mod tests {
         let mut seen = healthy();
         seen.settle_range_hz = Some((49.2, 49.9));
         assert_eq!(judge(&seen, &c)[0].criterion, "settle");
+        let mut seen = healthy();
+        seen.settle_range_hz = None;
+        assert_eq!(
+            judge(&seen, &c)[0].message,
+            "the run ended before the settling band could be judged (from 21.00 s)"
+        );
         let mut seen = healthy();
         seen.abnormal_end = Some("island 1 collapsed at 2.40 s".into());
         assert_eq!(judge(&seen, &c)[0].criterion, "run");

@@ -234,21 +234,10 @@ pub fn observe(run: &Run, case: &Case, criteria: &Criteria) -> Observed {
     }
 }
 
-/// When the disturbance starts and when its last part happens: the case's events, and for a
-/// utility frequency profile the moment it first leaves nominal.
+/// When the disturbance starts and when its last part happens (see
+/// [`crate::model::disturbance_span`]).
 pub fn disturbance_span(case: &Case) -> (f64, f64) {
-    let profile_start = case
-        .utility_profile
-        .windows(2)
-        .find(|w| w[1].1 != w[0].1)
-        .map(|w| w[0].0);
-    let first = case.events.first().map(|e| e.at_s);
-    let last = case.events.last().map(|e| e.at_s);
-    let start = match (first, profile_start) {
-        (Some(a), Some(b)) => a.min(b),
-        (a, b) => a.or(b).unwrap_or(0.0),
-    };
-    (start, last.unwrap_or(start).max(start))
+    case.disturbance_span()
 }
 
 fn stages_operated(run: &Run) -> Vec<String> {

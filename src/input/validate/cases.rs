@@ -33,6 +33,7 @@ pub fn cases(r: &mut Reader, map: &Mapping, plant: &Plant) -> Option<CaseSet> {
 }
 
 fn case(r: &mut Reader, p: &FieldPath, c: &RawCase, plant: &Plant) -> Case {
+    let said = r.diagnostics.len() + r.suppressed;
     let PlantIds {
         sections,
         generators: gens,
@@ -45,7 +46,8 @@ fn case(r: &mut Reader, p: &FieldPath, c: &RawCase, plant: &Plant) -> Case {
         RawStart::Islanded => Start::Islanded,
     };
     let mut applies_to: Vec<usize> = Vec::new();
-    for (k, id) in c.only_at.iter().enumerate() {
+    let only_at = c.only_at.as_deref().unwrap_or_default();
+    for (k, id) in only_at.iter().enumerate() {
         match plant.operating_point_index(id) {
             Some(i) => {
                 if !applies_to.contains(&i) {
@@ -55,8 +57,20 @@ fn case(r: &mut Reader, p: &FieldPath, c: &RawCase, plant: &Plant) -> Case {
             None => unknown_id(r, &p.key("only_at").index(k), "operating point", id, &ops),
         }
     }
-    if c.only_at.is_empty() {
-        applies_to = (0..plant.operating_points.len()).collect();
+    match &c.only_at {
+        None => applies_to = (0..plant.operating_points.len()).collect(),
+        Some(list) if list.is_empty() => r.error(
+            &p.key("only_at"),
+            format!(
+                "case `{}` lists no operating point in only_at, so it would run nowhere",
+                c.id
+            ),
+            format!(
+                "name the points it applies to, e.g. `only_at: [{}]`, or remove only_at to run it at every point",
+                ops.first().copied().unwrap_or("normal")
+            ),
+        ),
+        Some(_) => {}
     }
     let duration_s = c.duration_s.unwrap_or(d::CASE_DURATION_S);
     let mut duration_ok = c.duration_s.is_none()
@@ -282,6 +296,19 @@ fn case(r: &mut Reader, p: &FieldPath, c: &RawCase, plant: &Plant) -> Case {
         utility_profile.push((pt.at_s, pt.hz));
     }
 
+    // Judged only on a case that is otherwise sound, so one mistake gives one message.
+    if duration_ok && r.diagnostics.len() + r.suppressed == said {
+        judgeable(
+            r,
+            p,
+            c,
+            &events,
+            &utility_profile,
+            duration_s,
+            &plant.criteria,
+        );
+    }
+
     if start == Start::Islanded {
         for &k in &applies_to {
             for island in &topology::islands(plant, &BreakerState::initial(plant, k, false)) {
@@ -311,6 +338,73 @@ fn case(r: &mut Reader, p: &FieldPath, c: &RawCase, plant: &Plant) -> Case {
         events,
         utility_profile,
     }
+}
+
+/// A criterion that the run cannot judge is an input error, not a pass on the last sample: the
+/// settling band must be watched for at least [`MIN_JUDGED_S`] before the run ends, and so must
+/// the recovery level after its deadline.
+fn judgeable(
+    r: &mut Reader,
+    p: &FieldPath,
+    c: &RawCase,
+    events: &[CaseEvent],
+    profile: &[(f64, f64)],
+    duration_s: f64,
+    criteria: &Criteria,
+) {
+    let (first, last) = disturbance_span(events, profile);
+    let settle_from = first + criteria.settle_within_s;
+    let deadline = last + criteria.recover_within_s;
+    let needed = (settle_from.max(deadline) + MIN_JUDGED_S).ceil();
+    if needed <= duration_s + 1e-9 {
+        return;
+    }
+    let path = if c.duration_s.is_some() {
+        p.key("duration_s")
+    } else {
+        p.key("id")
+    };
+    let duration = if c.duration_s.is_some() {
+        format!("duration_s of {} s", num_text(duration_s))
+    } else {
+        format!("default duration_s of {} s", num_text(duration_s))
+    };
+    let mut why = Vec::new();
+    if settle_from + MIN_JUDGED_S > duration_s + 1e-9 {
+        why.push(format!(
+            "the settling band is judged from {} s ({} s after the disturbance starts at {} s, criteria.settle.within_s)",
+            num_text(settle_from),
+            num_text(criteria.settle_within_s),
+            num_text(first)
+        ));
+    }
+    if deadline + MIN_JUDGED_S > duration_s + 1e-9 {
+        why.push(format!(
+            "the recovery deadline is {} s ({} s after the last event at {} s, criteria.recover.within_s)",
+            num_text(deadline),
+            num_text(criteria.recover_within_s),
+            num_text(last)
+        ));
+    }
+    r.error(
+        &path,
+        format!(
+            "case `{}` cannot be judged within its {duration}: {}, and a criterion needs at least {} s of the run after that",
+            c.id,
+            why.join(" and "),
+            num_text(MIN_JUDGED_S)
+        ),
+        format!(
+            "write `duration_s: {}` (or more) in the case, or shorten the criterion in the plant file",
+            num_text(needed)
+        ),
+    );
+}
+
+/// A number as the user would write it: no trailing zeros.
+fn num_text(v: f64) -> String {
+    let s = format!("{v:.3}");
+    s.trim_end_matches('0').trim_end_matches('.').to_string()
 }
 
 /// The items of a list inside a case, or none when there are more than `limit` allows (reported
