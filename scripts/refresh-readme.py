@@ -12,7 +12,7 @@ P, C, S = "examples/biorefinery/plant.yaml", "examples/biorefinery/cases.yaml", 
 BLOCKS = {
     "### `nadir verify": [N, "verify", P, S, "--cases", C],
     "### `nadir replay": [N, "replay", P, S, "--cases", C, "--case", "utility-loss-then-engine-trip",
-                          "--at", "full-rate", "--plot", "docs/demo-utility-loss-then-engine-trip.svg"],
+                          "--at", "full-rate", "--plot", "docs/demo-utility-loss-then-engine-trip.svg", "--force"],
     "### `nadir audit": [N, "audit", P, S],
     "### `nadir compare": [N, "compare", P, S, "schemes/biorefinery-proposed.yaml", "--cases", C],
 }
