@@ -67,7 +67,8 @@ fn full_block_on_the_demo_plant_resolves_breakers_and_weights() {
            \x20 breaker_s: 0.06\n\
            \x20 armed_by: [utility, bus-tie, bge-1]\n\
            \x20 rocof_supervision_hz_per_s: 1.0\n\
-           \x20 rank_weights: { 10: 25.0, 1: 1.5, 2: 2.0 }\n";
+           \x20 rank_weights: { 10: 25.0, 1: 1.5, 2: 2.0 }\n\
+           \x20 backstop: false\n";
     let plant = parse(&text);
     let tie = plant.ties.iter().position(|t| t.id == "bus-tie").unwrap();
     let engine = plant.generator_index("bge-1").unwrap();
