@@ -80,7 +80,8 @@ fn demo_proposal_verifies_audits_clean_beats_the_baseline_and_is_thread_count_in
     }
 }
 
-/// A table that already holds every case is kept as it is.
+/// A table that already holds every case is kept as it is, under its own name; beside it, what
+/// a fresh design would cost (the comparison the command line prints).
 #[test]
 fn an_existing_table_that_holds_is_kept_unchanged() {
     let (plant, cases) = demo();
@@ -90,6 +91,14 @@ fn an_existing_table_that_holds_is_kept_unchanged() {
     assert_eq!(p.from, Some(FromOutcome::Unchanged));
     assert_eq!(p.source, Source::Existing);
     assert_eq!(p.scheme.stages, existing.stages);
+    assert_eq!(p.scheme.name, existing.name);
+    let fresh = p.fresh.as_ref().expect("a fresh design to compare with");
+    assert!(
+        fresh.objective < p.objective,
+        "on the demo a fresh design is cheaper than the first table: {} against {}",
+        fresh.objective,
+        p.objective
+    );
 }
 
 /// A new never-shed process line raises the import: the existing settings are kept and only a

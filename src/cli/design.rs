@@ -33,6 +33,10 @@ pub struct DesignArgs {
     /// the output is replaced as a link; the file it points to is not written.
     #[arg(long)]
     pub force: bool,
+    /// Name of the written table (default: the `--from` table's name, else "proposed by nadir
+    /// design").
+    #[arg(long, value_name = "NAME")]
+    pub name: Option<String>,
 }
 
 pub fn run(args: DesignArgs) -> anyhow::Result<Outcome> {
@@ -55,7 +59,7 @@ pub fn run(args: DesignArgs) -> anyhow::Result<Outcome> {
     let progress = |what: &str| spinner.set_message(what.to_string());
     let result = design::design(&plant, &cases, existing.as_ref(), &progress);
     spinner.finish_and_clear();
-    let proposal = match result {
+    let mut proposal = match result {
         Ok(p) => p,
         Err(DesignError::Unholdable(list)) => {
             let mut text = String::from("No shedding table can hold every case:\n");
@@ -82,6 +86,9 @@ Nothing was written.\n",
         }
     };
 
+    if let Some(name) = &args.name {
+        proposal.scheme.name = name.clone();
+    }
     let yaml = scheme_text(&plant, &proposal, &args);
     target[0].write(yaml.as_bytes())?;
 
@@ -216,9 +223,35 @@ fn stage_table(plant: &nadir::model::Plant, p: &Proposal) -> String {
         _ => String::new(),
     };
     format!(
-        "Proposed table, {source}:\n{}\n{backstop}",
-        finish(b, 2..4 + 1 + plant.operating_points.len())
+        "Proposed table, {source}:\n{}\n{backstop}{}",
+        finish(b, 2..4 + 1 + plant.operating_points.len()),
+        headroom_lines(p)
     )
+}
+
+/// Per operating point, the sheddable load in the table against the most any studied case sheds:
+/// roughly how much larger a disturbance the table can meet before it runs out of load to shed.
+fn headroom_lines(p: &Proposal) -> String {
+    let mut out = String::from(
+        "Room to shed (the load in the table's stages against the most a studied case sheds at the point):\n",
+    );
+    for h in &p.headroom {
+        let line = match h.worst_shed_mw {
+            None => format!("no studied case applies; {:.2} MW sheddable", h.sheddable_mw),
+            Some(w) if w > 1e-6 => format!(
+                "{:.2} MW sheddable, {:.2} MW shed at most: {:.1}× the worst studied shed before the table runs out of load",
+                h.sheddable_mw,
+                w,
+                h.sheddable_mw / w
+            ),
+            Some(_) => format!(
+                "{:.2} MW sheddable; no studied case sheds here",
+                h.sheddable_mw
+            ),
+        };
+        out.push_str(&format!("  {}: {line}\n", h.operating_point));
+    }
+    out
 }
 
 /// A stage's loads with their ranks; a long list as its first and last load and a count, so
@@ -316,6 +349,51 @@ fn from_summary(
     if outcome != FromOutcome::Unchanged {
         out.push_str(&super::compare::settings_table(&changes));
     }
+    out.push_str(&cost_of_keeping(p));
     out.push('\n');
     out
+}
+
+/// What keeping the existing settings costs against a fresh design and the plain baseline, and
+/// which is cheaper by how much (objective: Σ case weight × rank weight × MW shed).
+fn cost_of_keeping(p: &Proposal) -> String {
+    let kept = p.objective;
+    let against = |what: &str, other: f64| {
+        let diff = kept - other;
+        if diff.abs() <= 1e-6 * kept.abs().max(other.abs()).max(1.0) {
+            format!("Keeping the existing settings costs the same as {what} ({kept:.2}).\n")
+        } else if diff > 0.0 {
+            format!(
+                "{} is cheaper: objective {other:.2} against {kept:.2} for keeping the existing settings ({:.2} less; keeping costs {:.1} % more).\n",
+                capitalise(what),
+                diff,
+                100.0 * diff / other.max(1e-9)
+            )
+        } else {
+            format!(
+                "Keeping the existing settings is cheaper than {what}: objective {kept:.2} against {other:.2} ({:.2} less, {:.1} %).\n",
+                -diff,
+                100.0 * -diff / other.max(1e-9)
+            )
+        }
+    };
+    let mut out = String::new();
+    if let Some(f) = &p.fresh {
+        out.push_str(&against("a fresh design", f.objective));
+        if f.objective < kept - 1e-9 {
+            out.push_str("Run `nadir design` without --from for the fresh design.\n");
+        }
+    }
+    if let Some(b) = &p.baseline {
+        out.push_str(&against("the plain baseline", b.objective));
+    }
+    out
+}
+
+fn capitalise(s: &str) -> String {
+    let mut c = s.chars();
+    match c.next() {
+        Some(f) => f.to_uppercase().collect::<String>() + c.as_str(),
+        None => String::new(),
+    }
 }

@@ -45,10 +45,14 @@ pub struct Proposal {
     /// Objective: MW at nominal frequency, weighted by rank and case weight, over all rows.
     pub objective: f64,
     pub rows: Vec<RowShed>,
+    /// Per operating point, the sheddable load against the worst studied shed.
+    pub headroom: Vec<Headroom>,
     /// The plain table's objective and total shed, when one holds every row.
     pub baseline: Option<BaselineSummary>,
     /// How the proposal relates to the `--from` table.
     pub from: Option<FromOutcome>,
+    /// With `--from` when the existing settings were kept: what a fresh design would cost.
+    pub fresh: Option<BaselineSummary>,
     /// Where the proposal came from.
     pub source: Source,
     /// What became of the loads no studied case needs.
@@ -57,6 +61,17 @@ pub struct Proposal {
     pub unassigned: Vec<String>,
     pub layouts_sized: usize,
     pub replays: usize,
+}
+
+/// Per operating point: how much sheddable load the table holds against the most any studied
+/// case sheds there — how much larger a disturbance it can meet before it runs out of load.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Headroom {
+    pub operating_point: String,
+    /// The loads of the table's stages switched on at this point, MW at nominal frequency.
+    pub sheddable_mw: f64,
+    /// The most any studied case sheds at this point (`None`: no case applies there).
+    pub worst_shed_mw: Option<f64>,
 }
 
 /// One matrix row: what the proposal sheds, the lower bound, and what the baseline sheds.
@@ -125,7 +140,9 @@ pub fn design(
 ) -> Result<Proposal, DesignError> {
     let sim = design_sim_config(plant);
     let measurement = from.map(|s| s.measurement).unwrap_or_default();
-    let ctx = Context::new(plant, cases, sim, measurement, "proposed by nadir design");
+    // A table designed from an existing one keeps its name.
+    let name = from.map_or("proposed by nadir design", |s| s.name.as_str());
+    let ctx = Context::new(plant, cases, sim, measurement, name);
 
     progress("lower bounds");
     let bounds = bounds(&ctx)?;
@@ -156,7 +173,6 @@ pub fn design(
     let mut replays = baseline.as_ref().map_or(0, |b| b.runs);
     // The baseline gets the same backstop, so that the two are compared like for like.
     let baseline_backstop = baseline.as_mut().map(|b| backstop::add(&ctx, b));
-    let mut layouts_sized = 0;
 
     let mut chosen: Option<(Sized, Source)> = None;
     let mut from_outcome = None;
@@ -170,15 +186,30 @@ pub fn design(
         }
     }
     let mut backstop = Backstop::NotNeeded;
-    if chosen.is_none() {
+    // With `--from`, a fresh design too, so that the cost of keeping the settings is known.
+    let mut fresh: Option<Sized> = None;
+    let layouts_sized;
+    {
+        progress(if chosen.is_some() {
+            "fresh design, for comparison"
+        } else {
+            "settings search"
+        });
         let (best, sized, n) = search(&ctx, progress);
         layouts_sized = sized;
         replays += n;
-        chosen = best.map(|mut b| {
+        let mut fresh_backstop = Backstop::NotNeeded;
+        let found = best.map(|mut b| {
             drop_idle_last_stages(&ctx, &mut b);
-            backstop = backstop::add(&ctx, &mut b);
-            (b, Source::Search)
+            fresh_backstop = backstop::add(&ctx, &mut b);
+            b
         });
+        if chosen.is_none() {
+            chosen = found.map(|b| (b, Source::Search));
+            backstop = fresh_backstop;
+        } else {
+            fresh = found;
+        }
     }
     if let Some(b) = &baseline {
         let better = match &chosen {
@@ -193,7 +224,7 @@ pub fn design(
     let Some((best, source)) = chosen else {
         return Err(DesignError::NoLayout(why_no_layout(&ctx)));
     };
-    Ok(finish(
+    let mut proposal = finish(
         &ctx,
         &bounds,
         best,
@@ -203,7 +234,13 @@ pub fn design(
         backstop,
         layouts_sized,
         replays,
-    ))
+    );
+    proposal.fresh = fresh.map(|f| BaselineSummary {
+        objective: f.objective,
+        stages: f.layout.stages.len(),
+        scheme: ctx.scheme(&f.layout, &f.assignment),
+    });
+    Ok(proposal)
 }
 
 /// The proposal of a finished table.
@@ -243,7 +280,34 @@ fn finish(
         .filter(|(_, a)| a.is_none())
         .map(|(&(i, _), _)| plant.loads[i].id.clone())
         .collect();
+    let headroom = plant
+        .operating_points
+        .iter()
+        .enumerate()
+        .map(|(op, point)| {
+            let sheddable: f64 = ctx
+                .loads
+                .iter()
+                .zip(&best.assignment)
+                .filter(|(_, a)| a.is_some())
+                .map(|(&(i, _), _)| ctx.mw[op][i])
+                .sum();
+            let worst = ctx
+                .rows
+                .iter()
+                .zip(&best.evals)
+                .filter(|((_, o), _)| *o == op)
+                .map(|(_, e)| shed_mw(ctx, op, &e.shed_loads))
+                .fold(None, |m: Option<f64>, v| Some(m.map_or(v, |m| m.max(v))));
+            Headroom {
+                operating_point: point.id.clone(),
+                sheddable_mw: sheddable,
+                worst_shed_mw: worst,
+            }
+        })
+        .collect();
     Proposal {
+        headroom,
         scheme,
         objective: best.objective,
         rows,
@@ -253,6 +317,7 @@ fn finish(
             scheme: ctx.scheme(&b.layout, &b.assignment),
         }),
         from,
+        fresh: None,
         source,
         backstop,
         unassigned,
