@@ -1172,7 +1172,7 @@ fn cases_type_errors_in_three_cases() {
 fn plant_with_loads(n: usize) -> String {
     let mut t = String::from(
         "plant: { name: generated, nominal_hz: 50 }\n\
-         generators:\n  - { id: g, section: main, rating_mva: 9000, inertia_s: 3, output_mw: 1, \
+         generators:\n  - { id: g, section: main, rating_mva: 9000, inertia_s: 3, output_mw: 0.8, \
          governor: { model: steam, droop_pct: 5 } }\nloads:\n",
     );
     for i in 0..n {

@@ -29,6 +29,10 @@ use clap::{Parser, Subcommand};
 pub struct Cli {
     #[command(subcommand)]
     pub command: Command,
+    /// Refuse to run (exit code 2) while an input file has a plausibility warning that it does
+    /// not acknowledge with a `# nadir-ok: CODE` comment; for automated checks.
+    #[arg(long, global = true)]
+    pub deny_warnings: bool,
 }
 
 /// The verbs.
@@ -66,6 +70,7 @@ pub enum Outcome {
 
 /// Runs the chosen verb.
 pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
+    load::set_deny_warnings(cli.deny_warnings);
     match cli.command {
         Command::Check(args) => check::run(args),
         Command::Schema(args) => schema::run(args),

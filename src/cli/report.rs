@@ -46,18 +46,25 @@ pub fn run(args: ReportArgs) -> anyhow::Result<Outcome> {
         args.force,
     )?;
     let (plant_text, plant_file) = read_input("plant", &args.plant)?;
-    let plant = nadir::input::parse_plant(&plant_text, &args.plant.display().to_string())
+    let plant = nadir::input::parse_plant_warned(&plant_text, &args.plant.display().to_string())
         .map_err(nadir::Error::Input)
         .with_context(|| format!("reading plant file {}", args.plant.display()))?;
+    super::load::show(&plant.warnings)?;
+    let plant = plant.value;
     let (cases_text, cases_file) = read_input("cases", &args.cases)?;
-    let cases = nadir::input::parse_cases(&cases_text, &args.cases.display().to_string(), &plant)
-        .map_err(nadir::Error::Input)
-        .with_context(|| format!("reading cases file {}", args.cases.display()))?;
+    let cases =
+        nadir::input::parse_cases_warned(&cases_text, &args.cases.display().to_string(), &plant)
+            .map_err(nadir::Error::Input)
+            .with_context(|| format!("reading cases file {}", args.cases.display()))?;
+    super::load::show(&cases.warnings)?;
+    let cases = cases.value;
     let (scheme_text, scheme_file) = read_input("scheme", &args.scheme)?;
     let scheme =
-        nadir::input::parse_scheme(&scheme_text, &args.scheme.display().to_string(), &plant)
+        nadir::input::parse_scheme_warned(&scheme_text, &args.scheme.display().to_string(), &plant)
             .map_err(nadir::Error::Input)
             .with_context(|| format!("reading scheme file {}", args.scheme.display()))?;
+    super::load::show(&scheme.warnings)?;
+    let scheme = scheme.value;
 
     let screening = nadir::screening::screen(&plant, Some(&cases), Some(&scheme));
     let rules = AuditRules::defaults(plant.nominal_hz);
@@ -82,6 +89,7 @@ pub fn run(args: ReportArgs) -> anyhow::Result<Outcome> {
         files: &files,
         generated_utc: &generated_utc,
         tool_version: env!("CARGO_PKG_VERSION"),
+        warnings: &super::load::warnings_seen(),
     });
     target[0].write(text.as_bytes())?;
 
@@ -93,6 +101,10 @@ pub fn run(args: ReportArgs) -> anyhow::Result<Outcome> {
         m.rows.len() - failed,
         audit.violations.len()
     );
+    if let Some(caveat) = super::load::verdict_caveat() {
+        out.push_str(&caveat);
+        out.push('\n');
+    }
     out.push_str(super::verify::CAUTION);
     out.push('\n');
     super::write_stdout(&out)?;

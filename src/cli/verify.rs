@@ -60,7 +60,14 @@ pub fn run(args: VerifyArgs) -> anyhow::Result<Outcome> {
     let m = matrix::verify(&plant, &cases, &scheme, &config, &|| bar.inc(1));
     bar.finish_and_clear();
     let text = match args.format {
-        Format::Table => render_table(&m, &plant.name, &scheme.name),
+        Format::Table => {
+            let mut t = render_table(&m, &plant.name, &scheme.name);
+            if let Some(caveat) = load::verdict_caveat() {
+                t.push_str(&caveat);
+                t.push('\n');
+            }
+            t
+        }
         Format::Json => serde_json::to_string_pretty(&m)? + "\n",
         Format::Csv => render_csv(&m)?,
     };

@@ -10,6 +10,7 @@ mod locate;
 pub mod raw;
 mod read;
 mod validate;
+pub mod warn;
 mod write_scheme;
 
 use crate::error::Error;
@@ -19,7 +20,15 @@ use read::Reader;
 use std::fmt;
 use std::io::Read;
 use std::path::Path;
+pub use warn::{Code, Warning};
 pub use write_scheme::scheme_yaml;
+
+/// A validated file with its plausibility warnings and notes (acknowledged ones included, marked).
+#[derive(Debug, Clone)]
+pub struct Loaded<T> {
+    pub value: T,
+    pub warnings: Vec<Warning>,
+}
 
 /// Largest input file read by default, in bytes (4 MiB); see [`limits::FILE_BYTES`].
 pub const MAX_FILE_BYTES: u64 = limits::FILE_BYTES.default;
@@ -43,9 +52,23 @@ pub fn parse_scheme(text: &str, file: &str, plant: &Plant) -> Result<Scheme, Vec
 
 /// [`parse_plant`] under the given limits instead of the environment's.
 pub fn parse_plant_with(text: &str, file: &str, limits: &Limits) -> Result<Plant, Vec<Diagnostic>> {
+    plant_warned(text, file, limits).map(|l| l.value)
+}
+
+/// [`parse_plant`] with the file's plausibility warnings and notes.
+pub fn parse_plant_warned(text: &str, file: &str) -> Result<Loaded<Plant>, Vec<Diagnostic>> {
+    plant_warned(text, file, &env_limits(file)?)
+}
+
+fn plant_warned(text: &str, file: &str, limits: &Limits) -> Result<Loaded<Plant>, Vec<Diagnostic>> {
     let (mut r, map) = Reader::open(text, file, limits)?;
-    match validate::plant(&mut r, &map) {
-        Some(p) if r.diagnostics.is_empty() => Ok(p),
+    let plant = validate::plant(&mut r, &map);
+    r.check_acknowledgements();
+    match plant {
+        Some(value) if r.diagnostics.is_empty() => Ok(Loaded {
+            value,
+            warnings: std::mem::take(&mut r.warnings),
+        }),
         _ => Err(nonempty(r, file)),
     }
 }
@@ -57,9 +80,32 @@ pub fn parse_cases_with(
     plant: &Plant,
     limits: &Limits,
 ) -> Result<CaseSet, Vec<Diagnostic>> {
+    cases_warned(text, file, plant, limits).map(|l| l.value)
+}
+
+/// [`parse_cases`] with the file's plausibility warnings and notes.
+pub fn parse_cases_warned(
+    text: &str,
+    file: &str,
+    plant: &Plant,
+) -> Result<Loaded<CaseSet>, Vec<Diagnostic>> {
+    cases_warned(text, file, plant, &env_limits(file)?)
+}
+
+fn cases_warned(
+    text: &str,
+    file: &str,
+    plant: &Plant,
+    limits: &Limits,
+) -> Result<Loaded<CaseSet>, Vec<Diagnostic>> {
     let (mut r, map) = Reader::open(text, file, limits)?;
-    match validate::cases(&mut r, &map, plant) {
-        Some(c) if r.diagnostics.is_empty() => Ok(c),
+    let cases = validate::cases(&mut r, &map, plant);
+    r.check_acknowledgements();
+    match cases {
+        Some(value) if r.diagnostics.is_empty() => Ok(Loaded {
+            value,
+            warnings: std::mem::take(&mut r.warnings),
+        }),
         _ => Err(nonempty(r, file)),
     }
 }
@@ -71,33 +117,71 @@ pub fn parse_scheme_with(
     plant: &Plant,
     limits: &Limits,
 ) -> Result<Scheme, Vec<Diagnostic>> {
+    scheme_warned(text, file, plant, limits).map(|l| l.value)
+}
+
+/// [`parse_scheme`] with the file's plausibility warnings and notes.
+pub fn parse_scheme_warned(
+    text: &str,
+    file: &str,
+    plant: &Plant,
+) -> Result<Loaded<Scheme>, Vec<Diagnostic>> {
+    scheme_warned(text, file, plant, &env_limits(file)?)
+}
+
+fn scheme_warned(
+    text: &str,
+    file: &str,
+    plant: &Plant,
+    limits: &Limits,
+) -> Result<Loaded<Scheme>, Vec<Diagnostic>> {
     let (mut r, map) = Reader::open(text, file, limits)?;
     let stem = Path::new(file)
         .file_stem()
         .and_then(|s| s.to_str())
         .unwrap_or(file);
-    match validate::scheme(&mut r, &map, plant, stem) {
-        Some(s) if r.diagnostics.is_empty() => Ok(s),
+    let scheme = validate::scheme(&mut r, &map, plant, stem);
+    r.check_acknowledgements();
+    match scheme {
+        Some(value) if r.diagnostics.is_empty() => Ok(Loaded {
+            value,
+            warnings: std::mem::take(&mut r.warnings),
+        }),
         _ => Err(nonempty(r, file)),
     }
 }
 
 /// Reads and validates a plant file.
 pub fn load_plant(path: &Path) -> Result<Plant, Error> {
+    load_plant_warned(path).map(|l| l.value)
+}
+
+/// [`load_plant`] with the file's plausibility warnings and notes.
+pub fn load_plant_warned(path: &Path) -> Result<Loaded<Plant>, Error> {
     let (text, file) = read_capped(path)?;
-    parse_plant(&text, &file).map_err(Error::Input)
+    parse_plant_warned(&text, &file).map_err(Error::Input)
 }
 
 /// Reads and validates a cases file against its plant.
 pub fn load_cases(path: &Path, plant: &Plant) -> Result<CaseSet, Error> {
+    load_cases_warned(path, plant).map(|l| l.value)
+}
+
+/// [`load_cases`] with the file's plausibility warnings and notes.
+pub fn load_cases_warned(path: &Path, plant: &Plant) -> Result<Loaded<CaseSet>, Error> {
     let (text, file) = read_capped(path)?;
-    parse_cases(&text, &file, plant).map_err(Error::Input)
+    parse_cases_warned(&text, &file, plant).map_err(Error::Input)
 }
 
 /// Reads and validates a scheme file against its plant.
 pub fn load_scheme(path: &Path, plant: &Plant) -> Result<Scheme, Error> {
+    load_scheme_warned(path, plant).map(|l| l.value)
+}
+
+/// [`load_scheme`] with the file's plausibility warnings and notes.
+pub fn load_scheme_warned(path: &Path, plant: &Plant) -> Result<Loaded<Scheme>, Error> {
     let (text, file) = read_capped(path)?;
-    parse_scheme(&text, &file, plant).map_err(Error::Input)
+    parse_scheme_warned(&text, &file, plant).map_err(Error::Input)
 }
 
 /// The environment's limits; a malformed `NADIR_MAX_*` variable is a diagnostic of the file being

@@ -72,11 +72,60 @@ pub struct RawUtility {
     pub breaker: Option<String>,
     /// Section the utility feeds.
     pub section: String,
-    /// Import from the grid in MW (negative: export). Operating points may override it.
-    pub import_mw: f64,
+    /// Import from the grid in MW (negative: export), or `balance` for whatever balances each
+    /// operating point (load − generation of the utility's island). Operating points may override it.
+    pub import_mw: RawImport,
     /// Interface protection that opens the utility breaker.
     #[serde(default)]
     pub interface_trips: Vec<RawFrequencyTrip>,
+}
+
+/// An import in MW, or the word `balance`: the import is whatever balances the operating point.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum RawImport {
+    Mw(f64),
+    Balance,
+}
+
+impl<'de> Deserialize<'de> for RawImport {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        struct Visit;
+        impl serde::de::Visitor<'_> for Visit {
+            type Value = RawImport;
+            fn expecting(&self, f: &mut std::fmt::Formatter) -> std::fmt::Result {
+                f.write_str("a number of MW or `balance`")
+            }
+            fn visit_f64<E: serde::de::Error>(self, v: f64) -> Result<RawImport, E> {
+                Ok(RawImport::Mw(v))
+            }
+            fn visit_i64<E: serde::de::Error>(self, v: i64) -> Result<RawImport, E> {
+                Ok(RawImport::Mw(v as f64))
+            }
+            fn visit_u64<E: serde::de::Error>(self, v: u64) -> Result<RawImport, E> {
+                Ok(RawImport::Mw(v as f64))
+            }
+            fn visit_str<E: serde::de::Error>(self, v: &str) -> Result<RawImport, E> {
+                if v == "balance" {
+                    Ok(RawImport::Balance)
+                } else {
+                    Err(E::invalid_value(serde::de::Unexpected::Str(v), &self))
+                }
+            }
+        }
+        d.deserialize_any(Visit)
+    }
+}
+
+impl JsonSchema for RawImport {
+    fn schema_name() -> std::borrow::Cow<'static, str> {
+        "Import".into()
+    }
+    fn json_schema(_: &mut schemars::SchemaGenerator) -> schemars::Schema {
+        schemars::json_schema!({
+            "description": "MW (negative: export), or `balance` for the import that balances the operating point",
+            "anyOf": [{ "type": "number" }, { "const": "balance" }]
+        })
+    }
 }
 
 /// A frequency protection element: exactly one of `below_hz`, `above_hz`, `rocof_hz_per_s`, plus `after_s`.
@@ -266,9 +315,10 @@ pub struct RawOperatingPoint {
     /// Generators not running in this mode.
     #[serde(default)]
     pub offline: Vec<String>,
-    /// Import from the utility in this mode, MW (default: the utility's import_mw).
+    /// Import from the utility in this mode, MW, or `balance` for load − generation of the
+    /// utility's island (default: the utility's import_mw).
     #[serde(default)]
-    pub import_mw: Option<f64>,
+    pub import_mw: Option<RawImport>,
     /// Ties open in this mode (in addition to normally open ones).
     #[serde(default)]
     pub ties_open: Vec<String>,

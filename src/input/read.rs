@@ -6,6 +6,7 @@
 
 use super::limits::{self, Limit, Limits};
 use super::locate::{FieldPath, Locator, Seg};
+use super::warn::{code_names, Acknowledgements, Code, UnknownCode, Warning};
 use super::Diagnostic;
 use serde::de::DeserializeOwned;
 use serde_yaml::{Mapping, Value};
@@ -29,6 +30,10 @@ pub struct Reader {
     /// A list was refused for its length; its items were not read, so the validators stop
     /// before cross-checks that would report every reference to them as unknown.
     pub over_limit: bool,
+    /// Plausibility warnings and notes, acknowledged ones included (marked).
+    pub warnings: Vec<Warning>,
+    acks: Acknowledgements,
+    unknown_acks: Vec<UnknownCode>,
 }
 
 /// Whether a diagnostic points at a key (unknown or misplaced field) or at a value.
@@ -80,6 +85,7 @@ impl Reader {
                 }]);
             }
         };
+        let (acks, unknown_acks) = Acknowledgements::scan(text);
         let reader = Reader {
             file: file.to_string(),
             locator: Locator::new(text),
@@ -87,6 +93,9 @@ impl Reader {
             diagnostics: Vec::new(),
             suppressed: 0,
             over_limit: false,
+            warnings: Vec::new(),
+            acks,
+            unknown_acks,
         };
         match value {
             Value::Mapping(m) => Ok((reader, m)),
@@ -151,6 +160,66 @@ impl Reader {
         }
         let d = self.make(path, At::Key, message, help.into());
         self.diagnostics.push(d);
+    }
+
+    /// Records a plausibility warning (or, for [`Code::Computed`], a note) on the value at `path`;
+    /// a `nadir-ok` comment on its line marks it acknowledged.
+    pub fn warn(
+        &mut self,
+        path: &FieldPath,
+        code: Code,
+        value: String,
+        message: String,
+        help: String,
+    ) {
+        if self.warnings.len() >= limits::MAX_DIAGNOSTICS {
+            return;
+        }
+        let place = self.locator.value(path);
+        let acknowledged = match (place, code.is_note()) {
+            (Some((line, _)), false) => self.acks.find(code, line),
+            _ => None,
+        };
+        self.warnings.push(Warning {
+            file: self.file.clone(),
+            line: place.map(|p| p.0),
+            column: place.map(|p| p.1),
+            path: path.to_string(),
+            code,
+            value,
+            message,
+            help,
+            acknowledged,
+        });
+    }
+
+    /// Errors for `nadir-ok` comments that name no warning code, once validation is done (so that
+    /// a mistyped acknowledgement never hides the file's other messages).
+    pub fn check_acknowledgements(&mut self) {
+        for u in std::mem::take(&mut self.unknown_acks) {
+            if self.full() {
+                self.suppressed += 1;
+                continue;
+            }
+            let known = code_names();
+            let near = super::validate::near_matches(&u.name, known.iter().copied());
+            self.diagnostics.push(Diagnostic {
+                file: self.file.clone(),
+                line: Some(u.line),
+                column: Some(u.column),
+                path: String::new(),
+                message: format!(
+                    "`{}` in a `nadir-ok` comment is not a warning code; known codes: {}",
+                    u.name,
+                    quoted_list(&known)
+                ),
+                help: Some(match near.first() {
+                    Some(m) => format!("did you mean `{m}`?"),
+                    None => "name the code shown in the warning, e.g. `# nadir-ok: low-droop`"
+                        .to_string(),
+                }),
+            });
+        }
     }
 
     /// The 1-based line where `path` is written, for messages that name a first place.

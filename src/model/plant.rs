@@ -41,7 +41,8 @@ pub struct Utility {
     /// The breaker's id as cases and event-armed stages name it (default `utility`).
     pub breaker_id: String,
     pub section: usize,
-    /// Positive: the plant imports. The operating point may override it.
+    /// As written (positive: the plant imports; 0 when written as `balance`). Use each operating
+    /// point's `import_mw`, which is the figure that balances that point.
     pub import_mw: f64,
     /// Interface protection that opens the utility breaker.
     pub interface_trips: Vec<FrequencyTrip>,
@@ -166,7 +167,9 @@ pub struct OperatingPoint {
     pub online: Vec<bool>,
     /// Dispatch of each generator (by index); 0 when offline.
     pub output_mw: Vec<f64>,
-    /// Import from the utility (positive) or export (negative); 0 when there is no utility.
+    /// Import from the utility (positive) or export (negative): load − generation of the utility's
+    /// island at this point (validation checks a written figure against it and keeps this one);
+    /// 0 when there is no utility.
     pub import_mw: f64,
     /// Ties (by index) that are open in this mode before any event.
     pub ties_open: Vec<bool>,

@@ -8,6 +8,7 @@
 //! inputs and time give the same bytes.
 
 use super::svg::{self, FrequencyPlot, Series};
+use crate::input::Warning;
 use crate::model::{Plant, Scheme};
 use crate::screening::Screening;
 use crate::sim::Run;
@@ -69,6 +70,8 @@ pub struct ReportInputs<'a> {
     pub generated_utc: &'a str,
     /// The nadir version that made the report.
     pub tool_version: &'a str,
+    /// Plausibility warnings and notes of the input files, acknowledged ones included.
+    pub warnings: &'a [Warning],
 }
 
 /// Lower-case hexadecimal SHA-256 of `bytes`.
@@ -153,6 +156,7 @@ pub fn render(r: &ReportInputs) -> String {
         esc(&title)
     );
     title_block(&mut h, r);
+    warnings_box(&mut h, r.warnings);
     verdict(&mut h, r);
     caution(&mut h);
     inputs(&mut h, r);
@@ -189,6 +193,11 @@ tr.fail td.result::before { content: "\2716\00a0"; }
 td.result { white-space: nowrap; }
 .verdict { border: 2px solid #333; padding: 8px 12px; margin: 10px 0; font-size: 11.5pt; }
 .verdict.fail { border-color: #a00; border-width: 3px; }
+.warnings { border: 3px solid #b35900; background: #fff1e0; padding: 8px 12px; margin: 10px 0;
+  -webkit-print-color-adjust: exact; print-color-adjust: exact; break-inside: avoid; page-break-inside: avoid; }
+.warnings ul { margin: 4px 0; padding-left: 18px; }
+.warnings li { margin: 3px 0; }
+.warnings code { font-size: 9pt; }
 .caution { border: 2px solid #8a6d00; background: #fff8dc; padding: 8px 12px; margin: 10px 0; }
 .caution strong { display: block; margin-bottom: 2px; }
 figure { margin: 8px 0 18px 0; break-inside: avoid; page-break-inside: avoid; }
@@ -221,6 +230,79 @@ fn title_block(h: &mut String, r: &ReportInputs) {
         esc(r.generated_utc),
         esc(r.tool_version)
     );
+}
+
+/// The input warnings, above the verdict: open ones first (each with its place, field, value, why
+/// and fix), then those acknowledged in the files with their reasons, then notes. Nothing when
+/// there are none.
+pub fn warnings_box(h: &mut String, warnings: &[Warning]) {
+    if warnings.is_empty() {
+        return;
+    }
+    let open: Vec<&Warning> = warnings.iter().filter(|w| w.is_open()).collect();
+    let acked: Vec<&Warning> = warnings
+        .iter()
+        .filter(|w| !w.code.is_note() && w.acknowledged.is_some())
+        .collect();
+    let notes: Vec<&Warning> = warnings.iter().filter(|w| w.code.is_note()).collect();
+    let item = |h: &mut String, w: &Warning| {
+        let _ = write!(
+            h,
+            "<li><code>{}</code> <code>{}</code> = <strong>{}</strong>{}: {}.",
+            esc(&w.place()),
+            esc(&w.path),
+            esc(&w.value),
+            if w.code.is_note() {
+                String::new()
+            } else {
+                format!(" [{}]", esc(w.code.name()))
+            },
+            esc(&w.message),
+        );
+        if !w.help.is_empty() && !w.code.is_note() {
+            let _ = write!(h, " Likely fix: {}.", esc(&w.help));
+        }
+        match &w.acknowledged {
+            Some(reason) if !reason.is_empty() => {
+                let _ = write!(h, " Acknowledged in the file: {}.", esc(reason));
+            }
+            Some(_) => h.push_str(" Acknowledged in the file."),
+            None => {}
+        }
+        h.push_str("</li>\n");
+    };
+    h.push_str("<section class=\"warnings\">\n");
+    if !open.is_empty() {
+        let _ = write!(
+            h,
+            "<strong>Input warnings: {} {} not acknowledged.</strong> Each value below is allowed but looks like a slip; the verdict assumes it is right.\n<ul>\n",
+            open.len(),
+            plural(open.len(), "value", "values")
+        );
+        for w in &open {
+            item(h, w);
+        }
+        h.push_str("</ul>\n");
+    }
+    if !acked.is_empty() {
+        let _ = write!(
+            h,
+            "<strong>Acknowledged input warnings ({}):</strong>\n<ul>\n",
+            acked.len()
+        );
+        for w in &acked {
+            item(h, w);
+        }
+        h.push_str("</ul>\n");
+    }
+    if !notes.is_empty() {
+        h.push_str("<strong>Computed input figures:</strong>\n<ul>\n");
+        for w in &notes {
+            item(h, w);
+        }
+        h.push_str("</ul>\n");
+    }
+    h.push_str("</section>\n");
 }
 
 fn verdict(h: &mut String, r: &ReportInputs) {
@@ -256,10 +338,21 @@ fn verdict(h: &mut String, r: &ReportInputs) {
         )
     };
     let ok = failed == 0 && violations == 0;
+    let open = r.warnings.iter().filter(|w| w.is_open()).count();
+    let assumes = if open == 0 {
+        String::new()
+    } else {
+        format!(
+            " It assumes the {} input {} flagged above {} right.",
+            words(open),
+            plural(open, "value", "values"),
+            plural(open, "is", "are")
+        )
+    };
     let _ = write!(
         h,
         "<section class=\"verdict{}\">\n<strong>Verdict: {}.</strong> {runs}; {audit}. \
-({total} runs: {} pass, {failed} fail; {violations} audit {}.)\n</section>\n",
+({total} runs: {} pass, {failed} fail; {violations} audit {}.){assumes}\n</section>\n",
         if ok { "" } else { " fail" },
         if ok {
             "the table holds every case"

@@ -295,6 +295,19 @@ fn case(r: &mut Reader, p: &FieldPath, c: &RawCase, plant: &Plant) -> Case {
         );
         utility_profile.push((pt.at_s, pt.hz));
     }
+    // One warning per profile: its first point nearer the other nominal frequency.
+    let other = if f0 == 60.0 { 50.0 } else { 60.0 };
+    if let Some(k) = raw_profile
+        .iter()
+        .position(|pt| (pt.hz - other).abs() < (pt.hz - f0).abs())
+    {
+        other_nominal(
+            r,
+            &p.key("utility_hz").index(k).key("hz"),
+            raw_profile[k].hz,
+            f0,
+        );
+    }
 
     // Judged only on a case that is otherwise sound, so one mistake gives one message.
     if duration_ok && r.diagnostics.len() + r.suppressed == said {
@@ -322,6 +335,12 @@ fn case(r: &mut Reader, p: &FieldPath, c: &RawCase, plant: &Plant) -> Case {
                             section_list(plant, island)
                         ),
                         "limit the case with only_at to operating points that can run islanded".to_string(),
+                    );
+                } else if let Some(short) = islanded_shortfall(plant, k, island) {
+                    r.error(
+                        &p.key("start"),
+                        short.message(&c.id, plant, k, island),
+                        short.help(),
                     );
                 }
             }
@@ -424,4 +443,66 @@ fn within_limit<'a, T>(
     let message = limits::over_limit_message(&r.limits, limit, &subject, n);
     r.error(path, message, limits::over_limit_help(limit, n));
     &[]
+}
+
+/// What the machines of an island cannot take up when a case starts islanded.
+struct Shortfall {
+    /// Load − generation of the island (the import it loses; negative: an export).
+    need_mw: f64,
+    /// What its governed machines can raise (or lower, for an export) within their limits.
+    room_mw: f64,
+}
+
+impl Shortfall {
+    fn message(&self, case: &str, plant: &Plant, op: usize, island: &Island) -> String {
+        let (flow, can, short) = if self.need_mw > 0.0 {
+            ("import", "raise their output by", "short")
+        } else {
+            ("export", "lower their output by", "in excess")
+        };
+        format!(
+            "case `{case}` starts islanded, but at operating point `{}` the {} MW {flow} must be taken up by the machines online in section(s) {}, which can {can} only {} MW (governed machines within max_mw and min_mw): {} MW {short}",
+            plant.operating_points[op].id,
+            mw(self.need_mw.abs()),
+            section_list(plant, island),
+            mw(self.room_mw),
+            mw(self.need_mw.abs() - self.room_mw),
+        )
+    }
+
+    fn help(&self) -> String {
+        "start the case connected and open the utility breaker as its first event, limit it with only_at to operating points that can island, or change the dispatch or loads of this point".to_string()
+    }
+}
+
+/// Starting islanded, the island's governed machines must take up its load − generation within
+/// their limits (the rule of [`crate::screening`] and the simulator's start); `None` when they
+/// can, to within 1 kW.
+fn islanded_shortfall(plant: &Plant, op: usize, island: &Island) -> Option<Shortfall> {
+    let o = &plant.operating_points[op];
+    let load: f64 = plant
+        .loads
+        .iter()
+        .enumerate()
+        .filter(|(_, l)| island.contains(l.section))
+        .map(|(i, _)| o.load_mw[i])
+        .sum();
+    let mut gen = 0.0;
+    let mut raise = 0.0;
+    let mut lower = 0.0;
+    for (g, m) in plant.generators.iter().enumerate() {
+        if !o.online[g] || !island.contains(m.section) {
+            continue;
+        }
+        gen += o.output_mw[g];
+        let governed = m.governor.prime_mover != PrimeMover::Fixed
+            && (m.governor.isochronous || m.governor.droop_pct > 0.0);
+        if governed {
+            raise += (m.max_mw - o.output_mw[g]).max(0.0);
+            lower += (o.output_mw[g] - m.min_mw).max(0.0);
+        }
+    }
+    let need_mw = load - gen;
+    let room_mw = if need_mw > 0.0 { raise } else { lower };
+    (need_mw.abs() > room_mw + 1e-3).then_some(Shortfall { need_mw, room_mw })
 }

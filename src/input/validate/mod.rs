@@ -18,6 +18,7 @@ mod scheme;
 
 pub use cases::cases;
 pub use plant::plant;
+use plant::{other_nominal, short_lag, SHORT_LAG_S};
 pub use scheme::scheme;
 
 use super::defaults as d;
@@ -25,6 +26,7 @@ use super::limits;
 use super::locate::{FieldPath, Seg};
 use super::raw::*;
 use super::read::{quoted_list, Reader, Slot};
+use super::warn::Code;
 use crate::model::*;
 use crate::topology::{self, BreakerState, Island};
 use serde_yaml::Mapping;
@@ -132,6 +134,21 @@ fn num(r: &mut Reader, path: &FieldPath, v: f64, lo: Lo, hi: Hi, unit: &str) -> 
         return false;
     }
     true
+}
+
+/// MW (or any figure) as a message shows it: at most three decimals, no trailing zeros.
+fn mw(v: f64) -> String {
+    if v.abs() >= 1e9 {
+        // A slip of many orders of magnitude: keep the message short.
+        return format!("{v:e}");
+    }
+    let s = format!("{v:.3}");
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    if s == "-0" {
+        "0".to_string()
+    } else {
+        s.to_string()
+    }
 }
 
 /// Time delays and time constants: (0, 60] s unless said otherwise.

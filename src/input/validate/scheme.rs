@@ -22,6 +22,9 @@ pub fn scheme(r: &mut Reader, map: &Mapping, plant: &Plant, default_name: &str) 
                 Hi::AtMost(1.0),
                 " s",
             );
+            if v > 0.0 && v < SHORT_LAG_S {
+                short_lag(r, &p.key("frequency_lag_s"), v, false);
+            }
             measurement.frequency_lag_s = v;
         }
         if let Some(v) = m.rocof_window_s {
@@ -83,14 +86,24 @@ pub fn scheme(r: &mut Reader, map: &Mapping, plant: &Plant, default_name: &str) 
                 if !hz.is_finite() {
                     num(r, &pp, hz, Lo::Any, Hi::Any, " Hz");
                 } else if hz >= f0 {
+                    let other = if f0 == 60.0 { 50.0 } else { 60.0 };
+                    let habit = if (hz - other).abs() < (hz - f0).abs() {
+                        format!(
+                            "; {hz} Hz looks like a setting for a {other} Hz plant (the same fraction of nominal is {} Hz here)",
+                            mw(hz * f0 / other)
+                        )
+                    } else {
+                        String::new()
+                    };
                     r.error(
                         &pp,
                         format!("pickup_hz {hz} Hz is not below nominal {f0} Hz; an under-frequency stage must pick up below nominal"),
-                        format!("allowed: {} ≤ pickup_hz < {f0} Hz", 0.8 * f0),
+                        format!("allowed: {} ≤ pickup_hz < {f0} Hz{habit}", 0.8 * f0),
                     );
                 } else if hz < 0.8 * f0 {
                     num(r, &pp, hz, Lo::AtLeast(0.8 * f0), Hi::Below(f0), " Hz");
                 } else {
+                    other_nominal(r, &pp, hz, f0);
                     for (g, gen) in plant.generators.iter().enumerate() {
                         // The highest under-frequency setting at or above the pickup operates first.
                         let worst = gen

@@ -6,19 +6,22 @@
 //! formats; the helpers it shares with them live in [`super`]. This file reads the top level,
 //! sections, ties and the utility, and calls one submodule per concept: `machines` (generators and
 //! governors), `protection` (frequency and undervoltage trips), `loads`, `operating_points` (each
-//! point's dispatch and the islands it starts with) and `criteria`.
+//! point's dispatch, its power balance and the islands it starts with), `criteria`, and
+//! `plausible` (warnings for values that are allowed but look like a slip).
 
 mod criteria;
 mod loads;
 mod machines;
 mod operating_points;
+mod plausible;
 mod protection;
 
 use super::*;
 use criteria::criteria;
 use loads::load;
 use machines::generator;
-use operating_points::{check_islands, operating_point, PlantCtx};
+use operating_points::{balance, check_islands, operating_point, ImportSpec, PlantCtx};
+pub(super) use plausible::{other_nominal, short_lag, SHORT_LAG_S};
 use protection::frequency_trip;
 
 // ---------------------------------------------------------------- plant file
@@ -162,7 +165,9 @@ pub fn plant(r: &mut Reader, map: &Mapping) -> Option<Plant> {
                 .unwrap_or_else(|| d::UTILITY_BREAKER_ID.to_string());
             breaker_ids.add(r, &breaker_id, 0, &p.key("breaker"), "utility breaker");
             let section = resolve(r, &section_ids, &p.key("section"), &u.section);
-            num(r, &p.key("import_mw"), u.import_mw, Lo::Any, Hi::Any, " MW");
+            if let RawImport::Mw(v) = u.import_mw {
+                num(r, &p.key("import_mw"), v, Lo::Any, Hi::Any, " MW");
+            }
             let trips = u
                 .interface_trips
                 .iter()
@@ -175,7 +180,11 @@ pub fn plant(r: &mut Reader, map: &Mapping) -> Option<Plant> {
                 Some(section) => Some(Utility {
                     breaker_id,
                     section,
-                    import_mw: u.import_mw,
+                    // Each operating point's own figure is settled by `balance` below.
+                    import_mw: match u.import_mw {
+                        RawImport::Mw(v) => v,
+                        RawImport::Balance => 0.0,
+                    },
                     interface_trips: trips,
                 }),
                 None => {
@@ -271,10 +280,12 @@ pub fn plant(r: &mut Reader, map: &Mapping) -> Option<Plant> {
         gen_ids: &gen_ids,
         tie_ids: &tie_ids,
         utility: utility.as_ref(),
+        utility_import: utility_raw.as_ref().map(|u| u.import_mw),
         utility_unknown: utility_given && utility.is_none(),
     };
     let explicit_ops = matches!(&ops_raw, Some(list) if !list.is_empty());
     let mut operating_points: Vec<OperatingPoint> = Vec::new();
+    let mut imports: Vec<ImportSpec> = Vec::new();
     if explicit_ops {
         let mut op_ids = Ids::new("operating point");
         for (i, slot) in ops_raw.iter().flatten().enumerate() {
@@ -282,7 +293,9 @@ pub fn plant(r: &mut Reader, map: &Mapping) -> Option<Plant> {
             match slot {
                 Slot::Ok(o) => {
                     op_ids.add(r, &o.id, i, &p.key("id"), "operating point");
-                    operating_points.push(operating_point(r, &p, o, &ctx));
+                    let (point, import) = operating_point(r, &p, o, &ctx);
+                    operating_points.push(point);
+                    imports.push(import);
                 }
                 Slot::Broken(_) => whole = false,
             }
@@ -300,12 +313,14 @@ pub fn plant(r: &mut Reader, map: &Mapping) -> Option<Plant> {
             ties_open: Vec::new(),
             ties_closed: Vec::new(),
         };
-        operating_points.push(operating_point(
+        let (point, import) = operating_point(
             r,
             &FieldPath::root().key("operating_points"),
             &default_op,
             &ctx,
-        ));
+        );
+        operating_points.push(point);
+        imports.push(import);
     }
 
     // Criteria, then the design limits, which are compared with them only when they hold.
@@ -342,5 +357,11 @@ pub fn plant(r: &mut Reader, map: &Mapping) -> Option<Plant> {
     plant.design.armed_by = design::armed_by(r, design_raw.as_ref(), &plant)
         .unwrap_or_else(|| design::every_breaker(&plant));
     check_islands(r, &plant, explicit_ops);
+    if r.diagnostics.is_empty() {
+        balance(r, &mut plant, &imports, explicit_ops);
+    }
+    if r.diagnostics.is_empty() {
+        plausible::plant_warnings(r, &plant);
+    }
     r.diagnostics.is_empty().then_some(plant)
 }

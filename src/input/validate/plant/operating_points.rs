@@ -11,8 +11,28 @@ pub(super) struct PlantCtx<'a> {
     pub(super) gen_ids: &'a Ids,
     pub(super) tie_ids: &'a Ids,
     pub(super) utility: Option<&'a Utility>,
+    /// The utility's import as written (a number or `balance`).
+    pub(super) utility_import: Option<RawImport>,
     /// The utility is written but broken: do not also say "there is no utility".
     pub(super) utility_unknown: bool,
+}
+
+/// An operating point balances when load − generation − import is within this many MW, or
+/// within [`BALANCE_TOLERANCE_FRACTION`] of the point's whole load, whichever is larger
+/// (docs/files.md, "Power balance").
+pub const BALANCE_TOLERANCE_MW: f64 = 0.01;
+/// See [`BALANCE_TOLERANCE_MW`]: 0.1 %.
+pub const BALANCE_TOLERANCE_FRACTION: f64 = 0.001;
+
+/// How an operating point's import is given, for [`balance`].
+pub(super) struct ImportSpec {
+    /// `balance`: the import is computed, not checked.
+    balance: bool,
+    /// Where the figure (or the word) is written: the point's own `import_mw`, else the
+    /// utility's; `None` without a utility.
+    at: Option<FieldPath>,
+    /// The point writes its own `import_mw`.
+    own: bool,
 }
 
 pub(super) fn operating_point(
@@ -20,7 +40,7 @@ pub(super) fn operating_point(
     p: &FieldPath,
     o: &RawOperatingPoint,
     c: &PlantCtx,
-) -> OperatingPoint {
+) -> (OperatingPoint, ImportSpec) {
     let scale = o.load_scale.unwrap_or(d::LOAD_SCALE);
     if o.load_scale.is_some() {
         num(
@@ -105,10 +125,26 @@ pub(super) fn operating_point(
         }
     }
 
+    let utility_at = || Some(FieldPath::root().key("utility").key("import_mw"));
+    let mut spec = ImportSpec {
+        balance: false,
+        at: None,
+        own: false,
+    };
     let import_mw = match (o.import_mw, c.utility) {
         (Some(v), Some(_)) => {
-            num(r, &p.key("import_mw"), v, Lo::Any, Hi::Any, " MW");
-            v
+            spec.at = Some(p.key("import_mw"));
+            spec.own = true;
+            match v {
+                RawImport::Mw(v) => {
+                    num(r, &p.key("import_mw"), v, Lo::Any, Hi::Any, " MW");
+                    v
+                }
+                RawImport::Balance => {
+                    spec.balance = true;
+                    0.0
+                }
+            }
         }
         (Some(_), None) => {
             if !c.utility_unknown {
@@ -124,7 +160,11 @@ pub(super) fn operating_point(
             }
             0.0
         }
-        (None, Some(u)) => u.import_mw,
+        (None, Some(u)) => {
+            spec.at = utility_at();
+            spec.balance = c.utility_import == Some(RawImport::Balance);
+            u.import_mw
+        }
         (None, None) => 0.0,
     };
 
@@ -167,14 +207,151 @@ pub(super) fn operating_point(
         }
     }
 
-    OperatingPoint {
-        id: o.id.clone(),
-        description: o.description.clone().unwrap_or_default(),
-        load_mw,
-        online,
-        output_mw,
-        import_mw,
-        ties_open,
+    (
+        OperatingPoint {
+            id: o.id.clone(),
+            description: o.description.clone().unwrap_or_default(),
+            load_mw,
+            online,
+            output_mw,
+            import_mw,
+            ties_open,
+        },
+        spec,
+    )
+}
+
+/// The power balance of every operating point before any event: in the utility's island
+/// load − generation − import, in every other island load − generation, each within
+/// [`BALANCE_TOLERANCE_MW`] or [`BALANCE_TOLERANCE_FRACTION`] of the point's whole load,
+/// whichever is larger. The model keeps the balancing figure itself as the import, so that
+/// screening, `check`, `verify`, `report` and the simulator (which lets the utility carry load −
+/// generation of its island) use one and the same number; `balance` is shown as a note.
+/// Runs only on a plant without other diagnostics (islands with load but no supply are reported
+/// by [`check_islands`]).
+pub(super) fn balance(
+    r: &mut Reader,
+    plant: &mut Plant,
+    imports: &[ImportSpec],
+    explicit_ops: bool,
+) {
+    for (k, spec) in imports
+        .iter()
+        .enumerate()
+        .take(plant.operating_points.len())
+    {
+        let islands = topology::islands(plant, &BreakerState::initial(plant, k, true));
+        let op = &plant.operating_points[k];
+        // Without operating points the dispatch is each machine's output_mw.
+        let op_path = if explicit_ops {
+            FieldPath::root().key("operating_points").index(k)
+        } else {
+            FieldPath::root().key("generators")
+        };
+        let whole_load: f64 = op.load_mw.iter().sum();
+        let tol = BALANCE_TOLERANCE_MW.max(BALANCE_TOLERANCE_FRACTION * whole_load);
+        let several = islands.len() > 1;
+        let mut import_mw = op.import_mw;
+        for island in &islands {
+            let load: f64 = plant
+                .loads
+                .iter()
+                .enumerate()
+                .filter(|(_, l)| island.contains(l.section))
+                .map(|(i, _)| op.load_mw[i])
+                .sum();
+            let machines: Vec<usize> = (0..plant.generators.len())
+                .filter(|&g| op.online[g] && island.contains(plant.generators[g].section))
+                .collect();
+            let gen: f64 = machines.iter().map(|&g| op.output_mw[g]).sum();
+            let where_ = if several {
+                format!(
+                    " in the island of section(s) {}",
+                    section_list(plant, island)
+                )
+            } else {
+                String::new()
+            };
+            if island.on_utility {
+                let need = load - gen;
+                if spec.balance {
+                    let at = spec.at.clone().unwrap_or_else(|| op_path.clone());
+                    r.warn(
+                        &at,
+                        Code::Computed,
+                        "balance".to_string(),
+                        format!(
+                            "the import that balances operating point `{}`{where_} is {} MW (load {} MW − generation {} MW)",
+                            op.id,
+                            mw(need),
+                            mw(load),
+                            mw(gen)
+                        ),
+                        String::new(),
+                    );
+                } else if (need - import_mw).abs() > tol {
+                    let at = if spec.own || !explicit_ops {
+                        spec.at.clone().unwrap_or_else(|| op_path.clone())
+                    } else {
+                        op_path.clone()
+                    };
+                    let fix = if spec.own || !explicit_ops {
+                        format!("write `import_mw: {}`", mw(need))
+                    } else {
+                        format!(
+                            "add `import_mw: {}` to this operating point, which now inherits the utility's {} MW",
+                            mw(need),
+                            mw(import_mw)
+                        )
+                    };
+                    r.error(
+                        &at,
+                        format!(
+                            "operating point `{}` does not balance{where_}: load {} MW − generation {} MW − import {} MW = {} MW, beyond the tolerance of {} MW (0.1 % of the load, at least 0.01 MW)",
+                            op.id,
+                            mw(load),
+                            mw(gen),
+                            mw(import_mw),
+                            mw(need - import_mw),
+                            mw(tol)
+                        ),
+                        format!(
+                            "{fix} (or `import_mw: balance` to let nadir compute it), or correct the loads and dispatch"
+                        ),
+                    );
+                }
+                import_mw = need;
+            } else if !machines.is_empty() && (load - gen).abs() > tol {
+                let (what, fix) = if plant.utility.is_none() {
+                    (
+                        "the plant has no utility, so its machines must carry its load",
+                        "dispatch the machines (output_mw, or `dispatch` under the operating point) so that they add up to the load",
+                    )
+                } else {
+                    (
+                        "this island is not connected to the utility, so its machines must carry its load",
+                        "dispatch the island's machines (`dispatch` under the operating point) so that they add up to its load, or close a tie to the utility's section",
+                    )
+                };
+                r.error(
+                    &op_path,
+                    format!(
+                        "operating point `{}` does not balance{where_}: load {} MW − generation {} MW = {} MW, beyond the tolerance of {} MW (0.1 % of the load, at least 0.01 MW); {what}",
+                        op.id,
+                        mw(load),
+                        mw(gen),
+                        mw(load - gen),
+                        mw(tol)
+                    ),
+                    fix.to_string(),
+                );
+            }
+        }
+        plant.operating_points[k].import_mw = if plant.utility.is_some() {
+            import_mw
+        } else {
+            0.0
+        };
     }
 }
 
