@@ -74,6 +74,25 @@ fn demo_proposal_verifies_audits_clean_beats_the_baseline_and_is_thread_count_in
     for r in &two.rows {
         assert!(r.shed_mw + 0.05 >= r.bound_mw, "{r:?}");
     }
+    // The realisable bound is never below the ideal bound, and never above what a table that
+    // verify passes sheds: the proposal's and the plain baseline's.
+    for r in &two.rows {
+        assert!(r.realisable_mw >= r.bound_mw - 1e-9, "{r:?}");
+        assert!(r.shed_mw + 0.05 >= r.realisable_mw, "{r:?}");
+        if let Some(b) = r.baseline_mw {
+            assert!(
+                b + 0.05 >= r.realisable_mw,
+                "baseline below the bound: {r:?}"
+            );
+        }
+        assert!(!r.why.is_empty());
+    }
+    // Rows at their realisable bound say so; rows above it say why in words.
+    assert!(two.rows.iter().any(|r| r.why == "at its realisable bound"));
+    assert!(two
+        .rows
+        .iter()
+        .any(|r| r.why.contains("one table serves every row")));
     // Never-shed loads stay connected.
     for s in &two.scheme.stages {
         assert!(s.sheds.iter().all(|&l| !plant.loads[l].never_shed));

@@ -50,6 +50,12 @@ fn a_turbine_trip_gets_a_stage_armed_by_the_turbine_breaker() {
     assert!(failing.is_empty(), "proposal fails: {failing:#?}");
     let a = audit(&plant, &p.scheme, &AuditRules::for_plant(&plant));
     assert!(a.violations.is_empty(), "{:#?}", a.violations);
+    // The realisable bound (relief no sooner than the armed stage's delay and breaker time, in
+    // whole loads in rank order) lies between the ideal bound and what the table sheds.
+    for r in &p.rows {
+        assert!(r.realisable_mw >= r.bound_mw - 1e-9, "{r:?}");
+        assert!(r.shed_mw + 0.05 >= r.realisable_mw, "{r:?}");
+    }
 }
 
 #[test]

@@ -21,6 +21,7 @@ pub mod sizing;
 use crate::model::{Action, BreakerRef, CaseSet, Plant, Scheme, StageTrigger};
 use backstop::Backstop;
 use bound::{Bound, Shortfall};
+use evaluate as sizing_eval;
 use evaluate::{design_sim_config, Verdict};
 use layout::Layout;
 use rayon::prelude::*;
@@ -82,7 +83,13 @@ pub struct RowShed {
     pub weight: f64,
     /// MW opened, at nominal frequency.
     pub shed_mw: f64,
+    /// The ideal-instant bound.
     pub bound_mw: f64,
+    /// The realisable bound: relief no sooner than the fastest allowed relay, in whole loads in
+    /// rank order (a lower end; see `bound::realisable`).
+    pub realisable_mw: f64,
+    /// In words: whether the row is at its realisable bound, and if not, why.
+    pub why: String,
     pub baseline_mw: Option<f64>,
 }
 
@@ -258,6 +265,27 @@ fn finish(
 ) -> Proposal {
     let (plant, cases) = (ctx.plant, ctx.cases);
     let scheme = ctx.scheme(&best.layout, &best.assignment);
+    let realisable: Vec<f64> = ctx
+        .rows
+        .par_iter()
+        .zip(bounds)
+        .map(|(&(ci, op), b)| {
+            bound::realisable(
+                plant,
+                &cases.cases[ci],
+                op,
+                &ctx.sim,
+                ctx.measurement.frequency_lag_s,
+                b.mw,
+            )
+        })
+        .collect();
+    let shed: Vec<f64> = ctx
+        .rows
+        .iter()
+        .enumerate()
+        .map(|(r, &(_, op))| shed_mw(ctx, op, &best.evals[r].shed_loads))
+        .collect();
     let rows = ctx
         .rows
         .iter()
@@ -266,8 +294,10 @@ fn finish(
             case: cases.cases[ci].id.clone(),
             operating_point: plant.operating_points[op].id.clone(),
             weight: cases.cases[ci].weight,
-            shed_mw: shed_mw(ctx, op, &best.evals[r].shed_loads),
+            shed_mw: shed[r],
             bound_mw: bounds[r].mw,
+            realisable_mw: realisable[r],
+            why: why_not_at_bound(ctx, &scheme, &best.evals, &shed, &realisable, r),
             baseline_mw: baseline
                 .as_ref()
                 .map(|b| shed_mw(ctx, op, &b.evals[r].shed_loads)),
@@ -323,6 +353,64 @@ fn finish(
         unassigned,
         layouts_sized,
         replays: replays + best.runs,
+    }
+}
+
+/// Whether row `r` sheds no more than its realisable bound (within 0.05 MW or 2 %), and if it
+/// sheds more, why, in words: the stages it operates also serve rows that need them, or (when
+/// no other row shares them) the grid of pickups and delays acts later than the fastest relay.
+fn why_not_at_bound(
+    ctx: &Context,
+    scheme: &Scheme,
+    evals: &[sizing_eval::RowEval],
+    shed: &[f64],
+    realisable: &[f64],
+    r: usize,
+) -> String {
+    let slack = 0.05_f64.max(0.02 * realisable[r]);
+    if shed[r] <= realisable[r] + slack {
+        return if shed[r] <= 1e-9 {
+            "at its bound: sheds nothing".into()
+        } else {
+            "at its realisable bound".into()
+        };
+    }
+    let name = |k: usize| scheme.stages[k].id.clone();
+    let row_name = |q: usize| {
+        let (ci, op) = ctx.rows[q];
+        format!(
+            "{} at {}",
+            ctx.cases.cases[ci].id, ctx.plant.operating_points[op].id
+        )
+    };
+    // The row that most needs each stage this row operates: another row operating it whose
+    // realisable bound is the largest.
+    let mut reasons: Vec<String> = Vec::new();
+    for &k in &evals[r].operated {
+        let needer = (0..ctx.rows.len())
+            .filter(|&q| q != r && evals[q].operated.contains(&k) && realisable[q] > 1e-9)
+            .max_by(|&a, &b| realisable[a].total_cmp(&realisable[b]));
+        if let Some(q) = needer {
+            reasons.push(format!("{} is also needed by {}", name(k), row_name(q)));
+        }
+    }
+    let excess = shed[r] - realisable[r];
+    if realisable[r] <= 1e-9 {
+        if reasons.is_empty() {
+            format!("needs no shedding, yet sheds {excess:.2} MW: its stages act on a dip the table cannot tell from one that needs them")
+        } else {
+            format!(
+                "needs no shedding, yet sheds {excess:.2} MW: one table serves every row, and {}",
+                reasons.join("; ")
+            )
+        }
+    } else if reasons.is_empty() {
+        format!("{excess:.2} MW above it: the stages' pickups and delays are on the design grid and act later than the fastest relay the bound assumes")
+    } else {
+        format!(
+            "{excess:.2} MW above it: one table serves every row, and {}",
+            reasons.join("; ")
+        )
     }
 }
 
