@@ -13,7 +13,7 @@ BLOCKS = {
     "### `nadir verify": [N, "verify", P, S, "--cases", C],
     "### `nadir replay": [N, "replay", P, S, "--cases", C, "--case", "utility-loss-then-engine-trip",
                           "--at", "full-rate", "--plot", "docs/demo-utility-loss-then-engine-trip.svg", "--force"],
-    "### `nadir audit": [N, "audit", P, S],
+    "### `nadir audit": [N, "audit", P, S, "--cases", C],
     "### `nadir compare": [N, "compare", P, S, "schemes/biorefinery-proposed.yaml", "--cases", C],
 }
 
@@ -25,7 +25,9 @@ def design_block():
     subprocess.run(["rm", "-f", "proposed.yaml"])
     lines = out.split("\n")
     i = next(k for k, l in enumerate(lines) if l.startswith("Verification of"))
-    verdict = [l for l in lines[i:] if l.startswith("All ") or " FAIL." in l]
+    verdict = [l for l in lines[i:]
+               if l.startswith("All ") or " FAIL." in l or l.startswith("Audit violations")
+               or l.startswith("  - ")]
     return "\n".join(
         ["$ nadir design " + P + " --cases " + C + " -o proposed.yaml"]
         + [l for l in lines[:i]]

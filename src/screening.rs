@@ -227,8 +227,10 @@ pub struct StageFigures {
     pub delay_s: f64,
     pub breaker_s: f64,
     pub loads: Vec<String>,
-    /// By operating point (same order as [`SchemeFigures::operating_points`]).
+    /// By operating point (same order as [`SchemeFigures::operating_points`]): every load the
+    /// stage lists, as it opens them when it operates first.
     pub mw: Vec<f64>,
+    /// Up to and including this stage, each load counted once however many stages list it.
     pub cumulative_mw: Vec<f64>,
     pub pct_of_load: Vec<f64>,
     pub cumulative_pct_of_load: Vec<f64>,
@@ -357,15 +359,12 @@ pub fn screen_cases(plant: &Plant, cases: &CaseSet, scheme: Option<&Scheme>) -> 
 pub fn screen_scheme(plant: &Plant, scheme: &Scheme) -> SchemeFigures {
     let ops = &plant.operating_points;
     let plant_load: Vec<f64> = ops.iter().map(|op| op.load_mw.iter().sum()).collect();
-    let mut order: Vec<usize> = (0..scheme.stages.len()).collect();
-    // Armed stages act on the event itself, so they come first; then the highest pickup.
-    let key = |i: &usize| match scheme.stages[*i].trigger {
-        StageTrigger::Breaker(_) => f64::INFINITY,
-        StageTrigger::Frequency { pickup_hz, .. } => pickup_hz,
-    };
-    order.sort_by(|a, b| key(b).total_cmp(&key(a)));
     let mut cumulative = vec![0.0; ops.len()];
-    let stages = order
+    // A load in several stages (an armed stage and its under-frequency backup) is opened once:
+    // the cumulative figure counts it at the first stage in operating order that lists it.
+    let mut counted = vec![false; plant.loads.len()];
+    let stages = scheme
+        .operating_order()
         .into_iter()
         .map(|i| {
             let stage = &scheme.stages[i];
@@ -373,8 +372,13 @@ pub fn screen_scheme(plant: &Plant, scheme: &Scheme) -> SchemeFigures {
                 .iter()
                 .map(|op| stage.sheds.iter().filter_map(|&l| op.load_mw.get(l)).sum())
                 .collect();
-            for (c, m) in cumulative.iter_mut().zip(&mw) {
-                *c += m;
+            for &l in &stage.sheds {
+                if let Some(seen) = counted.get_mut(l).filter(|seen| !**seen) {
+                    *seen = true;
+                    for (c, op) in cumulative.iter_mut().zip(ops) {
+                        *c += op.load_mw.get(l).copied().unwrap_or(0.0);
+                    }
+                }
             }
             let pct = |v: &[f64]| -> Vec<f64> {
                 v.iter()

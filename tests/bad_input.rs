@@ -690,27 +690,33 @@ fn cases_unknown_fields_in_two_items() {
 // ---------------------------------------------------------------- scheme files
 
 #[test]
-fn scheme_load_in_two_stages() {
+fn scheme_load_listed_twice_in_one_stage() {
+    // A load in two stages is an as-found table (scheme_as_found.yaml); twice in one is a slip.
     check(
-        "scheme_load_two_stages.yaml",
-        &[
-            (3, "stages[1].sheds[0]", "load `hvac` is in stage `uf-2` and already in stage `uf-1` (stages[0].sheds[1], line 2)"),
-            (3, "stages[1].sheds[1]", "load `dryer` is in stage `uf-2` and already in stage `uf-1`"),
-            (3, "stages[1].sheds[2]", "load `dryer` is in stage `uf-2` and already in stage `uf-1`"),
-        ],
+        "scheme_load_listed_twice.yaml",
+        &[(
+            3,
+            "stages[1].sheds[2]",
+            "load `dryer` is listed twice in stage `uf-2` (first at stages[1].sheds[1], line 3)",
+        )],
     );
 }
 
 #[test]
-fn scheme_never_shed_load_in_a_stage() {
-    check(
-        "scheme_never_shed.yaml",
-        &[(
-            7,
-            "stages[0].sheds[1]",
-            "load `control-room` is marked never_shed in the plant, but stage `uf-1` sheds it",
-        )],
+fn an_as_found_scheme_with_a_never_shed_load_and_a_load_in_two_stages_reads() {
+    let plant = base_plant();
+    let d = diagnostics_of(
+        "scheme_as_found.yaml",
+        &read("scheme_as_found.yaml"),
+        &plant,
     );
+    assert!(d.is_empty(), "{d:?}");
+    let scheme =
+        nadir::input::parse_scheme(&read("scheme_as_found.yaml"), "s.yaml", &plant).unwrap();
+    let dryer = plant.load_index("dryer").unwrap();
+    let control_room = plant.load_index("control-room").unwrap();
+    assert_eq!(scheme.stages[0].sheds, vec![dryer]);
+    assert_eq!(scheme.stages[1].sheds, vec![dryer, control_room]);
 }
 
 #[test]
@@ -1428,7 +1434,12 @@ fn temp_dir(what: &str) -> PathBuf {
 
 #[test]
 fn corpus_has_forty_bad_files_each_refused_with_place_and_fix() {
-    const VALID: [&str; 3] = ["base_plant.yaml", "cases_ok.yaml", "scheme_ok.yaml"];
+    const VALID: [&str; 4] = [
+        "base_plant.yaml",
+        "cases_ok.yaml",
+        "scheme_as_found.yaml",
+        "scheme_ok.yaml",
+    ];
     let plant = base_plant();
     let mut n_bad = 0;
     let mut names: Vec<String> = std::fs::read_dir(dir())

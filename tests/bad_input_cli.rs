@@ -11,7 +11,12 @@ use std::path::{Path, PathBuf};
 use std::process::Command;
 use std::time::{Duration, Instant};
 
-const VALID: [&str; 3] = ["base_plant.yaml", "cases_ok.yaml", "scheme_ok.yaml"];
+const VALID: [&str; 4] = [
+    "base_plant.yaml",
+    "cases_ok.yaml",
+    "scheme_as_found.yaml",
+    "scheme_ok.yaml",
+];
 
 fn dir() -> PathBuf {
     PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("tests/bad_input")

@@ -438,8 +438,11 @@ fn demo_voltage_dip_drops_the_contactor_fed_mills_only() {
 
 #[test]
 fn demo_scheme_stage_sizes() {
-    // Full rate: armed 0.35 + 0.10 + 1.20 = 1.65 MW; df/dt stage 0.6 + 0.6 = 1.2 MW; uf-1 2.0 MW
-    // → cumulative 4.85 MW = 21.0 % of 23.1 MW. Turndown scales every load by 0.7.
+    // Full rate: armed 0.35 + 0.10 + 1.20 = 1.65 MW. The df/dt step lists the armed stage's loads
+    // again as its backup: uf-fast-a 0.35 + 0.10 + 0.60 = 1.05 MW of which only chip-conveyors
+    // (0.60) is new, uf-fast-b 1.20 + 0.60 = 1.80 MW of which only dryer-1-heaters (0.60) is new;
+    // the cumulative counts each load once: 1.65 + 0.60 + 0.60 = 2.85 MW; uf-1 2.0 MW → 4.85 MW =
+    // 21.0 % of 23.1 MW. Turndown scales every load by 0.7.
     let (plant, _, scheme) = demo();
     let s = screen_scheme(&plant, &scheme);
     let ids: Vec<&str> = s.stages.iter().map(|x| x.stage.as_str()).collect();
@@ -447,28 +450,35 @@ fn demo_scheme_stage_sizes() {
         ids,
         [
             "armed-utility",
-            "uf-fast",
+            "uf-fast-a",
+            "uf-fast-b",
             "uf-1",
             "uf-2",
-            "uf-3",
-            "uf-4",
-            "uf-5",
-            "uf-6"
+            "uf-3-a",
+            "uf-3-b",
+            "uf-4-a",
+            "uf-4-b",
+            "uf-5-a",
+            "uf-5-b",
+            "uf-6-a",
+            "uf-6-b"
         ]
     );
     close(s.stages[0].mw[0], 1.65, 1e-9, "armed");
+    close(s.stages[1].mw[0], 1.05, 1e-9, "uf-fast-a lists");
+    close(s.stages[2].cumulative_mw[0], 2.85, 1e-9, "each load once");
     close(
-        s.stages[2].cumulative_mw[0],
+        s.stages[3].cumulative_mw[0],
         4.85,
         1e-9,
         "cumulative to uf-1",
     );
     close(
-        s.stages[2].cumulative_pct_of_load[0],
+        s.stages[3].cumulative_pct_of_load[0],
         100.0 * 4.85 / 23.1,
         1e-9,
         "% of load",
     );
-    close(s.stages[2].mw[1], 0.7 * 2.0, 1e-9, "uf-1 at turndown");
-    close(s.stages[7].cumulative_mw[0], 13.95, 1e-9, "whole table");
+    close(s.stages[3].mw[1], 0.7 * 2.0, 1e-9, "uf-1 at turndown");
+    close(s.stages[12].cumulative_mw[0], 13.95, 1e-9, "whole table");
 }

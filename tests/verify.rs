@@ -160,7 +160,7 @@ fn audit_passes_the_demo_and_names_each_broken_rule() {
     let bad = nadir(&["audit", PLANT_FILE, "tests/verify/rank_order_scheme.yaml"]);
     assert_eq!(bad.code, 1, "{}\n{}", bad.stdout, bad.stderr);
     assert!(bad.stdout.contains(
-        "[rank-order] pelletiser-1 (rank 8) is shed by stage uf-1 before office-hvac (rank 1)"
+        "[rank-order] stage uf-1 opens pelletiser-1 (rank 8) while lower-ranked office-hvac (rank 1), office-lighting (rank 2) of the same island are still connected (utility opens alone, at full-rate, turndown, stg-1-maintenance)"
     ));
     assert!(bad.stdout.contains("[spacing] stages uf-2 and uf-3"));
     assert!(bad.stdout.contains("[unassigned-lower-rank]"));

@@ -1,5 +1,6 @@
-//! `nadir audit`: the shedding order stage by stage and every violation of the plant's own rules;
-//! exit 1 when any rule is broken.
+//! `nadir audit`: the shedding order stage by stage, every violation of the plant's own rules and
+//! the notes; exit 1 when any rule is broken (notes alone exit 0). The findings come from
+//! `verify::audit::audit_cases`, the same function the report calls.
 
 use super::check::{finish, fmt};
 use super::{load, Outcome};
@@ -16,6 +17,10 @@ pub struct AuditArgs {
     /// Scheme file (YAML).
     #[arg(value_name = "SCHEME")]
     pub scheme: PathBuf,
+    /// Cases file (YAML): rank order is judged in each event of these cases (which breakers open
+    /// together, which islands form). Without it, each breaker is taken as opening alone.
+    #[arg(long, value_name = "CASES")]
+    pub cases: Option<PathBuf>,
     /// Output format.
     #[arg(long, value_enum, default_value_t = super::check::Format::Table)]
     pub format: super::check::Format,
@@ -23,9 +28,13 @@ pub struct AuditArgs {
 
 pub fn run(args: AuditArgs) -> anyhow::Result<Outcome> {
     let plant = load::plant(&args.plant)?;
+    let cases = match &args.cases {
+        Some(path) => Some(load::cases(path, &plant)?),
+        None => None,
+    };
     let scheme = load::scheme(&args.scheme, &plant)?;
     let rules = AuditRules::for_plant(&plant);
-    let a = audit::audit(&plant, &scheme, &rules);
+    let a = audit::audit_cases(&plant, &scheme, cases.as_ref(), &rules);
     let text = match args.format {
         super::check::Format::Json => serde_json::to_string_pretty(&a)? + "\n",
         super::check::Format::Table => render(&a, &scheme.name, &rules),
@@ -38,14 +47,15 @@ pub fn run(args: AuditArgs) -> anyhow::Result<Outcome> {
     })
 }
 
-/// The order table, then the violations or a line saying there are none.
+/// The order table, the rules, then the violations (or a line saying there are none) and notes.
 pub fn render(a: &Audit, scheme: &str, rules: &AuditRules) -> String {
     let mut out =
         format!("Shedding order of {scheme} (armed stages first, then by falling pickup)\n");
     out.push_str(&order_table(a));
     out.push_str(&format!(
-        "\nRules: rank order; no never-shed load; no stage empty at any point; stages at least {} Hz or {} s apart; no pickup above {} Hz.\n",
-        rules.min_spacing_hz, rules.min_spacing_s, fmt(rules.normal_low_hz, 2)
+        "\nRules: {}.\nRank order judged in {}.\n",
+        rules.statement(),
+        a.rank_order_judged_in
     ));
     if a.violations.is_empty() {
         out.push_str("No violation.\n");
@@ -53,6 +63,12 @@ pub fn render(a: &Audit, scheme: &str, rules: &AuditRules) -> String {
         out.push_str(&format!("{} violation(s):\n", a.violations.len()));
         for v in &a.violations {
             out.push_str(&format!("  [{}] {}\n", v.rule, v.message));
+        }
+    }
+    if !a.notes.is_empty() {
+        out.push_str(&format!("{} note(s), not violations:\n", a.notes.len()));
+        for n in &a.notes {
+            out.push_str(&format!("  [{}] {}\n", n.rule, n.message));
         }
     }
     out

@@ -67,8 +67,9 @@ pub fn run(args: ReportArgs) -> anyhow::Result<Outcome> {
     let scheme = scheme.value;
 
     let screening = nadir::screening::screen(&plant, Some(&cases), Some(&scheme));
-    let rules = AuditRules::defaults(plant.nominal_hz);
-    let audit = audit::audit(&plant, &scheme, &rules);
+    // The plant's own rules and the studied events, exactly as `nadir audit --cases` judges them.
+    let rules = AuditRules::for_plant(&plant);
+    let audit = audit::audit_cases(&plant, &scheme, Some(&cases), &rules);
     let config = VerifyConfig::default();
     let pairs = matrix::pairs(&cases).len() as u64;
     let bar = super::verify::progress_bar(2 * pairs);

@@ -1,4 +1,7 @@
-//! The shedding scheme: stages with their trigger, intentional delay, breaker time and loads.
+//! The shedding scheme: stages with their trigger, intentional delay, breaker time and loads;
+//! the order stages operate in, and the section a frequency stage measures at.
+
+use super::plant::Plant;
 
 /// A breaker the plant has: the utility breaker, a bus tie, or a generator's own breaker.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
@@ -64,5 +67,38 @@ impl Scheme {
     /// Position of a stage by id.
     pub fn stage_index(&self, id: &str) -> Option<usize> {
         self.stages.iter().position(|s| s.id == id)
+    }
+
+    /// Stage indices in the order they would operate on a falling frequency: armed stages first
+    /// (they act at the event itself), by delay; then frequency stages by pickup from highest to
+    /// lowest, equal pickups by delay; the file's order breaks the remaining ties.
+    pub fn operating_order(&self) -> Vec<usize> {
+        let mut idx: Vec<usize> = (0..self.stages.len()).collect();
+        let key = |i: usize| {
+            let s = &self.stages[i];
+            match s.trigger {
+                StageTrigger::Breaker(_) => (0, 0.0, s.delay_s),
+                StageTrigger::Frequency { pickup_hz, .. } => (1, -pickup_hz, s.delay_s),
+            }
+        };
+        idx.sort_by(|&a, &b| {
+            let (ka, kb) = (key(a), key(b));
+            ka.0.cmp(&kb.0)
+                .then(ka.1.total_cmp(&kb.1))
+                .then(ka.2.total_cmp(&kb.2))
+                .then(a.cmp(&b))
+        });
+        idx
+    }
+}
+
+impl Stage {
+    /// The section whose frequency a frequency stage measures: its first listed load's. `None`
+    /// for a stage without loads.
+    pub fn measuring_section(&self, plant: &Plant) -> Option<usize> {
+        self.sheds
+            .first()
+            .and_then(|&l| plant.loads.get(l))
+            .map(|l| l.section)
     }
 }

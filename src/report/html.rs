@@ -461,7 +461,7 @@ nominal frequency {} Hz; {} utility connection.</p>\n",
 
 fn shedding_table(h: &mut String, r: &ReportInputs) {
     let a = r.audit;
-    h.push_str("<section>\n<h2>Shedding table, in operating order</h2>\n<p class=\"note\">Armed stages first, then frequency stages by falling pickup. Each cell: MW the stage opens at that operating point, and in brackets the cumulative MW.</p>\n<table class=\"wide\">\n<thead><tr><th>stage</th><th>trigger</th><th>delay s</th><th>breaker s</th><th>loads (rank)</th>");
+    h.push_str("<section>\n<h2>Shedding table, in operating order</h2>\n<p class=\"note\">Armed stages first, then frequency stages by falling pickup. Each cell: MW the stage opens at that operating point, and in brackets the cumulative MW, each load counted once however many stages list it.</p>\n<table class=\"wide\">\n<thead><tr><th>stage</th><th>trigger</th><th>delay s</th><th>breaker s</th><th>loads (rank)</th>");
     for op in &a.operating_points {
         let _ = write!(h, "<th>{} MW (cum.)</th>", esc(op));
     }
@@ -493,12 +493,9 @@ fn audit_section(h: &mut String, r: &ReportInputs) {
     let rules = r.audit_rules;
     let _ = write!(
         h,
-        "<section>\n<h2>Audit against the plant's own rules</h2>\n<p>Rules: loads shed in rank order; \
-no never-shed load in a stage; no stage empty at any operating point; frequency stages at least {} Hz \
-or {} s apart; no pickup above {} Hz.</p>\n",
-        num(rules.min_spacing_hz, 2),
-        num(rules.min_spacing_s, 2),
-        num(rules.normal_low_hz, 2)
+        "<section>\n<h2>Audit against the plant's own rules</h2>\n<p>Rules: {}.</p>\n<p>Rank order judged in {}.</p>\n",
+        esc(&rules.statement()),
+        esc(&r.audit.rank_order_judged_in)
     );
     if r.audit.violations.is_empty() {
         h.push_str("<p><strong>Violations: none.</strong></p>\n");
@@ -518,6 +515,18 @@ or {} s apart; no pickup above {} Hz.</p>\n",
             );
         }
         h.push_str("</tbody>\n</table>\n");
+    }
+    if !r.audit.notes.is_empty() {
+        let _ = write!(
+            h,
+            "<p>{} {}, not violations:</p>\n<ul>\n",
+            r.audit.notes.len(),
+            plural(r.audit.notes.len(), "note", "notes")
+        );
+        for n in &r.audit.notes {
+            let _ = writeln!(h, "<li>[{}] {}</li>", esc(n.rule), esc(&n.message));
+        }
+        h.push_str("</ul>\n");
     }
     h.push_str("</section>\n");
 }

@@ -147,7 +147,7 @@ impl<'a> Engine<'a> {
         let stages = scheme
             .stages
             .iter()
-            .map(|s| StageRelay::new(s, s.sheds.first().map(|l| plant.loads[*l].section)))
+            .map(|s| StageRelay::new(s, s.measuring_section(plant)))
             .collect();
         let gen_elems = plant
             .generators

@@ -1,5 +1,6 @@
 //! The scheme file: measurement settings and shedding stages checked against their plant (loads,
-//! never-shed marks, generator trips, breakers that arm a stage).
+//! generator trips, breakers that arm a stage). A never-shed load in a stage and a load in several
+//! stages read (the audit judges them); a load listed twice in one stage does not.
 //!
 //! Owns the scheme's validation messages. It must not change the plant; it only reads it.
 
@@ -53,7 +54,7 @@ pub fn scheme(r: &mut Reader, map: &Mapping, plant: &Plant, default_name: &str) 
     let breakers = breaker_list(plant);
     let f0 = plant.nominal_hz;
     let mut ids = Ids::new("stage");
-    // Where each load is shed first: (stage id, path).
+    // Where each load was last listed: (stage id, path).
     let mut shed_by: HashMap<usize, (String, FieldPath)> = HashMap::new();
     let mut stages = Vec::new();
     for (i, slot) in list.iter().enumerate() {
@@ -194,29 +195,25 @@ pub fn scheme(r: &mut Reader, map: &Mapping, plant: &Plant, default_name: &str) 
                 unknown_id(r, &lp, "load", id, &load_list);
                 continue;
             };
-            if plant.loads[l].never_shed {
-                r.error(
-                    &lp,
-                    format!("load `{id}` is marked never_shed in the plant, but stage `{}` sheds it", s.id),
-                    "remove it from this stage, or clear never_shed in the plant file if it may be shed".to_string(),
-                );
-            }
+            // A never-shed load in a stage, or a load in several stages (an armed stage and its
+            // under-frequency backup), is how as-found tables are written: it reads, and the
+            // audit judges it. Only a load listed twice in one stage is a slip.
             if let Some((first_stage, first_path)) = shed_by.get(&l) {
-                let line = r
-                    .line_of(first_path)
-                    .map(|n| format!(", line {n}"))
-                    .unwrap_or_default();
-                let msg = if *first_stage == s.id {
-                    format!("load `{id}` is listed twice in stage `{}`", s.id)
-                } else {
-                    format!("load `{id}` is in stage `{}` and already in stage `{first_stage}` ({first_path}{line})", s.id)
-                };
-                r.error(
-                    &lp,
-                    msg,
-                    "a load is shed by one stage only; remove it from all but one".to_string(),
-                );
-                continue;
+                if *first_stage == s.id {
+                    let line = r
+                        .line_of(first_path)
+                        .map(|n| format!(", line {n}"))
+                        .unwrap_or_default();
+                    r.error(
+                        &lp,
+                        format!(
+                            "load `{id}` is listed twice in stage `{}` (first at {first_path}{line})",
+                            s.id
+                        ),
+                        "list each load once in a stage".to_string(),
+                    );
+                    continue;
+                }
             }
             shed_by.insert(l, (s.id.clone(), lp));
             sheds.push(l);

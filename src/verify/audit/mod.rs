@@ -1,12 +1,15 @@
 //! The audit of a shedding table against the plant's own rules, without any simulation: the
-//! shedding order, and every violation of rank order, stage size, coordination spacing and the
-//! normal operating band.
+//! shedding order, every violation of rank order (judged per event and per island, [`rank`]),
+//! never-shed loads, coordination spacing and the normal operating band, and notes that are not
+//! violations (a stage whose loads are all switched off at an operating point, a load listed in
+//! several stages).
 //!
-//! Stages are put in the order they would operate on a falling frequency: event-armed stages first
-//! (they act a fixed time after a breaker opens, before any frequency stage can), then frequency
-//! stages by pickup from highest to lowest, then by delay from shortest to longest.
+//! One function computes the findings, [`audit_cases`]; `nadir audit`, the report and `nadir
+//! design` all call it, so they agree on every plant.
 
-use crate::model::{BreakerRef, Plant, Scheme, StageTrigger};
+pub mod rank;
+
+use crate::model::{BreakerRef, CaseSet, Plant, Scheme, StageTrigger};
 use serde::Serialize;
 
 /// The rules a table is held to. Defaults are common practice, no source; the plant sets its own.
@@ -40,6 +43,16 @@ impl AuditRules {
             normal_low_hz: 0.99 * nominal_hz,
         }
     }
+
+    /// The rules in one sentence, as `nadir audit` and the report state them.
+    pub fn statement(&self) -> String {
+        format!(
+            "rank order in every event and island (no lower-ranked load of the same island left \
+connected while a stage opens a higher-ranked one); no never-shed load in a stage; frequency stages \
+at least {:.2} Hz or {:.2} s apart; no pickup above {:.2} Hz",
+            self.min_spacing_hz, self.min_spacing_s, self.normal_low_hz
+        )
+    }
 }
 
 /// A stage in operating order with its loads and megawatts.
@@ -54,35 +67,57 @@ pub struct OrderedStage {
     pub breaker_s: f64,
     /// (load id, rank) in the order the scheme lists them.
     pub loads: Vec<(String, u32)>,
-    /// MW this stage opens at each operating point (by index).
+    /// MW this stage opens at each operating point (by index) when it operates first: every
+    /// load it lists.
     pub mw: Vec<f64>,
-    /// Cumulative MW up to and including this stage at each operating point.
+    /// Cumulative MW up to and including this stage at each operating point, each load counted
+    /// once however many stages list it.
     pub cumulative_mw: Vec<f64>,
 }
 
-/// One broken rule.
+/// One finding: a broken rule (a violation) or a note.
 #[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct Violation {
-    /// A short stable name: `rank-order`, `unassigned-lower-rank`, `never-shed`, `empty-stage`,
-    /// `spacing`, `above-normal-band`.
+pub struct Finding {
+    /// A short stable name. Violations: `rank-order`, `unassigned-lower-rank`, `never-shed`,
+    /// `spacing`, `above-normal-band`. Notes: `empty-at-point`, `several-stages`, `measured-elsewhere`.
     pub rule: &'static str,
-    /// The violation in words, naming stages, loads and values.
+    /// The finding in words, naming stages, loads, events and values.
     pub message: String,
 }
+
+/// A broken rule.
+pub type Violation = Finding;
 
 /// The audit result.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Audit {
     pub operating_points: Vec<String>,
     pub order: Vec<OrderedStage>,
-    pub violations: Vec<Violation>,
+    /// Which events rank order was judged in, in words.
+    pub rank_order_judged_in: String,
+    /// Broken rules: any one makes the audit fail (exit 1).
+    pub violations: Vec<Finding>,
+    /// Worth a reviewer's eye, but not a broken rule.
+    pub notes: Vec<Finding>,
 }
 
-/// Audit a scheme against the plant's rules.
+/// Audit a scheme against the plant's rules, each breaker taken as opening alone (no cases).
 pub fn audit(plant: &Plant, scheme: &Scheme, rules: &AuditRules) -> Audit {
-    let order_idx = operating_order(scheme);
+    audit_cases(plant, scheme, None, rules)
+}
+
+/// Audit a scheme against the plant's rules, judging rank order in each event of the cases (or,
+/// without cases, each breaker opening alone). The one function that computes findings.
+pub fn audit_cases(
+    plant: &Plant,
+    scheme: &Scheme,
+    cases: Option<&CaseSet>,
+    rules: &AuditRules,
+) -> Audit {
+    let order_idx = scheme.operating_order();
     let n_ops = plant.operating_points.len();
     let mut cumulative = vec![0.0; n_ops];
+    let mut counted = vec![false; plant.loads.len()];
     let mut order = Vec::new();
     for &si in &order_idx {
         let stage = &scheme.stages[si];
@@ -95,8 +130,12 @@ pub fn audit(plant: &Plant, scheme: &Scheme, rules: &AuditRules) -> Audit {
                     .sum()
             })
             .collect();
-        for (c, m) in cumulative.iter_mut().zip(&mw) {
-            *c += m;
+        for &l in &stage.sheds {
+            if !std::mem::replace(&mut counted[l], true) {
+                for (op, c) in cumulative.iter_mut().enumerate() {
+                    *c += plant.operating_points[op].load_mw[l];
+                }
+            }
         }
         order.push(OrderedStage {
             stage: si,
@@ -113,12 +152,14 @@ pub fn audit(plant: &Plant, scheme: &Scheme, rules: &AuditRules) -> Audit {
             cumulative_mw: cumulative.clone(),
         });
     }
-    let mut violations = Vec::new();
-    rank_order(plant, scheme, &order_idx, &mut violations);
+    let (mut violations, elsewhere, judged_in) = rank::rank_order(plant, scheme, cases);
     never_shed(plant, scheme, &mut violations);
-    empty_stages(plant, &order, &mut violations);
     spacing(scheme, &order_idx, rules, &mut violations);
     normal_band(scheme, rules, &mut violations);
+    let mut notes = Vec::new();
+    several_stages(plant, scheme, &order_idx, &mut notes);
+    empty_at_points(plant, scheme, &order_idx, &mut notes);
+    notes.extend(elsewhere);
     Audit {
         operating_points: plant
             .operating_points
@@ -126,28 +167,16 @@ pub fn audit(plant: &Plant, scheme: &Scheme, rules: &AuditRules) -> Audit {
             .map(|o| o.id.clone())
             .collect(),
         order,
+        rank_order_judged_in: judged_in,
         violations,
+        notes,
     }
 }
 
-/// Stage indices in the order they would operate on a falling frequency.
+/// Stage indices in the order they would operate on a falling frequency (the scheme's own
+/// [`Scheme::operating_order`]).
 pub fn operating_order(scheme: &Scheme) -> Vec<usize> {
-    let mut idx: Vec<usize> = (0..scheme.stages.len()).collect();
-    let key = |i: usize| {
-        let s = &scheme.stages[i];
-        match s.trigger {
-            StageTrigger::Breaker(_) => (0, 0.0, s.delay_s),
-            StageTrigger::Frequency { pickup_hz, .. } => (1, -pickup_hz, s.delay_s),
-        }
-    };
-    idx.sort_by(|&a, &b| {
-        let (ka, kb) = (key(a), key(b));
-        ka.0.cmp(&kb.0)
-            .then(ka.1.total_cmp(&kb.1))
-            .then(ka.2.total_cmp(&kb.2))
-            .then(a.cmp(&b))
-    });
-    idx
+    scheme.operating_order()
 }
 
 /// A stage's trigger in words: "49.00 Hz", "49.20 Hz, df/dt ≤ −1.00 Hz/s", "utility opens".
@@ -180,58 +209,11 @@ pub fn breaker_name(plant: &Plant, breaker: BreakerRef) -> String {
     }
 }
 
-fn rank_order(plant: &Plant, scheme: &Scheme, order: &[usize], out: &mut Vec<Violation>) {
-    // Position of each load's stage in operating order; None when it is in no stage.
-    let mut position: Vec<Option<usize>> = vec![None; plant.loads.len()];
-    for (pos, &si) in order.iter().enumerate() {
-        for &l in &scheme.stages[si].sheds {
-            position[l].get_or_insert(pos);
-        }
-    }
-    for (pos, &si) in order.iter().enumerate() {
-        for &shed in &scheme.stages[si].sheds {
-            let shed_rank = plant.loads[shed].rank;
-            // The worst offender: a lower-ranked load shed later, or never.
-            for (other, load) in plant.loads.iter().enumerate() {
-                if load.never_shed || load.rank >= shed_rank {
-                    continue;
-                }
-                match position[other] {
-                    Some(p) if p > pos => out.push(Violation {
-                        rule: "rank-order",
-                        message: format!(
-                            "{} (rank {}) is shed by stage {} before {} (rank {}) in stage {}",
-                            plant.loads[shed].id,
-                            shed_rank,
-                            scheme.stages[si].id,
-                            load.id,
-                            load.rank,
-                            scheme.stages[order[p]].id
-                        ),
-                    }),
-                    None => out.push(Violation {
-                        rule: "unassigned-lower-rank",
-                        message: format!(
-                            "{} (rank {}) is shed by stage {} while {} (rank {}) is in no stage",
-                            plant.loads[shed].id,
-                            shed_rank,
-                            scheme.stages[si].id,
-                            load.id,
-                            load.rank
-                        ),
-                    }),
-                    _ => {}
-                }
-            }
-        }
-    }
-}
-
-fn never_shed(plant: &Plant, scheme: &Scheme, out: &mut Vec<Violation>) {
+fn never_shed(plant: &Plant, scheme: &Scheme, out: &mut Vec<Finding>) {
     for stage in &scheme.stages {
         for &l in &stage.sheds {
             if plant.loads[l].never_shed {
-                out.push(Violation {
+                out.push(Finding {
                     rule: "never-shed",
                     message: format!(
                         "{} is marked never_shed but stage {} sheds it",
@@ -243,24 +225,50 @@ fn never_shed(plant: &Plant, scheme: &Scheme, out: &mut Vec<Violation>) {
     }
 }
 
-fn empty_stages(plant: &Plant, order: &[OrderedStage], out: &mut Vec<Violation>) {
-    for stage in order {
-        for (op, mw) in stage.mw.iter().enumerate() {
-            if *mw <= 0.0 {
-                out.push(Violation {
-                    rule: "empty-stage",
-                    message: format!(
-                        "stage {} sheds 0 MW at operating point {}: all its loads are off there",
-                        stage.id, plant.operating_points[op].id
-                    ),
-                });
-            }
+fn several_stages(plant: &Plant, scheme: &Scheme, order: &[usize], out: &mut Vec<Finding>) {
+    for (l, load) in plant.loads.iter().enumerate() {
+        let stages: Vec<&str> = order
+            .iter()
+            .filter(|&&i| scheme.stages[i].sheds.contains(&l))
+            .map(|&i| scheme.stages[i].id.as_str())
+            .collect();
+        if stages.len() > 1 {
+            out.push(Finding {
+                rule: "several-stages",
+                message: format!(
+                    "{} is in stages {}: whichever operates first opens it; it is shed and counted once",
+                    load.id,
+                    stages.join(", ")
+                ),
+            });
         }
     }
 }
 
-fn spacing(scheme: &Scheme, order: &[usize], rules: &AuditRules, out: &mut Vec<Violation>) {
-    let freq: Vec<(usize, f64, f64)> = order
+fn empty_at_points(plant: &Plant, scheme: &Scheme, order: &[usize], out: &mut Vec<Finding>) {
+    for &i in order {
+        let stage = &scheme.stages[i];
+        let off: Vec<&str> = plant
+            .operating_points
+            .iter()
+            .filter(|op| stage.sheds.iter().all(|&l| op.load_mw[l] <= 0.0))
+            .map(|op| op.id.as_str())
+            .collect();
+        if !off.is_empty() {
+            out.push(Finding {
+                rule: "empty-at-point",
+                message: format!(
+                    "stage {} opens nothing at {}: all its loads are switched off there",
+                    stage.id,
+                    off.join(", ")
+                ),
+            });
+        }
+    }
+}
+
+fn spacing(scheme: &Scheme, order: &[usize], rules: &AuditRules, out: &mut Vec<Finding>) {
+    let mut freq: Vec<(usize, f64, f64)> = order
         .iter()
         .filter_map(|&i| match scheme.stages[i].trigger {
             StageTrigger::Frequency { pickup_hz, .. } => {
@@ -269,6 +277,9 @@ fn spacing(scheme: &Scheme, order: &[usize], rules: &AuditRules, out: &mut Vec<V
             StageTrigger::Breaker(_) => None,
         })
         .collect();
+    // Stages with identical settings (one per bus section, say) act together as one step: there
+    // is nothing to coordinate between them.
+    freq.dedup_by(|b, a| scheme.stages[a.0].trigger == scheme.stages[b.0].trigger && a.2 == b.2);
     for pair in freq.windows(2) {
         let (a, fa, da) = pair[0];
         let (b, fb, db) = pair[1];
@@ -276,7 +287,7 @@ fn spacing(scheme: &Scheme, order: &[usize], rules: &AuditRules, out: &mut Vec<V
         let dt = (da - db).abs();
         // Either separation coordinates the pair: apart in frequency, or apart in time.
         if df + 1e-9 < rules.min_spacing_hz && dt + 1e-9 < rules.min_spacing_s {
-            out.push(Violation {
+            out.push(Finding {
                 rule: "spacing",
                 message: format!(
                     "stages {} and {} are {:.2} Hz and {:.2} s apart; they need at least {:.2} Hz or {:.2} s",
@@ -287,11 +298,11 @@ fn spacing(scheme: &Scheme, order: &[usize], rules: &AuditRules, out: &mut Vec<V
     }
 }
 
-fn normal_band(scheme: &Scheme, rules: &AuditRules, out: &mut Vec<Violation>) {
+fn normal_band(scheme: &Scheme, rules: &AuditRules, out: &mut Vec<Finding>) {
     for stage in &scheme.stages {
         if let StageTrigger::Frequency { pickup_hz, .. } = stage.trigger {
             if pickup_hz > rules.normal_low_hz + 1e-9 {
-                out.push(Violation {
+                out.push(Finding {
                     rule: "above-normal-band",
                     message: format!(
                         "stage {} picks up at {:.2} Hz, inside the normal operating band (above {:.2} Hz)",
@@ -401,33 +412,82 @@ mod tests {
         ]);
         let a = audit(&p, &s, &AuditRules::defaults(50.0));
         assert_eq!(rules_hit(&a), vec!["rank-order"]);
-        assert!(a.violations[0]
-            .message
-            .contains("b (rank 5) is shed by stage uf-1 before a (rank 1)"));
+        assert_eq!(
+            a.violations[0].message,
+            "stage uf-1 opens b (rank 5) while lower-ranked a (rank 1) of the same island is \
+still connected (any disturbance, at full, reduced)"
+        );
     }
 
     #[test]
     fn a_lower_rank_left_out_of_every_stage_is_caught() {
         let p = plant(vec![load("a", 1, 1.0), load("b", 2, 2.0)], &[]);
         let s = scheme(vec![stage("uf-1", 49.0, 0.2, vec![1])]);
-        assert_eq!(
-            rules_hit(&audit(&p, &s, &AuditRules::defaults(50.0))),
-            vec!["unassigned-lower-rank"]
-        );
+        let a = audit(&p, &s, &AuditRules::defaults(50.0));
+        assert_eq!(rules_hit(&a), vec!["unassigned-lower-rank"]);
+        assert!(a.violations[0]
+            .message
+            .contains("a (rank 1) of the same island is connected and in no stage"));
     }
 
     #[test]
-    fn a_stage_empty_at_one_operating_point_is_caught() {
+    fn a_stage_whose_loads_are_switched_off_at_a_point_is_a_note_not_a_violation() {
         let p = plant(vec![load("a", 1, 1.0), load("b", 2, 2.0)], &[0]);
         let s = scheme(vec![
             stage("uf-1", 49.0, 0.2, vec![0]),
             stage("uf-2", 48.8, 0.2, vec![1]),
         ]);
         let a = audit(&p, &s, &AuditRules::defaults(50.0));
-        assert_eq!(rules_hit(&a), vec!["empty-stage"]);
+        assert!(a.violations.is_empty(), "{:?}", a.violations);
+        assert_eq!(a.notes.len(), 1);
+        assert_eq!(a.notes[0].rule, "empty-at-point");
+        assert_eq!(
+            a.notes[0].message,
+            "stage uf-1 opens nothing at reduced: all its loads are switched off there"
+        );
+    }
+
+    #[test]
+    fn a_load_switched_off_at_a_point_is_not_counted_as_left_connected() {
+        // At "reduced" the rank-1 load is off: uf-1 opening rank 5 there leaves nothing lower on,
+        // so the rank-order finding names "full" only.
+        let p = plant(vec![load("a", 1, 1.0), load("b", 5, 2.0)], &[0]);
+        let s = scheme(vec![
+            stage("uf-1", 49.0, 0.2, vec![1]),
+            stage("uf-2", 48.8, 0.2, vec![0]),
+        ]);
+        let a = audit(&p, &s, &AuditRules::defaults(50.0));
+        assert_eq!(rules_hit(&a), vec!["rank-order"]);
         assert!(a.violations[0]
             .message
-            .contains("uf-1 sheds 0 MW at operating point reduced"));
+            .ends_with("(any disturbance, at full)"));
+    }
+
+    #[test]
+    fn a_load_in_two_stages_is_counted_once_and_noted() {
+        let p = plant(vec![load("a", 1, 1.0), load("b", 2, 2.0)], &[]);
+        let s = scheme(vec![
+            stage("uf-1", 49.0, 0.2, vec![0]),
+            stage("uf-2", 48.8, 0.2, vec![0, 1]),
+        ]);
+        let a = audit(&p, &s, &AuditRules::defaults(50.0));
+        assert!(a.violations.is_empty(), "{:?}", a.violations);
+        assert_eq!(a.order[1].mw, vec![3.0, 3.0], "the stage lists both loads");
+        assert_eq!(a.order[1].cumulative_mw, vec![3.0, 3.0], "a counted once");
+        assert_eq!(a.notes.len(), 1);
+        assert_eq!(a.notes[0].rule, "several-stages");
+        assert!(a.notes[0].message.starts_with("a is in stages uf-1, uf-2"));
+    }
+
+    #[test]
+    fn stages_with_identical_settings_act_together_and_need_no_spacing() {
+        let p = plant(vec![load("a", 1, 1.0), load("b", 1, 2.0)], &[]);
+        let s = scheme(vec![
+            stage("uf-1-a", 49.0, 0.2, vec![0]),
+            stage("uf-1-b", 49.0, 0.2, vec![1]),
+        ]);
+        let a = audit(&p, &s, &AuditRules::defaults(50.0));
+        assert!(a.violations.is_empty(), "{:?}", a.violations);
     }
 
     #[test]

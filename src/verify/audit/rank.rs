@@ -1,0 +1,548 @@
+//! Rank order, judged per event and per island: the rule that `nadir audit`, the report and
+//! `nadir design` share (docs/files.md, "How the audit judges rank order").
+//!
+//! For each case, each operating point it applies to, each event of the case (each instant at
+//! which it acts) and each island that exists after that event, the stages that can operate in
+//! that event are walked in the order they would operate: the stages armed by a breaker that this
+//! event opens, by delay; then the frequency stages that measure in a section of the island, by
+//! pickup from highest to lowest, equal pickups by delay. Stages with the same settings act
+//! together. Whenever a stage opens a load of the island, no sheddable load of the same island
+//! (not never-shed, switched on at that point, not yet opened) that ranks lower (rank 1 is shed
+//! first) may still be connected. Loads in other islands are not counted. Stages armed by
+//! breakers that no single event opens are never compared with each other.
+//!
+//! What "can operate" means here, without simulating:
+//! - an armed stage operates when its breaker opens in this event and was closed before it (a
+//!   breaker already open, or a generator not running, arms nothing, as in the simulator);
+//! - a frequency stage can operate in an island without the utility; in an island held by the
+//!   utility only when the case's utility frequency falls below its pickup (a grid-wide event);
+//! - loads opened by armed stages at an earlier event of the same case are already open;
+//! - breakers opened by protection during a run (interface or generator trips) are not events of
+//!   the audit: `nadir verify` shows what they do.
+//!
+//! When no cases are given, each breaker (the utility, each tie closed at the point, each running
+//! generator) is taken as opening alone, from the plant connected to the utility.
+
+use super::Finding;
+use crate::model::{Action, BreakerRef, Case, CaseSet, Plant, Scheme, StageTrigger, Start};
+use crate::topology::{islands, BreakerState, Island};
+use std::collections::BTreeSet;
+
+/// How many places a finding names before it says "and N more".
+const PLACES_SHOWN: usize = 3;
+
+/// One event at one operating point: the islands after it and the stages it arms.
+struct Event {
+    /// "case utility-loss, utility opens at 0.00 s" or "utility opens alone".
+    label: String,
+    op: usize,
+    islands: Vec<Island>,
+    /// Stages armed by a breaker this event opens.
+    armed: Vec<usize>,
+    /// Loads opened by armed stages at an earlier event of the same case.
+    already_open: Vec<bool>,
+    /// The case's lowest utility frequency, when it falls below nominal.
+    grid_low_hz: Option<f64>,
+}
+
+/// Calls `visit` with each event judged: from the cases, or each breaker opening alone. Returns
+/// which, in words. Events are made one at a time, so memory does not grow with their number.
+fn for_each_event(
+    plant: &Plant,
+    scheme: &Scheme,
+    cases: Option<&CaseSet>,
+    visit: &mut dyn FnMut(&Event),
+) -> String {
+    match cases {
+        Some(set) => {
+            for case in &set.cases {
+                for &op in &case.applies_to {
+                    case_events(plant, scheme, case, op, visit);
+                }
+            }
+            format!(
+                "each event of the {} case(s) at each operating point it applies to",
+                set.cases.len()
+            )
+        }
+        None => {
+            alone_events(plant, scheme, visit);
+            "each breaker opening alone (no cases given; give the cases file to judge the studied events)"
+                .to_string()
+        }
+    }
+}
+
+fn armed_by(scheme: &Scheme, breaker: BreakerRef) -> impl Iterator<Item = usize> + '_ {
+    scheme
+        .stages
+        .iter()
+        .enumerate()
+        .filter(move |(_, s)| s.trigger == StageTrigger::Breaker(breaker))
+        .map(|(i, _)| i)
+}
+
+fn case_events(
+    plant: &Plant,
+    scheme: &Scheme,
+    case: &Case,
+    op: usize,
+    out: &mut dyn FnMut(&Event),
+) {
+    let f0 = plant.nominal_hz;
+    let grid_low_hz = case
+        .utility_profile
+        .iter()
+        .map(|p| p.1)
+        .min_by(f64::total_cmp)
+        .filter(|&hz| hz < f0);
+    let mut state = BreakerState::initial(plant, op, case.start == Start::Connected);
+    let mut running = plant.operating_points[op].online.clone();
+    let mut already_open = vec![false; plant.loads.len()];
+    let mut k = 0;
+    while k < case.events.len() {
+        let at_s = case.events[k].at_s;
+        let mut what = Vec::new();
+        let mut armed = Vec::new();
+        while k < case.events.len() && case.events[k].at_s == at_s {
+            let action = &case.events[k].action;
+            k += 1;
+            match *action {
+                Action::Open(b) => {
+                    let was_closed = match b {
+                        BreakerRef::Utility => std::mem::replace(&mut state.utility_closed, false),
+                        BreakerRef::Tie(t) => state
+                            .tie_closed
+                            .get_mut(t)
+                            .is_some_and(|c| std::mem::replace(c, false)),
+                        BreakerRef::Generator(g) => running
+                            .get_mut(g)
+                            .is_some_and(|r| std::mem::replace(r, false)),
+                    };
+                    let name = super::breaker_name(plant, b);
+                    what.push(match b {
+                        BreakerRef::Generator(_) => format!("{name} trips"),
+                        _ => format!("{name} opens"),
+                    });
+                    if was_closed {
+                        armed.extend(armed_by(scheme, b));
+                    }
+                }
+                Action::LoadStep { section, .. } => {
+                    what.push(format!("load step on {}", plant.sections[section].id))
+                }
+                Action::VoltageDip { section, .. } => {
+                    what.push(format!("voltage dip on {}", plant.sections[section].id))
+                }
+            }
+        }
+        armed.sort_unstable();
+        armed.dedup();
+        out(&Event {
+            label: format!("case {}, {} at {at_s:.2} s", case.id, what.join(" and ")),
+            op,
+            islands: islands(plant, &state),
+            armed: armed.clone(),
+            already_open: already_open.clone(),
+            grid_low_hz,
+        });
+        for &s in &armed {
+            for &l in &scheme.stages[s].sheds {
+                already_open[l] = true;
+            }
+        }
+    }
+    // A grid-wide event: no action, the utility frequency itself falls.
+    if case.events.is_empty() {
+        if let Some(low) = grid_low_hz {
+            out(&Event {
+                label: format!("case {}, utility frequency falls to {low:.2} Hz", case.id),
+                op,
+                islands: islands(plant, &state),
+                armed: vec![],
+                already_open,
+                grid_low_hz,
+            });
+        }
+    }
+}
+
+fn alone_events(plant: &Plant, scheme: &Scheme, out: &mut dyn FnMut(&Event)) {
+    for op in 0..plant.operating_points.len() {
+        let start = BreakerState::initial(plant, op, true);
+        let mut breakers = Vec::new();
+        if start.utility_closed {
+            breakers.push(BreakerRef::Utility);
+        }
+        for (t, &closed) in start.tie_closed.iter().enumerate() {
+            if closed {
+                breakers.push(BreakerRef::Tie(t));
+            }
+        }
+        for (g, &on) in plant.operating_points[op].online.iter().enumerate() {
+            if on {
+                breakers.push(BreakerRef::Generator(g));
+            }
+        }
+        if breakers.is_empty() {
+            // Nothing to open (an islanded plant without ties or machines to trip): frequency can
+            // still fall, on a load step say.
+            out(&Event {
+                label: "any disturbance".to_string(),
+                op,
+                islands: islands(plant, &start),
+                armed: vec![],
+                already_open: vec![false; plant.loads.len()],
+                grid_low_hz: None,
+            });
+        }
+        for b in breakers {
+            let mut state = start.clone();
+            match b {
+                BreakerRef::Utility => state.utility_closed = false,
+                BreakerRef::Tie(t) => state.tie_closed[t] = false,
+                BreakerRef::Generator(_) => {}
+            }
+            let name = super::breaker_name(plant, b);
+            out(&Event {
+                label: match b {
+                    BreakerRef::Generator(_) => format!("{name} trips alone"),
+                    _ => format!("{name} opens alone"),
+                },
+                op,
+                islands: islands(plant, &state),
+                armed: armed_by(scheme, b).collect(),
+                already_open: vec![false; plant.loads.len()],
+                grid_low_hz: None,
+            });
+        }
+    }
+}
+
+/// The stages that can operate in an island at an event, grouped by when they act: each group
+/// holds stages with the same settings, which operate together.
+/// `order` is the scheme's operating order, `measures` each stage's measuring section.
+fn walk_order(
+    scheme: &Scheme,
+    order: &[usize],
+    measures: &[Option<usize>],
+    event: &Event,
+    island: &Island,
+) -> Vec<Vec<usize>> {
+    let can_operate = |i: usize| {
+        let stage = &scheme.stages[i];
+        match stage.trigger {
+            StageTrigger::Breaker(_) => event.armed.contains(&i),
+            StageTrigger::Frequency { pickup_hz, .. } => {
+                measures[i].is_some_and(|s| island.contains(s))
+                    && (!island.on_utility || event.grid_low_hz.is_some_and(|low| low < pickup_hz))
+            }
+        }
+    };
+    let same_time = |a: usize, b: usize| {
+        let (x, y) = (&scheme.stages[a], &scheme.stages[b]);
+        x.delay_s == y.delay_s
+            && match (x.trigger, y.trigger) {
+                (StageTrigger::Breaker(_), StageTrigger::Breaker(_)) => true,
+                (tx, ty) => tx == ty,
+            }
+    };
+    let mut groups: Vec<Vec<usize>> = Vec::new();
+    for i in order.iter().copied().filter(|&i| can_operate(i)) {
+        match groups.last_mut() {
+            Some(g) if same_time(g[0], i) => g.push(i),
+            _ => groups.push(vec![i]),
+        }
+    }
+    groups
+}
+
+/// One stage's broken rule, gathered over every place it happens.
+#[derive(Default)]
+struct Gathered {
+    /// Whether the stage opens each load (by index) too early somewhere.
+    opened: Vec<bool>,
+    /// Lower-ranked loads left connected meanwhile, by (rank, load index); at most
+    /// [`LOADS_SHOWN`] + 1 are kept, enough to say that there are more.
+    left_on: BTreeSet<(u32, usize)>,
+    /// The first [`PLACES_SHOWN`] event labels with their operating point indices.
+    places: Vec<(String, Vec<usize>)>,
+    /// Further (event, operating point) pairs where it also happens.
+    more: usize,
+}
+
+impl Gathered {
+    fn place(&mut self, label: &str, op: usize) {
+        if let Some((_, ops)) = self.places.iter_mut().find(|(l, _)| l == label) {
+            if !ops.contains(&op) {
+                ops.push(op);
+            }
+        } else if self.places.len() < PLACES_SHOWN {
+            self.places.push((label.to_string(), vec![op]));
+        } else {
+            self.more += 1;
+        }
+    }
+}
+
+/// How many left-connected loads a finding names before it says "and more".
+const LOADS_SHOWN: usize = 12;
+
+/// Every rank-order finding, one per stage and rule, naming the loads and where it happens; the
+/// notes on frequency stages that open loads outside the island they measure in; and which events
+/// were judged, in words.
+///
+/// Cost: for each event, O(sections + loads + islands × stages + loads listed in stages ×
+/// [`LOADS_SHOWN`]); memory does not grow with the number of events.
+pub fn rank_order(
+    plant: &Plant,
+    scheme: &Scheme,
+    cases: Option<&CaseSet>,
+) -> (Vec<Finding>, Vec<Finding>, String) {
+    let n_loads = plant.loads.len();
+    let in_a_stage: Vec<bool> = (0..n_loads)
+        .map(|l| scheme.stages.iter().any(|s| s.sheds.contains(&l)))
+        .collect();
+    let order = scheme.operating_order();
+    let mut position = vec![0; scheme.stages.len()];
+    for (k, &i) in order.iter().enumerate() {
+        position[i] = k;
+    }
+    // Every load, by rank then index: filtered per island, the walk's "lowest still connected".
+    let mut by_rank: Vec<usize> = (0..n_loads).collect();
+    by_rank.sort_by_key(|&l| (plant.loads[l].rank, l));
+    // The hot loop reads these compact copies rather than the load records.
+    let rank: Vec<u32> = plant.loads.iter().map(|l| l.rank).collect();
+    let section: Vec<usize> = plant.loads.iter().map(|l| l.section).collect();
+    let sheddable: Vec<bool> = plant.loads.iter().map(|l| !l.never_shed).collect();
+    let measures: Vec<Option<usize>> = scheme
+        .stages
+        .iter()
+        .map(|s| s.measuring_section(plant))
+        .collect();
+    // Keyed by (stage position in operating order, rule) for a stable order.
+    // By stage position in operating order × 2 + rule, so the findings come out in that order.
+    let mut found: Vec<Option<Gathered>> = (0..2 * order.len()).map(|_| None).collect();
+    let mut touched_flag = vec![false; found.len()];
+    // By stage: loads it opens in another island than the one it measures in, and where first.
+    let mut elsewhere: Vec<Option<(BTreeSet<(u32, usize)>, String)>> =
+        vec![None; scheme.stages.len()];
+    let mut on = vec![false; n_loads];
+    let mut slot = vec![0; n_loads];
+    let basis = for_each_event(plant, scheme, cases, &mut |event: &Event| {
+        let load_mw = &plant.operating_points[event.op].load_mw;
+        // Findings this event adds to: its place is recorded once for each.
+        let mut touched: Vec<usize> = Vec::new();
+        // Sheddable loads still connected, lowest rank first, bucketed by island in one pass.
+        let mut island_of_section = vec![usize::MAX; plant.sections.len()];
+        for (k, island) in event.islands.iter().enumerate() {
+            for &sec in &island.sections {
+                island_of_section[sec] = k;
+            }
+        }
+        let mut buckets: Vec<Vec<usize>> = vec![Vec::new(); event.islands.len()];
+        for &l in &by_rank {
+            let k = island_of_section[section[l]];
+            if k != usize::MAX && sheddable[l] && load_mw[l] > 0.0 && !event.already_open[l] {
+                buckets[k].push(l);
+            }
+        }
+        // A frequency stage that can operate and opens loads outside its own island.
+        for (i, stage) in scheme.stages.iter().enumerate() {
+            let (StageTrigger::Frequency { pickup_hz, .. }, Some(m)) = (stage.trigger, measures[i])
+            else {
+                continue;
+            };
+            let home = island_of_section[m];
+            let island = &event.islands[home];
+            if island.on_utility && !event.grid_low_hz.is_some_and(|low| low < pickup_hz) {
+                continue;
+            }
+            for &l in &stage.sheds {
+                if island_of_section[section[l]] != home && load_mw[l] > 0.0 {
+                    let (loads, _) = elsewhere[i].get_or_insert_with(|| {
+                        (
+                            BTreeSet::new(),
+                            format!(
+                                "{}, at {}",
+                                event.label, plant.operating_points[event.op].id
+                            ),
+                        )
+                    });
+                    loads.insert((rank[l], l));
+                }
+            }
+        }
+        for (island, island_loads) in event.islands.iter().zip(&buckets) {
+            // Loads some stage lists, still connected, as a list linked in rank order (opening
+            // one unlinks it); loads in no stage stay connected throughout.
+            let staged: Vec<usize> = island_loads
+                .iter()
+                .copied()
+                .filter(|&l| in_a_stage[l])
+                .collect();
+            let unstaged: Vec<usize> = island_loads
+                .iter()
+                .copied()
+                .filter(|&l| !in_a_stage[l])
+                .collect();
+            let end = staged.len();
+            let mut next: Vec<usize> = (1..=end).collect();
+            let mut prev: Vec<usize> = (0..end).map(|k| k.wrapping_sub(1)).collect();
+            let mut head = if end > 0 { 0 } else { end };
+            for (k, &l) in staged.iter().enumerate() {
+                on[l] = true;
+                slot[l] = k;
+            }
+            for group in walk_order(scheme, &order, &measures, event, island) {
+                let opened: Vec<(usize, usize)> = group
+                    .iter()
+                    .flat_map(|&s| scheme.stages[s].sheds.iter().map(move |&l| (s, l)))
+                    .filter(|&(_, l)| on[l])
+                    .collect();
+                for &(_, l) in &opened {
+                    if !std::mem::replace(&mut on[l], false) {
+                        continue;
+                    }
+                    let k = slot[l];
+                    if prev[k] == usize::MAX {
+                        head = next[k];
+                    } else {
+                        next[prev[k]] = next[k];
+                    }
+                    if next[k] < end {
+                        prev[next[k]] = prev[k];
+                    }
+                }
+                for &(s, l) in &opened {
+                    let rank_l = rank[l];
+                    // Rule 0: a lower-ranked load some stage lists is still connected; rule 1: a
+                    // lower-ranked load in no stage is connected. No allocation on this path.
+                    for rule in [0u8, 1] {
+                        let first = match rule {
+                            0 => (head < end).then(|| staged[head]),
+                            _ => unstaged.first().copied(),
+                        };
+                        if !first.is_some_and(|m| rank[m] < rank_l) {
+                            continue;
+                        }
+                        let key = 2 * position[s] + usize::from(rule);
+                        let g = found[key].get_or_insert_with(|| Gathered {
+                            opened: vec![false; n_loads],
+                            ..Gathered::default()
+                        });
+                        g.opened[l] = true;
+                        if !std::mem::replace(&mut touched_flag[key], true) {
+                            touched.push(key);
+                        }
+                        if g.left_on.len() > LOADS_SHOWN {
+                            continue;
+                        }
+                        if rule == 0 {
+                            let mut k = head;
+                            while k < end
+                                && rank[staged[k]] < rank_l
+                                && g.left_on.len() <= LOADS_SHOWN
+                            {
+                                g.left_on.insert((rank[staged[k]], staged[k]));
+                                k = next[k];
+                            }
+                        } else {
+                            for &m in unstaged.iter().take_while(|&&m| rank[m] < rank_l) {
+                                if g.left_on.len() > LOADS_SHOWN {
+                                    break;
+                                }
+                                g.left_on.insert((rank[m], m));
+                            }
+                        }
+                    }
+                }
+            }
+            for &l in &staged {
+                on[l] = false;
+            }
+        }
+        for key in touched {
+            touched_flag[key] = false;
+            if let Some(g) = found[key].as_mut() {
+                g.place(&event.label, event.op);
+            }
+        }
+    });
+    let names = |set: &BTreeSet<(u32, usize)>, cap: usize| -> String {
+        let mut out: Vec<String> = set
+            .iter()
+            .take(cap)
+            .map(|&(r, m)| format!("{} (rank {r})", plant.loads[m].id))
+            .collect();
+        if set.len() > cap {
+            out.push("more".to_string());
+        }
+        out.join(", ")
+    };
+    let findings = found
+        .into_iter()
+        .enumerate()
+        .filter_map(|(key, g)| g.map(|g| (key / 2, key % 2, g)))
+        .map(|(pos, rule, g)| {
+            let opened: BTreeSet<(u32, usize)> = (0..n_loads)
+                .filter(|&l| g.opened[l])
+                .map(|l| (rank[l], l))
+                .collect();
+            let rule = if rule == 0 {
+                "rank-order"
+            } else {
+                "unassigned-lower-rank"
+            };
+            let verb = if g.left_on.len() == 1 { "is" } else { "are" };
+            let what = if rule == "rank-order" {
+                format!("{verb} still connected")
+            } else {
+                format!("{verb} connected and in no stage")
+            };
+            let mut places: Vec<String> = g
+                .places
+                .iter()
+                .map(|(label, ops)| {
+                    let ops: Vec<&str> = ops
+                        .iter()
+                        .map(|&o| plant.operating_points[o].id.as_str())
+                        .collect();
+                    format!("{label}, at {}", ops.join(", "))
+                })
+                .collect();
+            if g.more > 0 {
+                places.push(format!(
+                    "and {} more (event, operating point) pair(s)",
+                    g.more
+                ));
+            }
+            Finding {
+                rule,
+                message: format!(
+                    "stage {} opens {} while lower-ranked {} of the same island {what} ({})",
+                    scheme.stages[order[pos]].id,
+                    names(&opened, usize::MAX),
+                    names(&g.left_on, LOADS_SHOWN),
+                    places.join("; ")
+                ),
+            }
+        })
+        .collect();
+    let notes = order
+        .iter()
+        .filter_map(|&i| elsewhere[i].as_ref().map(|e| (i, e)))
+        .map(|(i, (loads, place))| {
+            let sec = &plant.sections[measures[i].unwrap_or(0)].id;
+            Finding {
+                rule: "measured-elsewhere",
+                message: format!(
+                    "stage {} measures at {sec}; once its loads are in different islands ({place}) it also opens {} on {sec}'s frequency, and the rank rule does not count them there",
+                    scheme.stages[i].id,
+                    names(loads, LOADS_SHOWN)
+                ),
+            }
+        })
+        .collect();
+    (findings, notes, basis)
+}
