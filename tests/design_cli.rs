@@ -17,7 +17,6 @@ const PLANT: &str = "examples/biorefinery/plant.yaml";
 const CASES: &str = "examples/biorefinery/cases.yaml";
 
 #[test]
-#[ignore = "design does not yet follow the per-event, per-island rank rule of docs/files.md (issue 12 item 8, design side)"]
 fn the_written_scheme_verifies_and_an_existing_file_is_kept() {
     let out = scratch_dir().join("proposed.yaml");
     let _ = std::fs::remove_file(&out);

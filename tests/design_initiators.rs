@@ -12,7 +12,7 @@
 use nadir::design::backstop::Backstop;
 use nadir::design::{self, DesignError, Source};
 use nadir::model::{BreakerRef, CaseSet, Plant, StageTrigger};
-use nadir::verify::audit::{audit, AuditRules};
+use nadir::verify::audit::{audit_cases, AuditRules};
 use nadir::verify::matrix::{verify, VerifyConfig};
 use std::path::Path;
 
@@ -48,7 +48,12 @@ fn a_turbine_trip_gets_a_stage_armed_by_the_turbine_breaker() {
     let m = verify(&plant, &cases, &p.scheme, &VerifyConfig::default(), &|| {});
     let failing: Vec<_> = m.rows.iter().filter(|r| !r.pass).collect();
     assert!(failing.is_empty(), "proposal fails: {failing:#?}");
-    let a = audit(&plant, &p.scheme, &AuditRules::for_plant(&plant));
+    let a = audit_cases(
+        &plant,
+        &p.scheme,
+        Some(&cases),
+        &AuditRules::for_plant(&plant),
+    );
     assert!(a.violations.is_empty(), "{:#?}", a.violations);
     // The realisable bound (relief no sooner than the armed stage's delay and breaker time, in
     // whole loads in rank order) lies between the ideal bound and what the table sheds.

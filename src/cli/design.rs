@@ -7,7 +7,7 @@ use super::check::{finish, fmt};
 use super::{load, Outcome};
 use nadir::design::backstop::Backstop;
 use nadir::design::{self, DesignError, FromOutcome, Proposal, Source};
-use nadir::verify::audit::{audit, AuditRules};
+use nadir::verify::audit::{audit_cases, AuditRules};
 use nadir::verify::matrix::{self, VerifyConfig};
 use std::io::IsTerminal;
 use std::path::PathBuf;
@@ -101,7 +101,13 @@ Nothing was written.\n",
         &|| bar.inc(1),
     );
     bar.finish_and_clear();
-    let violations = audit(&plant, &proposal.scheme, &AuditRules::for_plant(&plant)).violations;
+    let violations = audit_cases(
+        &plant,
+        &proposal.scheme,
+        Some(&cases),
+        &AuditRules::for_plant(&plant),
+    )
+    .violations;
 
     let mut text = format!("Wrote {}.\n\n", args.output.display());
     if let (Some(old), Some(outcome)) = (&existing, proposal.from) {
@@ -258,6 +264,9 @@ fn headroom_lines(p: &Proposal) -> String {
 /// that the table stays readable (the scheme file lists every load).
 fn loads_in_words(plant: &nadir::model::Plant, sheds: &[usize]) -> String {
     let one = |l: usize| format!("{} ({})", plant.loads[l].id, plant.loads[l].rank);
+    let mut sorted = sheds.to_vec();
+    sorted.sort_by_key(|&l| (plant.loads[l].rank, l));
+    let sheds = sorted.as_slice();
     match sheds {
         [first, .., last] if sheds.len() > 4 => {
             format!("{} … {}: {} loads", one(*first), one(*last), sheds.len())

@@ -129,7 +129,9 @@ pub fn add(ctx: &Context, best: &mut Sized) -> Backstop {
             .zip(&evals)
             .find(|(_, e)| e.verdict != Verdict::Holds);
         match failing {
-            None if ctx.well_formed(&layout, &assignment) => {
+            None if ctx.well_formed(&layout, &assignment)
+                && ctx.rules_clean(&ctx.scheme(&layout, &assignment)) =>
+            {
                 best.objective = ctx.objective(&evals);
                 best.layout = layout;
                 best.assignment = assignment;

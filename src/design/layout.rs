@@ -22,6 +22,10 @@ pub struct Layout {
     pub stages: Vec<Setting>,
     /// Stage ids to keep (from an existing table); generated when empty.
     pub ids: Vec<String>,
+    /// From an existing table: per stage, the loads it lists that an earlier stage (in
+    /// operating order) also lists, kept as they are; empty for a designed layout, whose first
+    /// frequency stage lists the armed stages' loads instead.
+    pub extra: Vec<Vec<usize>>,
 }
 
 impl Layout {
@@ -99,6 +103,7 @@ pub fn build(
     Layout {
         stages,
         ids: Vec::new(),
+        extra: Vec::new(),
     }
 }
 
@@ -124,7 +129,21 @@ pub fn of_scheme(plant: &Plant, scheme: &Scheme) -> (Layout, Vec<usize>) {
         })
         .collect();
     let ids = order.iter().map(|&k| scheme.stages[k].id.clone()).collect();
-    (Layout { stages, ids }, order)
+    let mut seen: Vec<usize> = Vec::new();
+    let extra = order
+        .iter()
+        .map(|&k| {
+            let again: Vec<usize> = scheme.stages[k]
+                .sheds
+                .iter()
+                .copied()
+                .filter(|l| seen.contains(l))
+                .collect();
+            seen.extend(scheme.stages[k].sheds.iter().copied());
+            again
+        })
+        .collect();
+    (Layout { stages, ids, extra }, order)
 }
 
 /// The table of a layout with each candidate load's stage position; loads are listed in
@@ -140,7 +159,7 @@ pub fn scheme(
 ) -> Scheme {
     let mut armed = 0;
     let mut uf = 0;
-    let stages = layout
+    let stages: Vec<Stage> = layout
         .stages
         .iter()
         .enumerate()
@@ -187,11 +206,53 @@ pub fn scheme(
             }
         })
         .collect();
+    let mut stages: Vec<Stage> = stages;
+    // Rank order holds in every event (docs/design.md): an event that opens no arming breaker
+    // walks the frequency stages from the first, so the first frequency stage also lists the
+    // armed stages' loads (a load opened once is not opened again).
+    if !layout.extra.is_empty() {
+        for (stage, extra) in stages.iter_mut().zip(&layout.extra) {
+            for &l in extra {
+                if !stage.sheds.contains(&l) {
+                    stage.sheds.push(l);
+                }
+            }
+        }
+    } else if let Some(f) = first_frequency(layout) {
+        let armed: Vec<usize> = (0..f).flat_map(|k| stages[k].sheds.clone()).collect();
+        for l in armed {
+            if !stages[f].sheds.contains(&l) {
+                stages[f].sheds.push(l);
+            }
+        }
+    }
     Scheme {
         name: name.to_string(),
         measurement,
         stages,
     }
+}
+
+/// Position of the first frequency stage (the armed stages come before it), if any.
+pub fn first_frequency(layout: &Layout) -> Option<usize> {
+    layout
+        .stages
+        .iter()
+        .position(|s| matches!(s.trigger, StageTrigger::Frequency { .. }))
+}
+
+/// The stage positions whose loads open when the stages `operated` operate: with the first
+/// frequency stage, the armed stages' loads too (it lists them).
+pub fn effective(layout: &Layout, operated: &[usize]) -> Vec<usize> {
+    let mut out = operated.to_vec();
+    if let Some(f) = first_frequency(layout) {
+        if operated.contains(&f) {
+            out.extend(0..f);
+        }
+    }
+    out.sort_unstable();
+    out.dedup();
+    out
 }
 
 #[cfg(test)]

@@ -164,6 +164,7 @@ pub fn design(
             return Ok(finish(
                 &ctx,
                 &bounds,
+                None,
                 best,
                 None,
                 None,
@@ -231,9 +232,13 @@ pub fn design(
     let Some((best, source)) = chosen else {
         return Err(DesignError::NoLayout(why_no_layout(&ctx)));
     };
+    let exact = (from_outcome == Some(FromOutcome::Unchanged) && source == Source::Existing)
+        .then(|| from.cloned())
+        .flatten();
     let mut proposal = finish(
         &ctx,
         &bounds,
+        exact,
         best,
         baseline,
         from_outcome,
@@ -255,6 +260,7 @@ pub fn design(
 fn finish(
     ctx: &Context,
     bounds: &[Bound],
+    exact: Option<Scheme>,
     best: Sized,
     baseline: Option<Sized>,
     from: Option<FromOutcome>,
@@ -264,7 +270,8 @@ fn finish(
     replays: usize,
 ) -> Proposal {
     let (plant, cases) = (ctx.plant, ctx.cases);
-    let scheme = ctx.scheme(&best.layout, &best.assignment);
+    // A kept table is the existing one as written; else the table of the layout.
+    let scheme = exact.unwrap_or_else(|| ctx.scheme(&best.layout, &best.assignment));
     let realisable: Vec<f64> = ctx
         .rows
         .par_iter()
@@ -542,16 +549,10 @@ fn keep_existing(ctx: &Context, existing: &Scheme) -> (Option<Sized>, FromOutcom
             .all(|&l| ctx.loads.iter().any(|&(i, _)| i == l))
     });
     if clean {
-        let scheme = ctx.scheme(&layout, &start);
-        let evals = ctx.evaluate_all(&scheme);
+        // The existing table itself, as written (its stages' order and load lists).
+        let evals = ctx.evaluate_all(existing);
         let runs = evals.len();
-        let audit_ok = crate::verify::audit::audit(
-            ctx.plant,
-            &scheme,
-            &crate::verify::audit::AuditRules::for_plant(ctx.plant),
-        )
-        .violations
-        .is_empty();
+        let audit_ok = ctx.rules_clean(existing);
         if audit_ok && evals.iter().all(|e| e.verdict == Verdict::Holds) {
             let objective = ctx.objective(&evals);
             let s = Sized {

@@ -99,6 +99,19 @@ impl<'a> Context<'a> {
         })
     }
 
+    /// Whether `scheme` breaks none of the plant's rules, rank order judged in every event of
+    /// the cases (the audit's own check).
+    pub fn rules_clean(&self, scheme: &Scheme) -> bool {
+        crate::verify::audit::audit_cases(
+            self.plant,
+            scheme,
+            Some(self.cases),
+            &crate::verify::audit::AuditRules::for_plant(self.plant),
+        )
+        .violations
+        .is_empty()
+    }
+
     /// Replay every row.
     pub fn evaluate_all(&self, scheme: &Scheme) -> Vec<RowEval> {
         self.rows
@@ -223,6 +236,9 @@ pub enum NotSized {
     Infeasible,
     /// The loop came back to an assignment it had tried.
     Stuck,
+    /// The table holds every row but breaks one of the plant's rules (the audit's, with the
+    /// cases' events): several armed stages whose rank order no single assignment can keep.
+    Rules,
     Solver(String),
 }
 
@@ -263,6 +279,9 @@ pub fn size(
             .filter(|&r| evals[r].verdict != Verdict::Holds)
             .collect();
         if failing.is_empty() && ctx.well_formed(layout, &assignment) {
+            if !ctx.rules_clean(&scheme) {
+                return Err(NotSized::Rules);
+            }
             let objective = ctx.objective(&evals);
             let sized = Sized {
                 layout: layout.clone(),
@@ -289,7 +308,7 @@ pub fn size(
                 add(&mut requirements, req);
             }
         }
-        let cost = costs(ctx, stages, &evals);
+        let cost = costs(ctx, layout, stages, &evals);
         let measure: Vec<Option<usize>> = layout.stages.iter().map(|s| s.section).collect();
         let problem = Problem {
             loads: &ctx.loads,
@@ -353,7 +372,10 @@ pub fn trim(ctx: &Context, mut best: Sized) -> Sized {
                 let (evals, n) = ctx.evaluate_memo(&ctx.scheme(&best.layout, &a), memo);
                 runs += n;
                 let ok = evals.iter().all(|e| e.verdict == Verdict::Holds);
-                if ok && ctx.well_formed(&best.layout, &a) {
+                if ok
+                    && ctx.well_formed(&best.layout, &a)
+                    && ctx.rules_clean(&ctx.scheme(&best.layout, &a))
+                {
                     let objective = ctx.objective(&evals);
                     if tried.as_ref().is_none_or(|(_, _, o)| objective < *o - 1e-9) {
                         tried = Some((a, evals, objective));
@@ -419,6 +441,7 @@ pub fn trim(ctx: &Context, mut best: Sized) -> Sized {
                 best.runs += r;
                 if evals.iter().all(|e| e.verdict == Verdict::Holds)
                     && ctx.well_formed(&best.layout, &a)
+                    && ctx.rules_clean(&ctx.scheme(&best.layout, &a))
                 {
                     let objective = ctx.objective(&evals);
                     let bar = found.as_ref().map_or(best.objective, |f| f.2);
@@ -455,7 +478,7 @@ fn add(reqs: &mut Vec<Requirement>, new: Requirement) {
 
 /// Objective coefficient of each candidate load in each stage, from which stages operated in
 /// each row at the last replay; a small cost on every assigned MW keeps unneeded loads unshed.
-fn costs(ctx: &Context, stages: usize, evals: &[RowEval]) -> Vec<Vec<f64>> {
+fn costs(ctx: &Context, layout: &Layout, stages: usize, evals: &[RowEval]) -> Vec<Vec<f64>> {
     let first = 0;
     ctx.loads
         .iter()
@@ -464,7 +487,7 @@ fn costs(ctx: &Context, stages: usize, evals: &[RowEval]) -> Vec<Vec<f64>> {
             let mut c = vec![1e-3 * rw * ctx.mw[first][i].max(1e-3); stages];
             for (&(ci, op), e) in ctx.rows.iter().zip(evals) {
                 let w = ctx.cases.cases[ci].weight;
-                for &k in &e.operated {
+                for k in layout::effective(layout, &e.operated) {
                     c[k] += w * rw * ctx.mw[op][i];
                 }
             }
@@ -496,11 +519,12 @@ fn requirement(
         let scheme = ctx.scheme(layout, trial);
         evaluate(ctx.plant, case, op, &scheme, &ctx.sim).verdict
     };
+    let covered = layout::effective(layout, &eval.operated);
     let opened = |trial: &[Option<usize>]| -> f64 {
         ctx.loads
             .iter()
             .zip(trial)
-            .filter(|(_, a)| a.is_some_and(|k| eval.operated.contains(&k)))
+            .filter(|(_, a)| a.is_some_and(|k| covered.contains(&k)))
             .map(|((i, _), _)| ctx.mw[op][*i])
             .sum()
     };
@@ -530,12 +554,15 @@ fn requirement(
                 };
                 let found = least(later.len(), |m| judge(&moved(m)) != Verdict::Short);
                 let trial = moved(found.unwrap_or(later.len()));
-                let upto: Vec<usize> = eval
-                    .operated
-                    .iter()
-                    .copied()
-                    .filter(|&k| k <= stage)
-                    .collect();
+                let upto: Vec<usize> = layout::effective(
+                    layout,
+                    &eval
+                        .operated
+                        .iter()
+                        .copied()
+                        .filter(|&k| k <= stage)
+                        .collect::<Vec<_>>(),
+                );
                 let mw: f64 = ctx
                     .loads
                     .iter()
@@ -578,7 +605,7 @@ fn requirement(
             let trial = moved(m.unwrap_or(mine.len() - 1));
             let req = Requirement {
                 op,
-                stages: eval.operated.clone(),
+                stages: layout::effective(layout, &eval.operated),
                 mw: opened(&trial),
                 at_least: false,
             };
