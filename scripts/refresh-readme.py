@@ -25,9 +25,10 @@ def design_block():
     subprocess.run(["rm", "-f", "proposed.yaml"])
     lines = out.split("\n")
     i = next(k for k, l in enumerate(lines) if l.startswith("Verification of"))
-    verdict = [l for l in lines[i:]
-               if l.startswith("All ") or " FAIL." in l or l.startswith("Audit violations")
-               or l.startswith("  - ")]
+    tail = lines[i:]
+    audit = next((k for k, l in enumerate(tail) if l.startswith("Audit violations")), len(tail))
+    verdict = [l for l in tail[:audit] if l.startswith("All ") or " FAIL." in l]
+    verdict += [l for l in tail[audit:] if l.startswith("Audit violations") or l.startswith("  - ")]
     return "\n".join(
         ["$ nadir design " + P + " --cases " + C + " -o proposed.yaml"]
         + [l for l in lines[:i]]

@@ -154,7 +154,7 @@ fn a_load_in_two_stages_is_shed_once_and_counted_once() {
         r.stdout
     );
     assert!(
-        r.stdout.contains("shed             3.00 MW"),
+        r.stdout.contains("shed by stages   3.00 MW"),
         "{}",
         r.stdout
     );
@@ -170,7 +170,7 @@ fn a_load_in_two_stages_is_shed_once_and_counted_once() {
         "json",
     ]);
     let json: serde_json::Value = serde_json::from_str(&v.stdout).expect(&v.stdout);
-    let rows = json["rows"].as_array().or(json.as_array()).expect("rows");
+    let rows = json["runs"].as_array().expect("runs");
     let row = rows
         .iter()
         .find(|r| r["case"] == "grid-loss" && r["operating_point"] == "full")

@@ -33,7 +33,7 @@ fn check_on_the_demo_prints_every_table() {
         "full-rate",
         "utility-loss",
         "uf-6",
-        "ROCOF Hz/s",
+        "ROCOF",
         "qualified protection engineer",
     ] {
         assert!(

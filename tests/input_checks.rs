@@ -86,7 +86,7 @@ fn a_rating_in_kva_is_warned_before_any_result_and_the_verdict_says_so() {
     assert!(out.starts_with(&expected), "got:\n{out}");
     assert!(out.contains("All 12 case × operating-point runs hold every criterion."));
     assert!(out.contains(
-        "Input warnings: 1 value(s) flagged above are not acknowledged; this verdict assumes they are right."
+        "Input warnings: 1 value(s) flagged above are not acknowledged; these results assume they are right."
     ));
     // The same warning from every verb that reads the plant, before its output.
     for args in [
@@ -104,6 +104,10 @@ fn a_rating_in_kva_is_warned_before_any_result_and_the_verdict_says_so() {
     ] {
         let (_, out) = nadir_merged("kva", &args);
         assert!(out.starts_with(&expected), "{args:?} gave:\n{out}");
+        assert!(
+            out.ends_with("Input warnings: 1 value(s) flagged above are not acknowledged; these results assume they are right.\n"),
+            "{args:?} gave:\n{out}"
+        );
     }
 }
 
@@ -555,7 +559,7 @@ fn the_report_shows_open_warnings_in_a_box_above_the_verdict() {
     ]);
     assert_eq!(run.code, 0, "{}", run.stderr);
     assert!(run.stdout.contains(
-        "Input warnings: 1 value(s) flagged above are not acknowledged; this verdict assumes they are right."
+        "Input warnings: 1 value(s) flagged above are not acknowledged; these results assume they are right."
     ));
     let html = std::fs::read_to_string(&out).unwrap();
     let boxed = html

@@ -208,8 +208,10 @@ fn every_output_flag_follows_one_overwrite_rule() {
         names(&dir.join("schemas")),
         [
             "cases.schema.json",
+            "compare-output.schema.json",
             "plant.schema.json",
-            "scheme.schema.json"
+            "scheme.schema.json",
+            "verify-output.schema.json"
         ]
     );
     assert!(temporaries(&dir).is_empty());

@@ -547,8 +547,10 @@ fn finite_problems(run: &Run) -> Vec<String> {
     };
     chk("nadir_hz", run.nadir_hz);
     chk("nadir_at_s", run.nadir_at_s);
-    chk("peak_after_nadir_hz", run.peak_after_nadir_hz);
-    chk("peak_at_s", run.peak_at_s);
+    if let (Some(hz), Some(at)) = (run.peak_hz, run.peak_at_s) {
+        chk("peak_hz", hz);
+        chk("peak_at_s", at);
+    }
     chk("max_rocof_hz_per_s", run.max_rocof_hz_per_s);
     chk("final_hz", run.final_hz);
     chk("shed_mw", run.shed_mw);
@@ -567,8 +569,8 @@ fn finite_problems(run: &Run) -> Vec<String> {
             ("to_s", i.to_s),
             ("nadir_hz", i.nadir_hz),
             ("nadir_at_s", i.nadir_at_s),
-            ("peak_hz", i.peak_hz),
-            ("peak_at_s", i.peak_at_s),
+            ("peak_hz", i.peak_hz.unwrap_or(0.0)),
+            ("peak_at_s", i.peak_at_s.unwrap_or(0.0)),
             ("final_hz", i.final_hz),
             ("max_rocof_hz_per_s", i.max_rocof_hz_per_s),
             ("shed_mw", i.shed_mw),
@@ -955,7 +957,8 @@ proptest! {
             }
         }
         prop_assert_eq!(run.shed_mw, 0.0);
-        for v in [run.nadir_hz, run.peak_after_nadir_hz, run.final_hz] {
+        assert!(run.peak_hz.is_none_or(|v| (v - f0).abs() < 1e-6));
+        for v in [run.nadir_hz, run.final_hz] {
             prop_assert!((v - f0).abs() < 1e-6, "frequency {v} Hz, nominal {f0}");
         }
         let trace = run.trace.as_ref().expect("trace was asked for");

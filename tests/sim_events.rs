@@ -90,8 +90,8 @@ fn all_finite(run: &Run) -> bool {
     let mut xs = vec![
         run.nadir_hz,
         run.nadir_at_s,
-        run.peak_after_nadir_hz,
-        run.peak_at_s,
+        run.peak_hz.unwrap_or(0.0),
+        run.peak_at_s.unwrap_or(0.0),
         run.max_rocof_hz_per_s,
         run.final_hz,
         run.shed_mw,
@@ -102,8 +102,8 @@ fn all_finite(run: &Run) -> bool {
             i.to_s,
             i.nadir_hz,
             i.nadir_at_s,
-            i.peak_hz,
-            i.peak_at_s,
+            i.peak_hz.unwrap_or(0.0),
+            i.peak_at_s.unwrap_or(0.0),
             i.final_hz,
         ]);
         xs.push(i.max_rocof_hz_per_s);

@@ -12,7 +12,7 @@ use nadir::screening::{
 use std::path::PathBuf;
 use tabled::builder::Builder;
 use tabled::settings::object::{Columns, Rows};
-use tabled::settings::{Alignment, Style};
+use tabled::settings::{Alignment, Style, Width};
 
 /// Print screening figures for a plant, its cases and a shedding scheme.
 #[derive(Debug, clap::Args)]
@@ -29,6 +29,10 @@ pub struct CheckArgs {
     /// Output format.
     #[arg(long, value_enum, default_value_t = Format::Table)]
     pub format: Format,
+    /// Every column on one line (wider than 120 columns): balance and online MVA per point,
+    /// each stage's own MW and cumulative share of the load.
+    #[arg(long)]
+    pub wide: bool,
 }
 
 /// How `check` writes its figures.
@@ -57,40 +61,50 @@ pub fn run(args: CheckArgs) -> anyhow::Result<Outcome> {
     let figures = screening::screen(&plant, cases.as_ref(), scheme.as_ref());
     match args.format {
         Format::Json => super::write_stdout(&(serde_json::to_string_pretty(&figures)? + "\n"))?,
-        Format::Table => super::write_stdout(&render_tables(&figures))?,
+        Format::Table => super::write_stdout(&render_tables(&figures, args.wide))?,
     }
     // Screening checks no criterion, so it has nothing to fail.
     Ok(Outcome::Pass)
 }
 
 /// Every table, with titles and the closing caution.
-pub fn render_tables(s: &Screening) -> String {
+pub fn render_tables(s: &Screening, wide: bool) -> String {
     let mut out = format!(
         "{} — {} Hz\n\nOperating points (utility breaker closed, before any event)\n{}\n",
         s.plant,
         fmt(s.nominal_hz, 0),
-        points_table(s)
+        points_table(s, wide)
     );
     if !s.cases.is_empty() {
         out.push_str(&format!(
             "\nCases (no shedding, no protection; ΔP > 0 is a shortage)\n{}\n",
-            cases_table(&s.cases)
+            cases_table(&s.cases, wide)
         ));
     }
     if let Some(scheme) = &s.scheme {
         out.push_str(&format!(
-            "\nScheme {} (in order of operation; loads at each point's values)\n{}\n",
+            "\nScheme {} (in order of operation; loads at each point's values)\n{}\n{}",
             scheme.scheme,
-            stages_table(scheme)
+            stages_table(scheme, wide),
+            super::verify::wrap_text(
+                "The cumulative MW counts a load listed in several stages once.",
+                "",
+                ""
+            )
         ));
     }
+    if !wide {
+        out.push_str("--wide shows every column on one line.\n");
+    }
     out.push('\n');
-    out.push_str(CAUTION);
-    out.push('\n');
+    out.push_str(&super::verify::wrap_text(CAUTION, "", ""));
     out
 }
 
-fn points_table(s: &Screening) -> String {
+fn points_table(s: &Screening, wide: bool) -> String {
+    if !wide {
+        return narrow_points_table(s);
+    }
     let mut b = Builder::default();
     b.push_record([
         "point",
@@ -127,9 +141,43 @@ fn points_table(s: &Screening) -> String {
     finish(b, 2..12)
 }
 
-fn cases_table(cases: &[CaseFigures]) -> String {
+/// The operating points in 120 columns: two-line headings, the island's sections over two lines,
+/// without the balance (within tolerance at every accepted point) and the online MVA.
+fn narrow_points_table(s: &Screening) -> String {
     let mut b = Builder::default();
     b.push_record([
+        "point",
+        "island",
+        "load\nMW",
+        "gen\nMW",
+        "import\nMW",
+        "reserve\nMW",
+        "E_k\nMW·s",
+        "H_sys\ns",
+        "shed-\nable MW",
+        "never-\nshed MW",
+    ]);
+    for p in &s.operating_points {
+        for i in &p.islands {
+            b.push_record([
+                p.operating_point.clone(),
+                island_name(&i.sections, i.on_utility).replace(" (utility)", "\n(utility)"),
+                fmt(i.load_mw, 2),
+                fmt(i.generation_mw, 2),
+                fmt(i.import_mw, 2),
+                fmt(i.spinning_reserve_mw, 2),
+                fmt(i.generator_energy_mws + i.motor_energy_mws, 1),
+                i.h_sys_s.map_or("-".into(), |h| fmt(h, 2)),
+                fmt(i.sheddable_mw, 2),
+                fmt(i.never_shed_mw, 2),
+            ]);
+        }
+    }
+    finish(b, 2..10)
+}
+
+fn cases_table(cases: &[CaseFigures], wide: bool) -> String {
+    let mut rows: Vec<Vec<String>> = vec![[
         "case",
         "point",
         "start",
@@ -137,10 +185,12 @@ fn cases_table(cases: &[CaseFigures]) -> String {
         "island",
         "ΔP MW",
         "E_k MW·s",
-        "ROCOF Hz/s",
+        "initial ROCOF Hz/s",
         "steady Hz",
         "note",
-    ]);
+    ]
+    .map(String::from)
+    .to_vec()];
     for c in cases {
         let start = match c.start {
             screening::StartKind::Connected => "connected",
@@ -166,7 +216,7 @@ fn cases_table(cases: &[CaseFigures]) -> String {
                 fmt(*import_mw, 2),
                 fmt(*headroom_mw, 2)
             ));
-            b.push_record(row);
+            rows.push(row);
             continue;
         }
         let states = [("first", &c.after_first), ("all", &c.after_all)];
@@ -182,7 +232,7 @@ fn cases_table(cases: &[CaseFigures]) -> String {
                     note = join(&[event_note.clone(), note]);
                 }
                 row.push(note);
-                b.push_record(row);
+                rows.push(row);
             }
         }
         if let Some(p) = &c.utility_profile {
@@ -205,10 +255,77 @@ fn cases_table(cases: &[CaseFigures]) -> String {
                 fmt(p.min_at_s, 1),
                 fmt(p.max_fall_hz_per_s, 2)
             ));
-            b.push_record(row);
+            rows.push(row);
         }
     }
-    finish(b, 5..9)
+    if wide {
+        let mut b = Builder::default();
+        for r in rows {
+            b.push_record(r);
+        }
+        return finish(b, 5..9);
+    }
+    // In 120 columns: the start beside the point, each case id once and broken at hyphens, the
+    // island's "(utility)" and the event time on a second line, the note wrapped.
+    let mut b = Builder::default();
+    b.push_record([
+        "case",
+        "point",
+        "after",
+        "island",
+        "ΔP\nMW",
+        "E_k\nMW·s",
+        "initial\nROCOF\nHz/s",
+        "steady\nHz",
+        "note",
+    ]);
+    let mut last_case = String::new();
+    for r in rows.into_iter().skip(1) {
+        let case = if r[0] == last_case {
+            String::new()
+        } else {
+            last_case = r[0].clone();
+            break_at_hyphens(&r[0], 16)
+        };
+        let point = if r[2] == "islanded" {
+            format!("{}\n(islanded)", r[1])
+        } else {
+            r[1].clone()
+        };
+        b.push_record([
+            case,
+            point,
+            r[3].replace(" (t=", "\nt=").replace(" s)", " s"),
+            r[4].replace(" (utility)", "\n(utility)"),
+            r[5].clone(),
+            r[6].clone(),
+            r[7].clone(),
+            r[8].clone(),
+            r[9].clone(),
+        ]);
+    }
+    let mut t = b.build();
+    t.with(Style::sharp());
+    t.modify(Columns::new(4..8), Alignment::right());
+    t.modify(Rows::first(), Alignment::left());
+    t.modify(Columns::new(8..9), Width::wrap(19).keep_words(true));
+    t.to_string()
+}
+
+/// An id on lines of at most `width` characters, broken after hyphens where it can be.
+fn break_at_hyphens(id: &str, width: usize) -> String {
+    let mut out = String::new();
+    let mut line = 0;
+    for part in id.split_inclusive('-') {
+        let n = part.chars().count();
+        if line > 0 && line + n > width {
+            out.push('\n');
+            line = 0;
+        }
+        out.push_str(part);
+        line += n;
+    }
+    out
 }
 
 fn island_cells(i: &IslandResponse) -> Vec<String> {
@@ -267,14 +384,23 @@ fn state_note(s: &StateFigures) -> String {
     parts.join("; ")
 }
 
-fn stages_table(scheme: &screening::SchemeFigures) -> String {
+fn stages_table(scheme: &screening::SchemeFigures, wide: bool) -> String {
     let mut b = Builder::default();
     let mut header: Vec<String> = ["stage", "trigger", "delay s", "breaker s", "loads"]
         .map(String::from)
         .to_vec();
+    if !wide {
+        header = ["stage", "trigger", "delay\ns", "breaker\ns", "loads"]
+            .map(String::from)
+            .to_vec();
+    }
     for (op, load) in scheme.operating_points.iter().zip(&scheme.plant_load_mw) {
-        header.push(format!("{op} MW"));
-        header.push(format!("{op} cum. MW (% of {})", fmt(*load, 2)));
+        if wide {
+            header.push(format!("{op} MW"));
+            header.push(format!("{op} cum. MW (% of {})", fmt(*load, 2)));
+        } else {
+            header.push(format!("{op}\nMW (cum.)"));
+        }
     }
     b.push_record(header);
     for st in &scheme.stages {
@@ -301,17 +427,34 @@ fn stages_table(scheme: &screening::SchemeFigures) -> String {
             st.loads.len().to_string(),
         ];
         for k in 0..scheme.operating_points.len() {
-            row.push(fmt(st.mw[k], 2));
-            row.push(format!(
-                "{} ({} %)",
-                fmt(st.cumulative_mw[k], 2),
-                fmt(st.cumulative_pct_of_load[k], 1)
-            ));
+            if wide {
+                row.push(fmt(st.mw[k], 2));
+                row.push(format!(
+                    "{} ({} %)",
+                    fmt(st.cumulative_mw[k], 2),
+                    fmt(st.cumulative_pct_of_load[k], 1)
+                ));
+            } else {
+                row.push(format!(
+                    "{} ({})",
+                    fmt(st.mw[k], 2),
+                    fmt(st.cumulative_mw[k], 2)
+                ));
+            }
         }
         b.push_record(row);
     }
-    let n = 5 + 2 * scheme.operating_points.len();
-    finish(b, 2..n)
+    let per_point = if wide { 2 } else { 1 };
+    let n = 5 + per_point * scheme.operating_points.len();
+    if wide {
+        return finish(b, 2..n);
+    }
+    let mut t = b.build();
+    t.with(Style::sharp());
+    t.modify(Columns::new(2..n), Alignment::right());
+    t.modify(Rows::first(), Alignment::left());
+    t.modify(Columns::new(1..2), Width::wrap(18).keep_words(true));
+    t.to_string()
 }
 
 pub fn finish(b: Builder, numeric: std::ops::Range<usize>) -> String {

@@ -101,6 +101,7 @@ Nothing was written.\n",
         &|| bar.inc(1),
     );
     bar.finish_and_clear();
+    // The studied cases decide which breakers open together, as in `nadir audit --cases`.
     let violations = audit_cases(
         &plant,
         &proposal.scheme,
@@ -119,8 +120,9 @@ Nothing was written.\n",
     text.push('\n');
     text.push_str(&super::verify::render_table(
         &m,
-        &plant.name,
+        &plant,
         &proposal.scheme.name,
+        false,
     ));
     if !violations.is_empty() {
         text.push_str("\nAudit violations in the proposal:\n");

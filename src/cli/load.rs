@@ -30,7 +30,7 @@ pub fn verdict_caveat() -> Option<String> {
     let open = warnings_seen().iter().filter(|w| w.is_open()).count();
     (open > 0).then(|| {
         format!(
-            "Input warnings: {open} value(s) flagged above are not acknowledged; this verdict assumes they are right."
+            "Input warnings: {open} value(s) flagged above are not acknowledged; these results assume they are right."
         )
     })
 }

@@ -71,7 +71,9 @@ pub enum Outcome {
 /// Runs the chosen verb.
 pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
     load::set_deny_warnings(cli.deny_warnings);
-    match cli.command {
+    // verify and report put the caveat beside their verdict; every other verb gets it last.
+    let says_it_itself = matches!(cli.command, Command::Verify(_) | Command::Report(_));
+    let outcome = match cli.command {
         Command::Check(args) => check::run(args),
         Command::Schema(args) => schema::run(args),
         Command::Verify(args) => verify::run(args),
@@ -80,7 +82,14 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
         Command::Compare(args) => compare::run(args),
         Command::Report(args) => report::run(args),
         Command::Design(args) => design::run(args),
+    }?;
+    if !says_it_itself {
+        if let Some(caveat) = load::verdict_caveat() {
+            use std::io::Write;
+            let _ = writeln!(std::io::stderr(), "{caveat}");
+        }
     }
+    Ok(outcome)
 }
 
 /// A verb's output files, checked before any work against its inputs (`(role, path)`) and the one

@@ -1,15 +1,18 @@
 //! `nadir replay`: one case at one operating point, printed as an event log and a summary, with
 //! an optional CSV of the samples and an SVG plot.
 
-use super::check::fmt;
+use super::check::{finish, fmt};
+use super::verify::wrap_text;
 use super::{load, Outcome};
 use anyhow::bail;
-use nadir::model::{Plant, Scheme, StageTrigger};
+use nadir::model::{Case, Plant, Scheme, StageTrigger};
+use nadir::report::figures::{criteria_words, setting, FIGURES_NOTE};
 use nadir::report::svg::{self, FrequencyPlot, Level, LevelKind, Series};
-use nadir::sim::{self, Cause, EventKind, Run};
-use nadir::verify::criteria::judge;
+use nadir::sim::{self, Cause, EventKind, IslandEnd, Run};
+use nadir::verify::criteria::{judge, Observed};
 use nadir::verify::matrix::{observe, sim_config_for};
 use std::path::PathBuf;
+use tabled::builder::Builder;
 
 /// Replay one case at one operating point and show what happened.
 #[derive(Debug, clap::Args)]
@@ -112,22 +115,7 @@ pub fn run(args: ReplayArgs) -> anyhow::Result<Outcome> {
     for e in &run.events {
         out.push_str(&format!("  {:>9.4} s  {}\n", e.at_s, describe(&e.what)));
     }
-    out.push_str(&format!(
-        "\nSummary\n  nadir            {} Hz at {} s\n  peak after nadir {} Hz at {} s\n  max ROCOF        {} Hz/s over {} s\n  final            {} Hz at {} s\n  recovered above  {} Hz: {}\n  shed             {} MW ({} % of {} MW)\n",
-        fmt(run.nadir_hz, 3),
-        fmt(run.nadir_at_s, 3),
-        fmt(run.peak_after_nadir_hz, 3),
-        fmt(run.peak_at_s, 3),
-        fmt(run.max_rocof_hz_per_s, 2),
-        plant.criteria.rocof_window_s,
-        fmt(run.final_hz, 3),
-        fmt(case.duration_s, 1),
-        plant.criteria.recover_above_hz,
-        run.recovered_above_at_s.map(|t| format!("at {} s", fmt(t, 3))).unwrap_or_else(|| "never".into()),
-        fmt(run.shed_mw, 2),
-        fmt(percent(run.shed_mw, point.load_mw.iter().sum()), 1),
-        fmt(point.load_mw.iter().sum(), 2),
-    ));
+    out.push_str(&summary(&plant, case, op, &run, &observed));
     if failures.is_empty() {
         out.push_str("\nResult: every criterion holds.\n");
     } else {
@@ -146,13 +134,97 @@ pub fn run(args: ReplayArgs) -> anyhow::Result<Outcome> {
         target.write(svg::render(&plot).as_bytes())?;
         out.push_str(&format!("Plot written to {}\n", target.path().display()));
     }
-    out.push_str(&format!("{}\n", super::verify::CAUTION));
+    out.push_str("Criteria:\n");
+    for c in criteria_words(&plant.criteria) {
+        out.push_str(&wrap_text(&c.words, "  - ", "    "));
+    }
+    out.push_str(&wrap_text(super::verify::CAUTION, "", ""));
     super::write_stdout(&out)?;
     Ok(if failures.is_empty() {
         Outcome::Pass
     } else {
         Outcome::Fail
     })
+}
+
+/// The run's figures, with the meaning `verify` gives them, then one row per island.
+fn summary(plant: &Plant, case: &Case, op: usize, run: &Run, o: &Observed) -> String {
+    let c = &plant.criteria;
+    let load: f64 = plant.operating_points[op].load_mw.iter().sum();
+    let peak = match (o.peak_hz, o.peak_at_s) {
+        (Some(hz), Some(at)) => format!("{} Hz at {} s", fmt(hz, 3), fmt(at, 3)),
+        _ => "— (frequency never rose after the disturbance started)".into(),
+    };
+    let level = setting(c.recover_above_hz);
+    let recovery = match (o.went_below_recover_level, o.recovered_at_s, o.recovery_s) {
+        (false, _, _) => format!("— (never below {level} Hz)"),
+        (true, Some(at), Some(after)) => format!(
+            "{} s after the event at {} s (back above {level} Hz to stay from {} s)",
+            fmt(after, 2),
+            fmt(at - after, 2),
+            fmt(at, 3)
+        ),
+        _ => format!("never (below {level} Hz at the end of the run)"),
+    };
+    let mut out = format!(
+        "\nSummary\n  nadir            {} Hz at {} s\n  peak             {peak}\n  max ROCOF        {} Hz/s over {} s\n  final            {} Hz at {} s\n  recovery         {recovery}\n  shed by stages   {} MW ({} % of {} MW)\n  dropped on UV    {} MW\n",
+        fmt(o.nadir_hz, 3),
+        fmt(o.nadir_at_s, 3),
+        fmt(o.max_rocof_hz_per_s, 2),
+        setting(c.rocof_window_s),
+        fmt(run.final_hz, 3),
+        fmt(case.duration_s, 1),
+        fmt(run.shed_mw, 2),
+        fmt(percent(run.shed_mw, load), 1),
+        fmt(load, 2),
+        fmt(run.dropped_mw, 2),
+    );
+    out.push_str("\nIslands\n");
+    let mut b = Builder::default();
+    b.push_record([
+        "island".to_string(),
+        "sections".into(),
+        "from–to s".into(),
+        "nadir\nHz".into(),
+        "at s".into(),
+        "peak\nHz".into(),
+        "at s".into(),
+        "final\nHz".into(),
+        format!("ROCOF\nHz/s\nover {} s", setting(c.rocof_window_s)),
+        "shed\nMW".into(),
+        "UV\nMW".into(),
+        "end".into(),
+    ]);
+    for i in &run.islands {
+        b.push_record([
+            (i.index + 1).to_string(),
+            format!(
+                "{}{}",
+                i.sections.join("+"),
+                if i.on_utility { "\n(utility)" } else { "" }
+            ),
+            format!("{}–{}", fmt(i.from_s, 2), fmt(i.to_s, 2)),
+            fmt(i.nadir_hz, 3),
+            fmt(i.nadir_at_s, 2),
+            i.peak_hz.map_or_else(|| "—".into(), |v| fmt(v, 3)),
+            i.peak_at_s.map_or_else(|| "—".into(), |v| fmt(v, 2)),
+            fmt(i.final_hz, 3),
+            fmt(i.max_rocof_hz_per_s, 2),
+            fmt(i.shed_mw, 2),
+            fmt(i.dropped_mw, 2),
+            match i.end {
+                IslandEnd::Running => "running",
+                IslandEnd::Changed => "replaced",
+                IslandEnd::Collapsed => "COLLAPSED",
+                IslandEnd::Blackout => "BLACKOUT",
+            }
+            .into(),
+        ]);
+    }
+    out.push_str(&finish(b, 2..11));
+    out.push('\n');
+    out.push_str(&wrap_text(&format!("Figures: {FIGURES_NOTE}"), "", ""));
+    out
 }
 
 fn percent(part: f64, whole: f64) -> f64 {
@@ -249,7 +321,12 @@ fn csv_text(plant: &Plant, run: &Run) -> anyhow::Result<String> {
     };
     let mut w = csv::Writer::from_writer(Vec::new());
     let mut header = vec!["t_s".to_string()];
-    header.extend(plant.sections.iter().map(|s| format!("{}_hz", s.id)));
+    header.extend(
+        plant
+            .sections
+            .iter()
+            .map(|s| nadir::report::output::csv_cell(&format!("{}_hz", s.id))),
+    );
     header.push("shed_mw".into());
     w.write_record(&header)?;
     for (k, t) in trace.t_s.iter().enumerate() {

@@ -1,5 +1,6 @@
 //! `nadir schema`: the JSON Schemas of the three input files, generated from the raw serde types
-//! so that the field reference has one source (the doc comments in `nadir::input::raw`).
+//! so that the field reference has one source (the doc comments in `nadir::input::raw`), and of
+//! the JSON that `verify` and `compare` write (from `nadir::report::output`).
 //!
 //! Owns writing or printing the schemas; must not describe any field by hand.
 
@@ -7,11 +8,13 @@ use super::Outcome;
 use nadir::input::raw::{CasesFile, PlantFile, SchemeFile};
 use std::path::PathBuf;
 
-/// Write plant.schema.json, cases.schema.json and scheme.schema.json (JSON Schema 2020-12).
+/// Write the JSON Schemas (2020-12) of the input files (plant.schema.json, cases.schema.json,
+/// scheme.schema.json) and of the JSON output of verify and compare
+/// (verify-output.schema.json, compare-output.schema.json).
 #[derive(Debug, clap::Args)]
 pub struct SchemaArgs {
-    /// Folder to write the three files into (created if missing; existing files need --force);
-    /// without it one JSON object is printed whose keys are the three file names.
+    /// Folder to write the five files into (created if missing; existing files need --force);
+    /// without it one JSON object is printed whose keys are the file names.
     #[arg(long, value_name = "DIR")]
     pub out: Option<PathBuf>,
     /// Replace the schema files in DIR if they exist. A symbolic link there is replaced as a
@@ -27,6 +30,9 @@ fn schemas() -> Vec<(&'static str, schemars::Schema)> {
         ("cases.schema.json", schemars::schema_for!(CasesFile)),
         ("scheme.schema.json", schemars::schema_for!(SchemeFile)),
     ]
+    .into_iter()
+    .chain(nadir::report::output::schemas())
+    .collect()
 }
 
 pub fn run(args: SchemaArgs) -> anyhow::Result<Outcome> {

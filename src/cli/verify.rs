@@ -3,11 +3,18 @@
 
 use super::check::{finish, fmt};
 use super::{load, Outcome};
+use nadir::model::{Criteria, Plant};
+use nadir::report::figures::{
+    criteria_words, peak_cell, recovery_cell, rocof_heading, setting, FIGURES_NOTE,
+};
+use nadir::report::output::{csv_cell, verify_document, MarginOut};
 use nadir::verify::margins::Margin;
-use nadir::verify::matrix::{self, Matrix, VerifyConfig};
+use nadir::verify::matrix::{self, Matrix, Row, VerifyConfig};
 use std::io::IsTerminal;
 use std::path::PathBuf;
 use tabled::builder::Builder;
+use tabled::settings::object::{Columns, Rows};
+use tabled::settings::{Alignment, Span, Style};
 
 /// Prove a shedding scheme against every case and operating point.
 #[derive(Debug, clap::Args)]
@@ -28,6 +35,10 @@ pub struct VerifyArgs {
     /// criteria require a margin.
     #[arg(long)]
     pub no_margins: bool,
+    /// Every figure of a run on one line (wider than 120 columns): nadir and peak times,
+    /// shed %, cascades and the failed criteria in the table.
+    #[arg(long)]
+    pub wide: bool,
 }
 
 /// How `verify` writes its matrix.
@@ -35,7 +46,7 @@ pub struct VerifyArgs {
 pub enum Format {
     /// Plain-text table.
     Table,
-    /// One JSON document.
+    /// One JSON document (shape: `nadir schema`, verify-output.schema.json).
     Json,
     /// One CSV row per case and operating point.
     Csv,
@@ -61,15 +72,18 @@ pub fn run(args: VerifyArgs) -> anyhow::Result<Outcome> {
     bar.finish_and_clear();
     let text = match args.format {
         Format::Table => {
-            let mut t = render_table(&m, &plant.name, &scheme.name);
+            let mut t = render_table(&m, &plant, &scheme.name, args.wide);
             if let Some(caveat) = load::verdict_caveat() {
                 t.push_str(&caveat);
                 t.push('\n');
             }
             t
         }
-        Format::Json => serde_json::to_string_pretty(&m)? + "\n",
-        Format::Csv => render_csv(&m)?,
+        Format::Json => {
+            let doc = verify_document(&m, &plant, &scheme, env!("CARGO_PKG_VERSION"));
+            serde_json::to_string_pretty(&doc)? + "\n"
+        }
+        Format::Csv => render_csv(&m, &plant)?,
     };
     super::write_stdout(&text)?;
     Ok(if m.all_pass() {
@@ -126,60 +140,185 @@ pub fn progress_bar(total: u64) -> indicatif::ProgressBar {
     bar
 }
 
-pub use nadir::report::html::margin_cell;
+pub use nadir::report::figures::margin_cell;
 
-/// The matrix as a table with a verdict line and the caution.
-pub fn render_table(m: &Matrix, plant: &str, scheme: &str) -> String {
+/// The widest a terminal table is laid out by default (`--wide` lifts it).
+pub const TERMINAL_COLUMNS: usize = 120;
+
+/// The matrix for a terminal: `wide` gives every figure in one row per run (today's full view);
+/// otherwise a table that fits [`TERMINAL_COLUMNS`] for ids of demo length (rows grouped under
+/// their case; the nadir time, cascades and failure texts below the table). Then the verdict,
+/// the criteria in words, the notes and the caution.
+pub fn render_table(m: &Matrix, plant: &Plant, scheme: &str, wide: bool) -> String {
+    let table = if wide {
+        wide_table(m, &plant.criteria)
+    } else {
+        narrow_table(m, &plant.criteria)
+    };
+    let mut out = format!("Verification of {scheme} on {}\n{table}\n", plant.name);
+    if !wide {
+        let failing: Vec<&Row> = m.rows.iter().filter(|r| !r.pass).collect();
+        if !failing.is_empty() {
+            out.push_str("Failed criteria:\n");
+            for r in failing {
+                let text = format!(
+                    "{} at {}: {}",
+                    r.case,
+                    r.operating_point,
+                    r.failures
+                        .iter()
+                        .map(|f| f.message.as_str())
+                        .collect::<Vec<_>>()
+                        .join("; ")
+                );
+                out.push_str(&wrap_text(&text, "  ", "    "));
+            }
+        }
+        let cascading: Vec<&Row> = m.rows.iter().filter(|r| !r.cascades.is_empty()).collect();
+        if !cascading.is_empty() {
+            out.push_str("Generators tripped by their own protection (cascades):\n");
+            for r in cascading {
+                let text = format!(
+                    "{} at {}: {}",
+                    r.case,
+                    r.operating_point,
+                    r.cascades.join(", ")
+                );
+                out.push_str(&wrap_text(&text, "  ", "    "));
+            }
+        }
+    }
+    let failed = m.rows.iter().filter(|r| !r.pass).count();
+    out.push_str(&if failed == 0 {
+        format!(
+            "All {} case × operating-point runs hold every criterion.\n",
+            m.rows.len()
+        )
+    } else {
+        format!(
+            "{failed} of {} case × operating-point runs FAIL.\n",
+            m.rows.len()
+        )
+    });
+    out.push_str("Criteria, for every case at every operating point it applies to:\n");
+    for c in criteria_words(&plant.criteria) {
+        out.push_str(&wrap_text(&c.words, "  - ", "    "));
+    }
+    if m.rows.iter().all(|r| r.margins.is_none()) {
+        out.push_str(&wrap_text(
+            "Margins were not searched (--no-margins); the plant requires none.",
+            "",
+            "",
+        ));
+    }
+    out.push_str(&wrap_text(&format!("Figures: {FIGURES_NOTE}"), "", ""));
+    out.push_str(&wrap_text(
+        "Margins: disturbance × is how far the case's lost import, generation or load step could \
+grow before a criterion fails (— where the case has none to grow); model error % is how much \
+lower every inertia constant and load frequency exponent could be; ≥ means the search ended with \
+the case still holding.",
+        "",
+        "",
+    ));
+    if !wide {
+        out.push_str("--wide shows every figure of a run on one line.\n");
+    }
+    out.push_str(&wrap_text(CAUTION, "", ""));
+    out
+}
+
+/// Rows grouped under a line with their case id; the columns a reviewer reads first.
+fn narrow_table(m: &Matrix, c: &Criteria) -> String {
     let mut b = Builder::default();
     b.push_record([
-        "case",
-        "point",
-        "result",
-        "nadir Hz",
-        "at s",
-        "peak Hz",
-        "ROCOF Hz/s",
-        "recovered s",
-        "shed MW",
-        "shed %",
-        "stages",
-        "cascades",
-        "disturbance ×",
-        "model error %",
-        "failed criterion",
+        "case\n  point".to_string(),
+        "result".into(),
+        "nadir\nHz".into(),
+        "peak\nHz".into(),
+        format!("ROCOF\nHz/s\nover\n{} s", setting(c.rocof_window_s)),
+        "recov.\ns".into(),
+        "shed\nMW".into(),
+        "UV\nMW".into(),
+        "stages".into(),
+        "dist.\n×".into(),
+        "model\nerr %".into(),
+    ]);
+    let mut case_lines = Vec::new();
+    let mut last_case: Option<usize> = None;
+    for r in &m.rows {
+        if last_case != Some(r.case_index) {
+            last_case = Some(r.case_index);
+            case_lines.push(b.count_records());
+            b.push_record([r.case.clone()]);
+        }
+        let (dist, model) = margin_cells(r);
+        b.push_record([
+            format!("  {}", r.operating_point),
+            if r.pass { "pass".into() } else { "FAIL".into() },
+            fmt(r.observed.nadir_hz, 2),
+            peak_cell(&r.observed),
+            fmt(r.observed.max_rocof_hz_per_s, 2),
+            recovery_cell(&r.observed),
+            fmt(r.shed_mw, 2),
+            fmt(r.dropped_mw, 2),
+            wrapped_list(&r.stages_operated, 13),
+            dist,
+            model,
+        ]);
+    }
+    let mut t = b.build();
+    t.with(Style::sharp());
+    t.modify(Columns::new(2..8), Alignment::right());
+    t.modify(Columns::new(9..11), Alignment::right());
+    t.modify(Rows::first(), Alignment::left());
+    for row in case_lines {
+        t.modify((row, 0), Span::column(0));
+        t.modify((row, 0), Alignment::left());
+    }
+    t.to_string()
+}
+
+/// Every figure of a run on one line.
+fn wide_table(m: &Matrix, c: &Criteria) -> String {
+    let mut b = Builder::default();
+    b.push_record([
+        "case".to_string(),
+        "point".into(),
+        "result".into(),
+        "nadir Hz".into(),
+        "at s".into(),
+        "peak Hz".into(),
+        "at s".into(),
+        rocof_heading(c),
+        "recovery s".into(),
+        "shed MW".into(),
+        "UV MW".into(),
+        "shed %".into(),
+        "stages".into(),
+        "cascades".into(),
+        "disturbance ×".into(),
+        "model error %".into(),
+        "failed criterion".into(),
     ]);
     for r in &m.rows {
-        let (dist, model) = match &r.margins {
-            Some(mg) => (
-                margin_cell(&mg.disturbance_factor, "×"),
-                margin_cell(&mg.model_error_pct, ""),
-            ),
-            None => ("-".into(), "-".into()),
-        };
+        let (dist, model) = margin_cells(r);
         b.push_record([
             r.case.clone(),
             r.operating_point.clone(),
             if r.pass { "pass".into() } else { "FAIL".into() },
             fmt(r.observed.nadir_hz, 2),
             fmt(r.observed.nadir_at_s, 2),
-            fmt(r.observed.max_hz, 2),
-            fmt(r.observed.max_rocof_hz_per_s, 2),
+            peak_cell(&r.observed),
             r.observed
-                .recovered_at_s
-                .map(|t| fmt(t, 2))
-                .unwrap_or_else(|| "never".into()),
+                .peak_at_s
+                .map_or_else(|| "—".into(), |t| fmt(t, 2)),
+            fmt(r.observed.max_rocof_hz_per_s, 2),
+            recovery_cell(&r.observed),
             fmt(r.shed_mw, 2),
+            fmt(r.dropped_mw, 2),
             fmt(r.shed_pct, 1),
-            if r.stages_operated.is_empty() {
-                "-".into()
-            } else {
-                r.stages_operated.join(" ")
-            },
-            if r.cascades.is_empty() {
-                "-".into()
-            } else {
-                r.cascades.join(" ")
-            },
+            list_cell(&r.stages_operated),
+            list_cell(&r.cascades),
             dist,
             model,
             r.failures
@@ -189,27 +328,79 @@ pub fn render_table(m: &Matrix, plant: &str, scheme: &str) -> String {
                 .join("; "),
         ]);
     }
-    let failed = m.rows.iter().filter(|r| !r.pass).count();
-    let verdict = if failed == 0 {
-        format!(
-            "All {} case × operating-point runs hold every criterion.",
-            m.rows.len()
-        )
-    } else {
-        format!(
-            "{failed} of {} case × operating-point runs FAIL.",
-            m.rows.len()
-        )
-    };
-    format!(
-        "Verification of {scheme} on {plant}\n{}\n{verdict}\n\
-Margins: disturbance × is how far the case's lost import, generation or load step could grow \
-before a criterion fails; model error % is how much lower inertia and load damping could be.\n{CAUTION}\n",
-        finish(b, 3..10)
-    )
+    finish(b, 3..12)
 }
 
-fn render_csv(m: &Matrix) -> anyhow::Result<String> {
+fn margin_cells(r: &Row) -> (String, String) {
+    match &r.margins {
+        Some(mg) => (
+            margin_cell(&mg.disturbance_factor, "×"),
+            margin_cell(&mg.model_error_pct, ""),
+        ),
+        None => ("-".into(), "-".into()),
+    }
+}
+
+fn list_cell(v: &[String]) -> String {
+    if v.is_empty() {
+        "-".into()
+    } else {
+        v.join(" ")
+    }
+}
+
+/// Ids joined by spaces, a new line before an id that would pass `width` characters.
+fn wrapped_list(v: &[String], width: usize) -> String {
+    if v.is_empty() {
+        return "-".into();
+    }
+    let mut out = String::new();
+    let mut line = 0;
+    for id in v {
+        let n = id.chars().count();
+        if line > 0 && line + 1 + n > width {
+            out.push('\n');
+            line = 0;
+        } else if line > 0 {
+            out.push(' ');
+            line += 1;
+        }
+        out.push_str(id);
+        line += n;
+    }
+    out
+}
+
+/// `text` wrapped at word boundaries to [`TERMINAL_COLUMNS`], the first line after `first`, the
+/// others after `rest`; ends with a newline.
+pub fn wrap_text(text: &str, first: &str, rest: &str) -> String {
+    let mut out = String::new();
+    let mut line = first.to_string();
+    let mut empty = true;
+    for word in text.split(' ') {
+        let len = line.chars().count() + word.chars().count() + usize::from(!empty);
+        if !empty && len > TERMINAL_COLUMNS {
+            out.push_str(line.trim_end());
+            out.push('\n');
+            line = rest.to_string();
+            empty = true;
+        }
+        if !empty {
+            line.push(' ');
+        }
+        line.push_str(word);
+        empty = false;
+    }
+    out.push_str(line.trim_end());
+    out.push('\n');
+    out
+}
+
+/// One CSV row per run. Each figure has its own column and keeps its meaning: an empty cell is
+/// "none" (peak when frequency never rose, recovery when it never went below the level or never
+/// came back, margins not searched), a margin is its number and its kind in two columns, and every
+/// text cell that a spreadsheet would run as a formula is neutralised.
+fn render_csv(m: &Matrix, plant: &Plant) -> anyhow::Result<String> {
     let mut w = csv::Writer::from_writer(Vec::new());
     w.write_record([
         "case",
@@ -218,47 +409,73 @@ fn render_csv(m: &Matrix) -> anyhow::Result<String> {
         "nadir_hz",
         "nadir_at_s",
         "peak_hz",
+        "peak_at_s",
+        "rocof_window_s",
         "max_rocof_hz_per_s",
+        "went_below_recover_level",
         "recovered_at_s",
+        "recovery_s",
         "final_hz",
         "shed_mw",
+        "uv_dropped_mw",
         "shed_pct",
         "stages_operated",
         "cascades",
         "disturbance_factor",
+        "disturbance_factor_kind",
         "model_error_pct",
+        "model_error_pct_kind",
+        "failed_criteria",
         "failures",
     ])?;
+    let opt = |v: Option<f64>| v.map(|v| format!("{v:.4}")).unwrap_or_default();
     for r in &m.rows {
-        let margin = |x: Option<&Margin>| {
-            x.and_then(|v| v.value())
-                .map(|v| format!("{v:.3}"))
-                .unwrap_or_default()
+        let margin = |x: Option<&Margin>| match x {
+            None => (String::new(), "not_searched".to_string()),
+            Some(m) => (
+                MarginOut::from(*m)
+                    .value
+                    .map(|v| format!("{v:.3}"))
+                    .unwrap_or_default(),
+                MarginOut::from(*m).kind.to_string(),
+            ),
         };
+        let (dist, dist_kind) = margin(r.margins.as_ref().map(|m| &m.disturbance_factor));
+        let (model, model_kind) = margin(r.margins.as_ref().map(|m| &m.model_error_pct));
+        let o = &r.observed;
+        let mut criteria: Vec<&str> = r.failures.iter().map(|f| f.criterion).collect();
+        criteria.dedup();
         w.write_record([
-            r.case.clone(),
-            r.operating_point.clone(),
+            csv_cell(&r.case),
+            csv_cell(&r.operating_point),
             r.pass.to_string(),
-            format!("{:.4}", r.observed.nadir_hz),
-            format!("{:.4}", r.observed.nadir_at_s),
-            format!("{:.4}", r.observed.max_hz),
-            format!("{:.4}", r.observed.max_rocof_hz_per_s),
-            r.observed
-                .recovered_at_s
-                .map(|t| format!("{t:.4}"))
-                .unwrap_or_default(),
+            format!("{:.4}", o.nadir_hz),
+            format!("{:.4}", o.nadir_at_s),
+            opt(o.peak_hz),
+            opt(o.peak_at_s),
+            format!("{}", plant.criteria.rocof_window_s),
+            format!("{:.4}", o.max_rocof_hz_per_s),
+            o.went_below_recover_level.to_string(),
+            opt(o.recovered_at_s),
+            opt(o.recovery_s),
             format!("{:.4}", r.final_hz),
             format!("{:.4}", r.shed_mw),
+            format!("{:.4}", r.dropped_mw),
             format!("{:.2}", r.shed_pct),
-            r.stages_operated.join(" "),
-            r.cascades.join(" "),
-            margin(r.margins.as_ref().map(|m| &m.disturbance_factor)),
-            margin(r.margins.as_ref().map(|m| &m.model_error_pct)),
-            r.failures
-                .iter()
-                .map(|f| f.message.as_str())
-                .collect::<Vec<_>>()
-                .join("; "),
+            csv_cell(&r.stages_operated.join(" ")),
+            csv_cell(&r.cascades.join(" ")),
+            dist,
+            dist_kind,
+            model,
+            model_kind,
+            criteria.join(" "),
+            csv_cell(
+                &r.failures
+                    .iter()
+                    .map(|f| f.message.as_str())
+                    .collect::<Vec<_>>()
+                    .join("; "),
+            ),
         ])?;
     }
     Ok(String::from_utf8(w.into_inner()?)?)

@@ -7,13 +7,13 @@
 //! file (ids, names, descriptions, messages) is escaped. The run's time is passed in, so the same
 //! inputs and time give the same bytes.
 
+use super::figures;
 use super::svg::{self, FrequencyPlot, Series};
 use crate::input::Warning;
 use crate::model::{Plant, Scheme};
 use crate::screening::Screening;
 use crate::sim::Run;
 use crate::verify::audit::{Audit, AuditRules};
-use crate::verify::margins::Margin;
 use crate::verify::matrix::Matrix;
 use sha2::{Digest, Sha256};
 use std::fmt::Write;
@@ -434,29 +434,11 @@ nominal frequency {} Hz; {} utility connection.</p>\n",
         }
     }
     h.push_str("</tbody>\n</table>\n<p class=\"note\">Reserve: headroom of the governed machines. E_k: Σ H·S of the online machines plus Σ H·P of motor loads. H_sys: E_k over the online MVA.</p>\n");
-    let c = &p.criteria;
-    let _ = write!(
-        h,
-        "<h3>Acceptance criteria</h3>\n<table>\n<tbody>\n\
-<tr><td>frequency stays between</td><td class=\"n\">{} – {} Hz</td></tr>\n\
-<tr><td>ROCOF at most (over {} s)</td><td class=\"n\">{} Hz/s</td></tr>\n\
-<tr><td>recovers above</td><td class=\"n\">{} Hz within {} s</td></tr>\n\
-<tr><td>settles within</td><td class=\"n\">{} – {} Hz from {} s</td></tr>\n\
-<tr><td>required disturbance margin</td><td class=\"n\">{}×</td></tr>\n\
-<tr><td>required model-error margin</td><td class=\"n\">{} %</td></tr>\n\
-</tbody>\n</table>\n</section>\n",
-        num(c.min_hz, 2),
-        num(c.max_hz, 2),
-        num(c.rocof_window_s, 2),
-        num(c.max_rocof_hz_per_s, 2),
-        num(c.recover_above_hz, 2),
-        num(c.recover_within_s, 1),
-        num(c.settle_low_hz, 2),
-        num(c.settle_high_hz, 2),
-        num(c.settle_within_s, 1),
-        num(c.required_disturbance_factor, 2),
-        num(c.required_model_error_pct, 0)
-    );
+    h.push_str("<h3>Acceptance criteria</h3>\n<p>Every case, at every operating point it applies to:</p>\n<ul>\n");
+    for c in figures::criteria_words(&p.criteria) {
+        let _ = writeln!(h, "<li>{}</li>", esc(&c.words));
+    }
+    h.push_str("</ul>\n</section>\n");
 }
 
 fn shedding_table(h: &mut String, r: &ReportInputs) {
@@ -540,7 +522,7 @@ fn matrix_section(h: &mut String, r: &ReportInputs) {
         m.rows.len(),
         m.rows.len() - failed
     );
-    h.push_str("<table class=\"wide matrix\">\n<thead><tr><th>case</th><th>point</th><th>result</th><th>nadir Hz</th><th>at s</th><th>peak Hz</th><th>ROCOF Hz/s</th><th>recovered s</th><th>shed MW</th><th>shed %</th><th>stages</th><th>cascades</th><th>disturbance ×</th><th>model error %</th><th>failed criterion</th></tr></thead>\n<tbody>\n");
+    let _ = write!(h, "<table class=\"wide matrix\">\n<thead><tr><th>case</th><th>point</th><th>result</th><th>nadir Hz</th><th>at s</th><th>peak Hz</th><th>{}</th><th>recovery s</th><th>shed MW</th><th>UV MW</th><th>shed %</th><th>stages</th><th>cascades</th><th>disturbance ×</th><th>model error %</th><th>failed criterion</th></tr></thead>\n<tbody>\n", esc(&figures::rocof_heading(&r.plant.criteria)));
     for row in &m.rows {
         let (dist, model) = match &row.margins {
             Some(mg) => (
@@ -568,19 +550,18 @@ fn matrix_section(h: &mut String, r: &ReportInputs) {
         let o = &row.observed;
         let _ = writeln!(
             h,
-            "<tr{}><td class=\"id\">{}</td><td class=\"id\">{}</td><td class=\"result\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td>{}</td><td>{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"msg\">{failures}</td></tr>",
+            "<tr{}><td class=\"id\">{}</td><td class=\"id\">{}</td><td class=\"result\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td>{}</td><td>{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"msg\">{failures}</td></tr>",
             if row.pass { "" } else { " class=\"fail\"" },
             esc(&row.case),
             esc(&row.operating_point),
             if row.pass { "pass" } else { "FAIL" },
             num(o.nadir_hz, 2),
             num(o.nadir_at_s, 2),
-            num(o.max_hz, 2),
+            figures::peak_cell(o),
             num(o.max_rocof_hz_per_s, 2),
-            o.recovered_at_s
-                .map(|t| num(t, 2))
-                .unwrap_or_else(|| "never".into()),
+            figures::recovery_cell(o),
             num(row.shed_mw, 2),
+            num(row.dropped_mw, 2),
             num(row.shed_pct, 1),
             list(&row.stages_operated),
             list(&row.cascades),
@@ -588,7 +569,7 @@ fn matrix_section(h: &mut String, r: &ReportInputs) {
             esc(&model)
         );
     }
-    h.push_str("</tbody>\n</table>\n<p class=\"note\">Margins: disturbance × is how far the case's lost import, generation or load step could grow before a criterion fails (— where the case has no single disturbance to grow); model error % is how much lower every inertia constant and load damping exponent could be. ≥ means the search range ended with the case still holding.</p>\n</section>\n");
+    let _ = write!(h, "</tbody>\n</table>\n<p class=\"note\">Margins: disturbance × is how far the case's lost import, generation or load step could grow before a criterion fails (— where the case has no single disturbance to grow); model error % is how much lower every inertia constant and load damping exponent could be. ≥ means the search range ended with the case still holding. {}</p>\n</section>\n", esc(figures::FIGURES_NOTE));
 }
 
 fn plots(h: &mut String, r: &ReportInputs) {
@@ -646,23 +627,7 @@ SHA&#8209;256, and the results in this report.</p>\n<table class=\"signoff\">\n<
     );
 }
 
-/// A margin in a cell, as `nadir verify` writes it: "1.37×", "≥2.00×", "fails", "—".
-/// A margin in a table cell: "1.37×", "≥2.00×", "fails", "—" (shared with the command line).
-pub fn margin_cell(m: &Margin, unit: &str) -> String {
-    let number = |v: f64| {
-        if unit == "×" {
-            format!("{v:.2}")
-        } else {
-            format!("{v:.0}")
-        }
-    };
-    match m {
-        Margin::NotApplicable => "—".into(),
-        Margin::FailsAsIs => "fails".into(),
-        Margin::AtLeast(v) => format!("≥{}{unit}", number(*v)),
-        Margin::Found(v) => format!("{}{unit}", number(*v)),
-    }
-}
+pub use super::figures::margin_cell;
 
 /// A fixed-decimal number without a lone minus sign on zero.
 fn num(v: f64, decimals: usize) -> String {
@@ -787,13 +752,15 @@ mod tests {
             islands: vec![],
             nadir_hz: 0.0,
             nadir_at_s: 0.0,
-            peak_after_nadir_hz: 0.0,
-            peak_at_s: 0.0,
+            peak_hz: None,
+            peak_at_s: None,
             max_rocof_hz_per_s: 0.0,
             final_hz: 0.0,
             recovered_above_at_s: None,
+            went_below_recover_level: false,
             events: vec![],
             shed_mw: 0.0,
+            dropped_mw: 0.0,
             trace: Some(trace),
         }
     }

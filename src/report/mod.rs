@@ -3,6 +3,8 @@
 //! `report` formats results only: it computes no physics and decides no pass or fail. Every file it
 //! writes goes through [`write::write_atomic`], so an interrupted run never leaves a truncated file.
 
+pub mod figures;
 pub mod html;
+pub mod output;
 pub mod svg;
 pub mod write;

@@ -44,6 +44,7 @@ struct IslandRecord {
     to_s: Option<f64>,
     end: IslandEnd,
     shed_mw: f64,
+    dropped_mw: f64,
 }
 
 struct Dip {
@@ -75,6 +76,7 @@ struct Engine<'a> {
     max_events: usize,
     dips: Vec<Dip>,
     shed_mw: f64,
+    dropped_mw: f64,
     t: f64,
     y: Vec<f64>,
     rec: Recorder,
@@ -203,6 +205,7 @@ impl<'a> Engine<'a> {
             max_events,
             dips: vec![],
             shed_mw: 0.0,
+            dropped_mw: 0.0,
             t: 0.0,
             y: vec![0.0; offset],
             rec: Recorder::new(f0, n_sec, cfg.sample_interval_s.max(1e-4), recover),
@@ -489,6 +492,10 @@ impl<'a> Engine<'a> {
                 if self.cond.load_on[load] {
                     self.cond.load_on[load] = false;
                     let mw = self.eq.loads[load].p0_mw;
+                    let isl = self.cond.island_of_section[self.eq.loads[load].section];
+                    let r = self.island_record[isl];
+                    self.records[r].dropped_mw += mw;
+                    self.dropped_mw += mw;
                     let id = self.plant.loads[load].id.clone();
                     self.log(EventKind::LoadDroppedOut { load: id, mw });
                 }
@@ -845,6 +852,7 @@ impl<'a> Engine<'a> {
                     IslandEnd::Running
                 },
                 shed_mw: 0.0,
+                dropped_mw: 0.0,
             });
             new_records.push(r);
             let sections = isl
@@ -973,6 +981,7 @@ impl<'a> Engine<'a> {
     fn finish(self) -> Run {
         let rec = &self.rec;
         let t_end = self.t;
+        let (disturbance_s, _) = self.case.disturbance_span();
         let window = self.cfg.rocof_window_s.max(rec.sample_interval_s);
         let mut samples = rec.samples(t_end);
         let mut islands = Vec::with_capacity(self.records.len());
@@ -984,21 +993,17 @@ impl<'a> Engine<'a> {
                 .copied()
                 .filter(|(t, _)| *t >= isl.from_s - 1e-12 && *t <= to + 1e-12)
                 .collect();
-            let (mut nadir, mut peak) =
-                ((isl.from_s, f64::INFINITY), (isl.from_s, f64::NEG_INFINITY));
+            let mut nadir = (isl.from_s, f64::INFINITY);
             for &(t, f) in &within {
                 if f < nadir.1 {
                     nadir = (t, f);
-                }
-                if f > peak.1 {
-                    peak = (t, f);
                 }
             }
             let final_hz = within.last().map_or(self.f0, |c| c.1);
             if within.is_empty() {
                 nadir.1 = final_hz;
-                peak.1 = final_hz;
             }
+            let peak = rec.peak_after(s0, disturbance_s, isl.from_s, to);
             islands.push(IslandSummary {
                 index: r,
                 sections: isl
@@ -1011,11 +1016,12 @@ impl<'a> Engine<'a> {
                 to_s: to,
                 nadir_hz: nadir.1,
                 nadir_at_s: nadir.0,
-                peak_hz: peak.1,
-                peak_at_s: peak.0,
+                peak_hz: peak.map(|p| p.1),
+                peak_at_s: peak.map(|p| p.0),
                 final_hz,
                 max_rocof_hz_per_s: samples.windowed_rocof(s0, window, isl.from_s, to),
                 shed_mw: isl.shed_mw,
+                dropped_mw: isl.dropped_mw,
                 end: isl.end,
             });
         }
@@ -1033,17 +1039,13 @@ impl<'a> Engine<'a> {
                 )
             })
             .unwrap_or((self.f0, 0.0, 0));
-        let mut peak = (nadir_at_s, nadir_hz);
-        for &(t, f) in rec
-            .candidates
-            .get(nadir_section)
-            .map(|v| v.as_slice())
-            .unwrap_or(&[])
-        {
-            if t >= nadir_at_s && f > peak.1 {
-                peak = (t, f);
-            }
-        }
+        let peak = islands
+            .iter()
+            .filter_map(|i| Some((i.peak_at_s?, i.peak_hz?)))
+            .fold(None, |best: Option<(f64, f64)>, p| match best {
+                Some(b) if b.1 >= p.1 => Some(b),
+                _ => Some(p),
+            });
         let alive: Vec<usize> = self
             .records
             .iter()
@@ -1098,13 +1100,15 @@ impl<'a> Engine<'a> {
             islands,
             nadir_hz,
             nadir_at_s,
-            peak_after_nadir_hz: peak.1,
-            peak_at_s: peak.0,
+            peak_hz: peak.map(|p| p.1),
+            peak_at_s: peak.map(|p| p.0),
+            went_below_recover_level: rec.went_below(),
             max_rocof_hz_per_s,
             final_hz,
             recovered_above_at_s,
             events: self.events,
             shed_mw: self.shed_mw,
+            dropped_mw: self.dropped_mw,
             trace,
         }
     }

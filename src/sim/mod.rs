@@ -78,16 +78,23 @@ pub struct Run {
     /// Lowest frequency of any island, and when.
     pub nadir_hz: f64,
     pub nadir_at_s: f64,
-    /// Highest frequency of the nadir's section after the nadir, and when.
-    pub peak_after_nadir_hz: f64,
-    pub peak_at_s: f64,
+    /// Highest frequency of any island after the disturbance starts, never the value held at
+    /// that instant: see [`IslandSummary::peak_hz`]. `None` when no island's frequency rose.
+    pub peak_hz: Option<f64>,
+    pub peak_at_s: Option<f64>,
     /// Max |f(t) − f(t − W)|/W over sections and samples, W = `SimConfig.rocof_window_s`.
     pub max_rocof_hz_per_s: f64,
     /// Lowest final frequency of the islands still alive at the end.
     pub final_hz: f64,
     pub recovered_above_at_s: Option<f64>,
+    /// Some section was below the recovery level at some time (when not, the run counts as
+    /// recovered from the start and there is no recovery time to show).
+    pub went_below_recover_level: bool,
     pub events: Vec<LoggedEvent>,
+    /// Load opened by stages, MW at nominal frequency.
     pub shed_mw: f64,
+    /// Load dropped by its own undervoltage release during a dip, MW at nominal frequency.
+    pub dropped_mw: f64,
     pub trace: Option<Trace>,
 }
 
@@ -103,12 +110,17 @@ pub struct IslandSummary {
     pub to_s: f64,
     pub nadir_hz: f64,
     pub nadir_at_s: f64,
-    pub peak_hz: f64,
-    pub peak_at_s: f64,
+    /// Highest frequency after the disturbance starts while this island existed: ignoring the
+    /// fall from the disturbance instant, the highest value from the first rise on (a rebound
+    /// after the nadir, an over-frequency after a load loss). `None` when it never rose.
+    pub peak_hz: Option<f64>,
+    pub peak_at_s: Option<f64>,
     pub final_hz: f64,
     pub max_rocof_hz_per_s: f64,
     /// Load MW opened by stages while the load was in this island.
     pub shed_mw: f64,
+    /// Load MW dropped by undervoltage while the load was in this island.
+    pub dropped_mw: f64,
     pub end: IslandEnd,
 }
 

@@ -34,6 +34,8 @@ pub struct Recorder {
     knots: Vec<Vec<(f64, f64)>>,
     recover_pu: f64,
     below: Vec<bool>,
+    /// Per section: was below the recovery level at some time.
+    ever_below: Vec<bool>,
     /// Per section: last time it came back above the recovery level.
     pub last_up_s: Vec<Option<f64>>,
 }
@@ -70,6 +72,7 @@ impl Recorder {
             knots: vec![Vec::new(); n_sections],
             recover_pu: (recover_hz - nominal_hz) / nominal_hz,
             below: vec![false; n_sections],
+            ever_below: vec![false; n_sections],
             last_up_s: vec![None; n_sections],
         }
     }
@@ -84,6 +87,7 @@ impl Recorder {
         for s in 0..self.n_sections {
             let dw = y0[speed_index(s)];
             self.below[s] = dw < self.recover_pu;
+            self.ever_below[s] = self.below[s];
             let v = self.hz(dw);
             self.candidates[s].push((0.0, v));
             self.knots[s].push((0.0, v));
@@ -149,6 +153,7 @@ impl Recorder {
                         self.last_up_s[s] = Some(hi);
                     }
                     self.below[s] = below_b;
+                    self.ever_below[s] |= below_b;
                 }
             }
             let hz = self.hz(y_stop[iw]);
@@ -165,6 +170,32 @@ impl Recorder {
 
     pub fn ends_below(&self, section: usize) -> bool {
         self.below[section]
+    }
+
+    /// Whether any section was ever below the recovery level.
+    pub fn went_below(&self) -> bool {
+        self.ever_below.iter().any(|b| *b)
+    }
+
+    /// The peak of section `s` between `from` and `to`, counting only what follows the
+    /// disturbance start `after`: the frequency is skipped while it falls from there (so the
+    /// value held at the disturbance instant, i.e. the pre-event value, is never the peak), and
+    /// from its first rise on the highest value is taken. `None` when it never rose.
+    pub fn peak_after(&self, s: usize, after: f64, from: f64, to: f64) -> Option<(f64, f64)> {
+        let lo = after.max(from);
+        let knots: Vec<(f64, f64)> = self.knots[s]
+            .iter()
+            .copied()
+            .filter(|(t, _)| *t >= lo - 1e-12 && *t <= to + 1e-12)
+            .collect();
+        let first_rise = knots.windows(2).position(|w| w[1].1 > w[0].1)? + 1;
+        knots[first_rise..]
+            .iter()
+            .copied()
+            .fold(None, |best: Option<(f64, f64)>, k| match best {
+                Some(b) if b.1 >= k.1 => Some(b),
+                _ => Some(k),
+            })
     }
 
     /// The sample grid up to `t_end` (points `k·dt` with `k·dt ≤ t_end`).

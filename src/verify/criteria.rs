@@ -18,12 +18,21 @@ pub struct Observed {
     pub last_event_s: f64,
     pub nadir_hz: f64,
     pub nadir_at_s: f64,
-    pub max_hz: f64,
-    pub max_at_s: f64,
+    /// Highest frequency after the disturbance starts, never the value held at that instant
+    /// ([`crate::sim::IslandSummary::peak_hz`]); `None` when frequency never rose.
+    pub peak_hz: Option<f64>,
+    pub peak_at_s: Option<f64>,
     /// Largest |df/dt| averaged over the criteria's window.
     pub max_rocof_hz_per_s: f64,
-    /// The first time from which frequency stayed above the recovery level to the end of the run.
+    /// Frequency went below the recovery level at some time.
+    pub went_below_recover_level: bool,
+    /// When frequency came back above the recovery level to stay until the end of the run;
+    /// `None` when it never went below or never came back (told apart by
+    /// `went_below_recover_level`).
     pub recovered_at_s: Option<f64>,
+    /// `recovered_at_s` measured from the event before it (the disturbance start or a later
+    /// event): the recovery time shown in tables.
+    pub recovery_s: Option<f64>,
     /// Lowest and highest frequency from the settling time on; `None` when the run ended before it.
     pub settle_range_hz: Option<(f64, f64)>,
     /// How the run ended, when not at its end time: collapse, blackout or a numerical fault.
@@ -62,17 +71,19 @@ pub fn judge(seen: &Observed, c: &Criteria) -> Vec<Failure> {
             excess: c.min_hz - seen.nadir_hz,
         });
     }
-    if seen.max_hz > c.max_hz {
-        out.push(Failure {
-            criterion: "max_hz",
-            message: format!(
-                "rose to {:.2} Hz at {:.2} s, above {} Hz maximum",
-                seen.max_hz,
-                seen.max_at_s,
-                num(c.max_hz)
-            ),
-            excess: seen.max_hz - c.max_hz,
-        });
+    if let (Some(peak), Some(at)) = (seen.peak_hz, seen.peak_at_s) {
+        if peak > c.max_hz {
+            out.push(Failure {
+                criterion: "max_hz",
+                message: format!(
+                    "rose to {:.2} Hz at {:.2} s, above {} Hz maximum",
+                    peak,
+                    at,
+                    num(c.max_hz)
+                ),
+                excess: peak - c.max_hz,
+            });
+        }
     }
     if seen.max_rocof_hz_per_s > c.max_rocof_hz_per_s {
         out.push(Failure {
@@ -88,6 +99,7 @@ pub fn judge(seen: &Observed, c: &Criteria) -> Vec<Failure> {
     }
     let deadline = seen.last_event_s + c.recover_within_s;
     match seen.recovered_at_s {
+        _ if !seen.went_below_recover_level => {}
         Some(t) if t <= deadline => {}
         Some(t) => out.push(Failure {
             criterion: "recover",
@@ -167,10 +179,12 @@ mod tests {
             last_event_s: 1.0,
             nadir_hz: 48.6,
             nadir_at_s: 2.1,
-            max_hz: 50.1,
-            max_at_s: 9.0,
+            peak_hz: Some(50.1),
+            peak_at_s: Some(9.0),
             max_rocof_hz_per_s: 1.2,
+            went_below_recover_level: true,
             recovered_at_s: Some(6.0),
+            recovery_s: Some(5.0),
             settle_range_hz: Some((49.7, 50.05)),
             abnormal_end: None,
         }
@@ -196,7 +210,7 @@ mod tests {
         assert!((f[0].excess - 0.19).abs() < 1e-9);
 
         let mut seen = healthy();
-        seen.max_hz = 51.8;
+        seen.peak_hz = Some(51.8);
         assert_eq!(judge(&seen, &c)[0].criterion, "max_hz");
         let mut seen = healthy();
         seen.max_rocof_hz_per_s = 2.4;
@@ -211,6 +225,9 @@ mod tests {
         let mut seen = healthy();
         seen.recovered_at_s = None;
         assert_eq!(judge(&seen, &c)[0].criterion, "recover");
+        // Never below the level: nothing to recover from, and no failure.
+        seen.went_below_recover_level = false;
+        assert!(judge(&seen, &c).is_empty());
         let mut seen = healthy();
         seen.settle_range_hz = Some((49.2, 49.9));
         assert_eq!(judge(&seen, &c)[0].criterion, "settle");

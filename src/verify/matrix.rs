@@ -39,7 +39,10 @@ pub struct Row {
     pub pass: bool,
     pub observed: Observed,
     pub final_hz: f64,
+    /// Load opened by stages, MW.
     pub shed_mw: f64,
+    /// Load dropped by its own undervoltage release, MW (not counted in `shed_mw`).
+    pub dropped_mw: f64,
     /// Shed as a percentage of the plant's load at this operating point.
     pub shed_pct: f64,
     /// Stage ids in the order they opened their loads.
@@ -146,6 +149,7 @@ pub fn verify_one(
         pass: failures.is_empty(),
         final_hz: run.final_hz,
         shed_mw: run.shed_mw,
+        dropped_mw: run.dropped_mw,
         shed_pct: if load_mw > 0.0 {
             100.0 * run.shed_mw / load_mw
         } else {
@@ -179,10 +183,21 @@ pub fn passes(plant: &Plant, case: &Case, run: &Run) -> bool {
 /// Reduce a run to what the criteria look at.
 pub fn observe(run: &Run, case: &Case, criteria: &Criteria) -> Observed {
     let (first_event_s, last_event_s) = disturbance_span(case);
-    let (max_hz, max_at_s) = run.islands.iter().map(|i| (i.peak_hz, i.peak_at_s)).fold(
-        (f64::NEG_INFINITY, 0.0),
-        |best, x| if x.0 > best.0 { x } else { best },
-    );
+    let recovered_at_s = if run.went_below_recover_level {
+        run.recovered_above_at_s
+    } else {
+        None
+    };
+    // Measured from the last event at or before the recovery (or the disturbance start).
+    let recovery_s = recovered_at_s.map(|t| {
+        let from = case
+            .events
+            .iter()
+            .map(|e| e.at_s)
+            .filter(|&at| at <= t)
+            .fold(first_event_s, f64::max);
+        (t - from).max(0.0)
+    });
     let settle_from = first_event_s + criteria.settle_within_s;
     let settle_range_hz = run.trace.as_ref().and_then(|trace| {
         let mut range: Option<(f64, f64)> = None;
@@ -221,14 +236,12 @@ pub fn observe(run: &Run, case: &Case, criteria: &Criteria) -> Observed {
         last_event_s,
         nadir_hz: run.nadir_hz,
         nadir_at_s: run.nadir_at_s,
-        max_hz: if max_hz.is_finite() {
-            max_hz
-        } else {
-            run.nadir_hz
-        },
-        max_at_s,
+        peak_hz: run.peak_hz,
+        peak_at_s: run.peak_at_s,
         max_rocof_hz_per_s: run.max_rocof_hz_per_s,
-        recovered_at_s: run.recovered_above_at_s,
+        went_below_recover_level: run.went_below_recover_level,
+        recovered_at_s,
+        recovery_s,
         settle_range_hz,
         abnormal_end,
     }
