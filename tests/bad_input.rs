@@ -167,14 +167,18 @@ fn plant_type_errors_in_several_items_are_all_reported() {
             (
                 8,
                 "generators[0].governor.model",
-                "unknown variant `steem`, expected one of `steam`",
+                "unknown value `steem`, expected one of `steam`",
             ),
             (
                 10,
                 "loads[0].p_mw",
-                "invalid type: string \"5 MW\", expected f64",
+                "`p_mw` is the text \"5 MW\", expected a number, without units or quotes",
             ),
-            (11, "loads[1].rank", "expected u32"),
+            (
+                11,
+                "loads[1].rank",
+                "`rank` is the number 1.5, expected a whole number from 0 to 4294967295",
+            ),
             (12, "loads[2].rank", "missing field `rank`"),
         ],
     );
@@ -810,11 +814,234 @@ fn scheme_type_errors_in_several_stages() {
             (
                 2,
                 "stages[0].pickup_hz",
-                "invalid type: string \"49.0Hz\", expected f64",
+                "`pickup_hz` is the text \"49.0Hz\", expected a number, without units or quotes",
             ),
-            (3, "stages[1].sheds", "expected a sequence"),
+            (
+                3,
+                "stages[1].sheds",
+                "`sheds` is the text \"hvac\", expected a list",
+            ),
             (4, "stages[2].delay", "did you mean `delay_s`?"),
         ],
+    );
+}
+
+// ---------------------------------------------------------------- messages in plain words
+
+#[test]
+fn whole_numbers_out_of_range_and_empty_values_in_plain_words() {
+    check(
+        "plant_integer_range.yaml",
+        &[
+            (
+                7,
+                "loads[0].rank",
+                "`rank` is 99999999999, too large for this field: expected a whole number from 0 to 4294967295",
+            ),
+            (
+                8,
+                "loads[1].rank",
+                "`rank` is -3, but it cannot be negative: expected a whole number from 0 to 4294967295",
+            ),
+            (
+                9,
+                "loads[2].rank",
+                "`rank` is 3.402823669209385e38, too large for this field",
+            ),
+            (
+                10,
+                "loads[3].rank",
+                "`rank` is empty, expected a whole number from 0 to 4294967295",
+            ),
+            (
+                11,
+                "loads[4].p_mw",
+                "`p_mw` is empty, expected a number, without units or quotes",
+            ),
+        ],
+    );
+    // No serde or Rust words in any message of the corpus.
+    for entry in std::fs::read_dir(dir()).unwrap() {
+        let name = entry.unwrap().file_name().to_string_lossy().to_string();
+        if !name.ends_with(".yaml") || name == "base_plant.yaml" {
+            continue;
+        }
+        for d in diagnostics(&name) {
+            let text = d.to_string();
+            for jargon in [
+                "unit value",
+                "u128",
+                "u32",
+                "u64",
+                "f64",
+                "invalid type",
+                "invalid value",
+            ] {
+                assert!(!text.contains(jargon), "{name}: `{jargon}` in {text}");
+            }
+        }
+    }
+}
+
+#[test]
+fn a_whole_number_past_64_bits_names_its_field() {
+    // The yaml reader cannot hold such a number at all; the file stops there, with the field.
+    let text = read("base_plant.yaml").replace("rank: 5,", "rank: 100000000000000000000,");
+    let d = parse_plant(&text, "p.yaml").unwrap_err();
+    assert_eq!(d.len(), 1, "{d:?}");
+    assert_eq!(d[0].path, "loads[0].rank");
+    assert_eq!(d[0].line, Some(38));
+    assert_eq!(
+        d[0].message,
+        "the whole number 100000000000000000000 is too large for this field (no field takes more than 18446744073709551615)"
+    );
+    let text = read("base_plant.yaml").replace("p_mw: 3.0,", "p_mw: -100000000000000000000,");
+    let d = parse_plant(&text, "p.yaml").unwrap_err();
+    assert_eq!(d[0].path, "loads[0].p_mw");
+    assert_eq!(
+        d[0].message,
+        "the whole number -100000000000000000000 is too far below zero for this field"
+    );
+}
+
+#[test]
+fn unknown_tags_are_refused_not_dropped() {
+    check(
+        "plant_tags.yaml",
+        &[
+            (
+                9,
+                "generators[0].output_mw",
+                "the tag `!kW` is not supported; nadir's files hold plain values",
+            ),
+            (
+                10,
+                "generators[0].governor",
+                "the tag `!custom` is not supported",
+            ),
+        ],
+    );
+}
+
+#[test]
+fn merge_keys_work_as_yaml_defines_them() {
+    // YAML 1.1 merge key type (yaml.org/type/merge.html): keys written beside `<<` win; of a list
+    // of merged mappings the earlier wins; a merged mapping may itself merge.
+    let text = "name: merged
+stages:
+  - &uf { id: uf-1, pickup_hz: 49.2, delay_s: 0.1, breaker_s: 0.06, sheds: [dryer] }
+  - &two { <<: *uf, id: uf-2, pickup_hz: 48.8, sheds: [hvac] }
+  - <<: [*two, { delay_s: 0.3, min_rocof_hz_per_s: 1.0 }]
+    id: uf-3
+    pickup_hz: 48.6
+    sheds: [pumps]
+";
+    let s = parse_scheme(text, "m.yaml", &base_plant()).unwrap_or_else(|d| panic!("{d:#?}"));
+    let ids: Vec<&str> = s.stages.iter().map(|s| s.id.as_str()).collect();
+    assert_eq!(ids, ["uf-1", "uf-2", "uf-3"]);
+    assert_eq!(s.stages[1].delay_s, 0.1);
+    assert_eq!(s.stages[1].breaker_s, 0.06);
+    assert_eq!(s.stages[2].delay_s, 0.1, "the earlier merged mapping wins");
+    assert_eq!(s.stages[2].breaker_s, 0.06, "merged through uf-2 from uf-1");
+    assert_eq!(s.stages[2].sheds.len(), 1);
+    check(
+        "scheme_merge_not_mapping.yaml",
+        &[(
+            6,
+            "stages[1].<<",
+            "a merge key `<<` takes a mapping (or a list of mappings), found the number 5",
+        )],
+    );
+}
+
+#[test]
+fn ids_that_cannot_be_told_apart_are_refused() {
+    check(
+        "plant_ids_invisible.yaml",
+        &[
+            (7, "loads[0].id", "the load id is empty"),
+            (
+                9,
+                "loads[2].id",
+                "the load id \"pumps \" has spaces before or after it",
+            ),
+            (
+                10,
+                "loads[3].id",
+                "the load id `fans\\u{200B}` contains the invisible character U+200B",
+            ),
+            (
+                11,
+                "loads[4].id",
+                "contains the bidirectional control character U+202E",
+            ),
+            (12, "loads[5].id", "contains the control character U+0009"),
+        ],
+    );
+    // The same characters written raw in the file, in another kind of id.
+    for (bad, what) in [
+        ("\u{200B}", "invisible character U+200B"),
+        ("\u{2067}", "bidirectional control character U+2067"),
+        ("\u{00A0}", "invisible character U+00A0"),
+        ("\u{FEFF}", "invisible character U+FEFF"),
+    ] {
+        let text = read("base_plant.yaml").replace("id: eng-out", &format!("id: eng{bad}out"));
+        let d = parse_plant(&text, "p.yaml").unwrap_err();
+        assert_eq!(d.len(), 1, "{d:?}");
+        assert_eq!(d[0].path, "operating_points[1].id");
+        assert!(d[0].message.contains(what), "{}", d[0].message);
+    }
+    let text = read("base_plant.yaml").replace("id: eng-out", "id: \" full\"");
+    let d = parse_plant(&text, "p.yaml").unwrap_err();
+    assert_eq!(
+        d[0].message,
+        "the operating point id \" full\" has spaces before or after it"
+    );
+}
+
+#[test]
+fn a_file_in_the_wrong_place_is_named_for_what_it_looks_like() {
+    check(
+        "plant_is_a_scheme.yaml",
+        &[(
+            2,
+            "",
+            "this looks like a scheme file (top-level `name`, `stages`), not a plant file",
+        )],
+    );
+    check(
+        "cases_is_a_plant.yaml",
+        &[(
+            2,
+            "",
+            "this looks like a plant file (top-level `plant`, `generators`, `loads`), not a cases file",
+        )],
+    );
+    check(
+        "scheme_is_a_cases_file.yaml",
+        &[(
+            2,
+            "",
+            "this looks like a cases file (top-level `cases`), not a scheme file",
+        )],
+    );
+    let d = diagnostics("scheme_is_a_cases_file.yaml");
+    assert!(d[0]
+        .help
+        .as_deref()
+        .unwrap()
+        .contains("the files may be in the wrong order: give the scheme file here"));
+}
+
+#[test]
+fn megawatts_are_shown_with_sensible_precision() {
+    check(
+        "plant_island_load_sum.yaml",
+        &[(
+            12,
+            "loads[1]",
+            "section(s) `south` carry 0.3 MW of load but have no generator online",
+        )],
     );
 }
 
@@ -1156,7 +1383,7 @@ fn cases_type_errors_in_three_cases() {
             (
                 3,
                 "cases[0].start",
-                "unknown variant `floating`, expected `connected` or `islanded`",
+                "unknown value `floating`, expected `connected` or `islanded`",
             ),
             (
                 6,
@@ -1166,7 +1393,7 @@ fn cases_type_errors_in_three_cases() {
             (
                 8,
                 "cases[2].events[0].trip",
-                "invalid type: sequence, expected a string",
+                "`trip` is a list, expected a name (quote it if it looks like a number)",
             ),
         ],
     );

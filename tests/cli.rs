@@ -224,3 +224,46 @@ fn every_diagnostic_reaches_stderr() {
         .count();
     assert_eq!(located, 10, "{}", r.stderr);
 }
+
+#[test]
+fn swapped_files_are_named_for_what_they_are() {
+    // The cases file in the scheme's place and the scheme file after --cases.
+    let r = nadir(&[
+        "verify",
+        "examples/biorefinery/plant.yaml",
+        "examples/biorefinery/cases.yaml",
+        "--cases",
+        "schemes/biorefinery.yaml",
+        "--no-margins",
+    ]);
+    assert_eq!(r.code, 2, "{}", r.stderr);
+    assert!(
+        r.stderr.contains("this looks like a scheme file (top-level `name`, `measurement`, `stages`), not a cases file"),
+        "{}",
+        r.stderr
+    );
+    assert!(r.stderr.contains("the files may be in the wrong order"));
+    assert_eq!(
+        r.stderr.matches("this looks like").count(),
+        1,
+        "{}",
+        r.stderr
+    );
+    // The plant file after --cases, the cases file first.
+    let r = nadir(&[
+        "replay",
+        "examples/biorefinery/cases.yaml",
+        "schemes/biorefinery.yaml",
+        "--cases",
+        "examples/biorefinery/plant.yaml",
+        "--case",
+        "utility-loss",
+    ]);
+    assert_eq!(r.code, 2);
+    assert!(
+        r.stderr
+            .contains("examples/biorefinery/cases.yaml:4:1: this looks like a cases file (top-level `cases`), not a plant file"),
+        "{}",
+        r.stderr
+    );
+}

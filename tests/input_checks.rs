@@ -88,6 +88,28 @@ fn a_rating_in_kva_is_warned_before_any_result_and_the_verdict_says_so() {
     assert!(out.contains(
         "Input warnings: 1 value(s) flagged above are not acknowledged; these results assume they are right."
     ));
+    // In JSON the warnings travel in the document (standard output stays one JSON document).
+    let run = nadir(&[
+        "verify",
+        p,
+        SCHEME,
+        "--cases",
+        CASES,
+        "--no-margins",
+        "--format",
+        "json",
+    ]);
+    let doc: serde_json::Value = serde_json::from_str(&run.stdout).unwrap();
+    assert_eq!(
+        doc["input_warnings"],
+        serde_json::json!([{
+            "file": p, "line": 40, "column": 17, "path": "generators[0].rating_mva",
+            "code": "rating-vs-load", "value": "25000 MVA",
+            "message": "generator `stg-1` is rated 1082 times the plant's largest load or generation (23.1 MW at `full-rate`); a rating in kVA written as MVA gives the machine that many times its stored energy (H × rating), so frequency hardly moves",
+            "help": "if the rating is in kVA, write `rating_mva: 25` (and check max_mw, which defaults to the rating)",
+            "acknowledged": null
+        }])
+    );
     // The same warning from every verb that reads the plant, before its output.
     for args in [
         vec!["check", p],

@@ -58,6 +58,7 @@ pub fn run(args: CompareArgs) -> anyhow::Result<Outcome> {
                 &old,
                 &new,
                 env!("CARGO_PKG_VERSION"),
+                &super::load::warnings_seen(),
             );
             serde_json::to_string_pretty(&doc)? + "\n"
         }

@@ -80,7 +80,13 @@ pub fn run(args: VerifyArgs) -> anyhow::Result<Outcome> {
             t
         }
         Format::Json => {
-            let doc = verify_document(&m, &plant, &scheme, env!("CARGO_PKG_VERSION"));
+            let doc = verify_document(
+                &m,
+                &plant,
+                &scheme,
+                env!("CARGO_PKG_VERSION"),
+                &load::warnings_seen(),
+            );
             serde_json::to_string_pretty(&doc)? + "\n"
         }
         Format::Csv => render_csv(&m, &plant)?,

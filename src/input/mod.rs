@@ -62,6 +62,9 @@ pub fn parse_plant_warned(text: &str, file: &str) -> Result<Loaded<Plant>, Vec<D
 
 fn plant_warned(text: &str, file: &str, limits: &Limits) -> Result<Loaded<Plant>, Vec<Diagnostic>> {
     let (mut r, map) = Reader::open(text, file, limits)?;
+    if validate::wrong_kind(&mut r, &map, validate::FileKind::Plant) {
+        return Err(nonempty(r, file));
+    }
     let plant = validate::plant(&mut r, &map);
     r.check_acknowledgements();
     match plant {
@@ -99,6 +102,9 @@ fn cases_warned(
     limits: &Limits,
 ) -> Result<Loaded<CaseSet>, Vec<Diagnostic>> {
     let (mut r, map) = Reader::open(text, file, limits)?;
+    if validate::wrong_kind(&mut r, &map, validate::FileKind::Cases) {
+        return Err(nonempty(r, file));
+    }
     let cases = validate::cases(&mut r, &map, plant);
     r.check_acknowledgements();
     match cases {
@@ -136,6 +142,9 @@ fn scheme_warned(
     limits: &Limits,
 ) -> Result<Loaded<Scheme>, Vec<Diagnostic>> {
     let (mut r, map) = Reader::open(text, file, limits)?;
+    if validate::wrong_kind(&mut r, &map, validate::FileKind::Scheme) {
+        return Err(nonempty(r, file));
+    }
     let stem = Path::new(file)
         .file_stem()
         .and_then(|s| s.to_str())

@@ -68,25 +68,50 @@ impl Reader {
                 help: Some(syntax_help("recursion limit exceeded").to_string()),
             }]);
         }
-        let value: Value = match serde_yaml::from_str(text) {
+        let mut value: Value = match serde_yaml::from_str(text) {
             Ok(v) => v,
             Err(e) => {
                 let (line, column) = match e.location() {
                     Some(l) => (Some(l.line()), Some(l.column())),
                     None => (None, None),
                 };
+                let text = e.to_string();
+                if let Some((path, digits)) = beyond_64_bits(&text) {
+                    return Err(vec![Diagnostic {
+                        file: file.to_string(),
+                        line,
+                        column,
+                        path,
+                        message: if digits.starts_with('-') {
+                            format!(
+                                "the whole number {digits} is too far below zero for this field"
+                            )
+                        } else {
+                            format!(
+                                "the whole number {digits} is too large for this field (no field \
+                                 takes more than {})",
+                                u64::MAX
+                            )
+                        },
+                        help: Some(
+                            "write a number within the field's range; `nadir schema` describes \
+                             each field"
+                                .to_string(),
+                        ),
+                    }]);
+                }
                 return Err(vec![Diagnostic {
                     file: file.to_string(),
                     line,
                     column,
                     path: String::new(),
-                    message: syntax_message(&e.to_string()),
-                    help: Some(syntax_help(&e.to_string()).to_string()),
+                    message: syntax_message(&text),
+                    help: Some(syntax_help(&text).to_string()),
                 }]);
             }
         };
         let (acks, unknown_acks) = Acknowledgements::scan(text);
-        let reader = Reader {
+        let mut reader = Reader {
             file: file.to_string(),
             locator: Locator::new(text),
             limits: limits.clone(),
@@ -97,6 +122,27 @@ impl Reader {
             acks,
             unknown_acks,
         };
+        if let Err((path, message)) = apply_merges(&mut value, &FieldPath::root()) {
+            return Err(vec![reader.make(
+                &path,
+                At::Key,
+                message,
+                Some(
+                    "write `<<: *name` where `&name` marks a mapping, or `<<: [*a, *b]` for several"
+                        .to_string(),
+                ),
+            )]);
+        }
+        // Tags are refused, not dropped: a value must mean what it says without one.
+        let mut tags = Vec::new();
+        untag(&mut value, &FieldPath::root(), &mut tags);
+        for (path, tag) in tags {
+            reader.error(
+                &path,
+                format!("the tag `{tag}` is not supported; nadir's files hold plain values"),
+                format!("remove `{tag}` and write the value alone"),
+            );
+        }
         match value {
             Value::Mapping(m) => Ok((reader, m)),
             Value::Null => Err(vec![reader.make(
@@ -384,17 +430,14 @@ impl Reader {
         } else if let Some(name) = between_backticks(&message, "missing field `") {
             push_once(&mut path, &name);
             self.error(&path, message, format!("add `{name}`; it has no default"));
-        } else if message.starts_with("unknown variant") {
+        } else if let Some(rest) = message.strip_prefix("unknown variant ") {
+            // serde's "variant" is the Rust word for one of a field's allowed values.
             self.error(
                 &path,
-                message,
+                format!("unknown value {rest}"),
                 "use one of the listed values, spelled exactly".to_string(),
             );
-        } else if message.starts_with("invalid type") || message.starts_with("invalid value") {
-            let help = match message.rsplit_once("expected ") {
-                Some((_, want)) => format!("write {}", plain_expected(want)),
-                None => "write a value of the expected type".to_string(),
-            };
+        } else if let Some((message, help)) = plain_type_error(&field_of(&path), &message) {
             self.error(&path, message, help);
         } else {
             self.error(&path, message, None);
@@ -478,6 +521,18 @@ fn flow_nesting_beyond(text: &str, max: usize) -> Option<(usize, usize)> {
     None
 }
 
+/// A whole number past 64 bits, which the yaml reader cannot hold at all and refuses with
+/// "invalid type: integer `N` as u128, expected any YAML value": its field path and digits.
+fn beyond_64_bits(e: &str) -> Option<(String, String)> {
+    let start = e.find("invalid type: integer `")?;
+    let digits = ticked_in(&e[start + "invalid type: ".len()..], "integer ")?;
+    if !(e.contains("` as u128") || e.contains("` as i128")) {
+        return None;
+    }
+    let path = e[..start].trim_end().trim_end_matches(':').to_string();
+    Some((path, digits))
+}
+
 /// What is wrong: a syntax error, or one of the reader's guards (alias expansion, nesting depth),
 /// which refuse files that are valid yaml but far beyond any input.
 fn syntax_message(e: &str) -> String {
@@ -542,15 +597,214 @@ fn push_once(path: &mut FieldPath, name: &str) {
     }
 }
 
+/// The last name in a field path, for messages (`rank`, `cases[2]`).
+fn field_of(path: &FieldPath) -> String {
+    match path.0.last() {
+        Some(Seg::Key(k)) => format!("`{k}`"),
+        Some(Seg::Index(_)) | None if path.0.is_empty() => "the value".to_string(),
+        _ => format!("`{path}`"),
+    }
+}
+
+/// serde's "invalid type: …, expected …" and "invalid value: …, expected …" in plain words, with
+/// the fix: no Rust type names (`f64`, `u32`, `u128`), no "unit value".
+fn plain_type_error(field: &str, message: &str) -> Option<(String, String)> {
+    let rest = message
+        .strip_prefix("invalid type: ")
+        .or_else(|| message.strip_prefix("invalid value: "))?;
+    let (found, want) = rest.rsplit_once(", expected ")?;
+    let want = want.trim();
+    let expected = plain_expected(want);
+    // An integer that does not fit the field says so; so does a huge or negative whole number
+    // that the parser could only read as a floating-point number.
+    let whole = integer_in(found).or_else(|| {
+        let x: f64 = ticked_in(found, "floating point ")?.parse().ok()?;
+        (x.is_finite() && x.fract() == 0.0 && (x < 0.0 || x > u64::MAX as f64))
+            .then(|| format!("{x:e}"))
+    });
+    if let (Some(max), Some(n)) = (whole_number_max(want), whole) {
+        let message = if n.starts_with('-') {
+            format!("{field} is {n}, but it cannot be negative: expected {expected}")
+        } else {
+            format!("{field} is {n}, too large for this field: expected {expected}")
+        };
+        return Some((message, format!("write a whole number from 0 to {max}")));
+    }
+    let message = format!("{field} is {}, expected {expected}", plain_found(found));
+    Some((message, format!("write {expected}")))
+}
+
+/// The largest value of an unsigned integer field, by serde's type name.
+fn whole_number_max(want: &str) -> Option<u64> {
+    match want {
+        "u8" => Some(u8::MAX as u64),
+        "u16" => Some(u16::MAX as u64),
+        "u32" => Some(u32::MAX as u64),
+        "u64" | "usize" => Some(u64::MAX),
+        _ => None,
+    }
+}
+
+/// The digits of serde's "integer `N`" (also "integer `N` as u128").
+fn integer_in(found: &str) -> Option<String> {
+    ticked_in(found, "integer ")
+}
+
+/// The text between backticks after `prefix` in serde's description of a value.
+fn ticked_in(found: &str, prefix: &str) -> Option<String> {
+    let rest = found.strip_prefix(prefix)?.strip_prefix('`')?;
+    let end = rest.find('`')?;
+    Some(rest[..end].to_string())
+}
+
+/// What serde found, in words: "unit value" is an empty field.
+fn plain_found(found: &str) -> String {
+    let ticked = |prefix: &str| ticked_in(found, prefix);
+    if found == "unit value" {
+        "empty".to_string()
+    } else if let Some(n) = ticked("integer ") {
+        format!("the whole number {n}")
+    } else if let Some(x) = ticked("floating point ") {
+        format!("the number {x}")
+    } else if let Some(b) = ticked("boolean ") {
+        format!("the boolean {b}")
+    } else if let Some(text) = found.strip_prefix("string ") {
+        format!("the text {text}")
+    } else if found == "map" {
+        "a mapping".to_string()
+    } else if found == "sequence" {
+        "a list".to_string()
+    } else {
+        found.to_string()
+    }
+}
+
 /// Makes serde's expectation readable for a user (`f64` → `a number`).
 fn plain_expected(want: &str) -> String {
-    match want.trim() {
-        "f64" => "a number, without units or quotes".to_string(),
-        "u32" => "a whole number from 0 up".to_string(),
+    if let Some(max) = whole_number_max(want) {
+        return format!("a whole number from 0 to {max}");
+    }
+    match want {
+        "f64" | "f32" => "a number, without units or quotes".to_string(),
+        "i64" | "i32" => "a whole number".to_string(),
         "a boolean" => "true or false".to_string(),
         "a string" => "a name (quote it if it looks like a number)".to_string(),
         "a sequence" => "a list".to_string(),
+        "a map" | "struct" => "a mapping of fields".to_string(),
+        other if other.starts_with("struct ") => "a mapping of fields".to_string(),
+        other if other.starts_with("a sequence") => "a list".to_string(),
+        other if other.starts_with("a map") => "a mapping".to_string(),
         other => other.to_string(),
+    }
+}
+
+/// The most merges (`<<`) one file may apply; past it the file is refused. Each merge copies one
+/// mapping's keys, so this bounds the work merges can add to an already bounded file.
+const MAX_MERGES: usize = 10_000;
+
+/// Applies YAML merge keys (`<<: *defaults`, or `<<: [*a, *b]`; the merge key type of YAML 1.1,
+/// yaml.org/type/merge.html): keys written beside `<<` win over merged ones, and of several merged
+/// mappings the earlier wins. A merge of anything but a mapping or a list of mappings is refused
+/// with its path and a message.
+fn apply_merges(v: &mut Value, path: &FieldPath) -> Result<(), (FieldPath, String)> {
+    let mut count = 0;
+    merge_into(v, path, &mut count)
+}
+
+fn merge_into(
+    v: &mut Value,
+    path: &FieldPath,
+    count: &mut usize,
+) -> Result<(), (FieldPath, String)> {
+    match v {
+        Value::Mapping(map) => {
+            let merge_key = Value::String("<<".to_string());
+            if let Some(source) = map.remove(&merge_key) {
+                let here = path.key("<<");
+                let sources = match source {
+                    Value::Mapping(_) => vec![source],
+                    Value::Sequence(list) => list,
+                    other => {
+                        return Err((
+                            here,
+                            format!(
+                            "a merge key `<<` takes a mapping (or a list of mappings), found {}",
+                            describe(&other)
+                        ),
+                        ))
+                    }
+                };
+                for mut source in sources {
+                    *count += 1;
+                    if *count > MAX_MERGES {
+                        return Err((
+                            here,
+                            format!("the file applies more than {MAX_MERGES} merge keys `<<`"),
+                        ));
+                    }
+                    merge_into(&mut source, &here, count)?;
+                    let Value::Mapping(entries) = source else {
+                        return Err((
+                            here,
+                            format!(
+                                "a merge key `<<` takes a mapping (or a list of mappings), found {}",
+                                describe(&source)
+                            ),
+                        ));
+                    };
+                    for (k, value) in entries {
+                        if !map.contains_key(&k) {
+                            map.insert(k, value);
+                        }
+                    }
+                }
+            }
+            for (k, value) in map.iter_mut() {
+                let child = match k.as_str() {
+                    Some(name) => path.key(name),
+                    None => path.clone(),
+                };
+                merge_into(value, &child, count)?;
+            }
+            Ok(())
+        }
+        Value::Sequence(items) => {
+            for (i, item) in items.iter_mut().enumerate() {
+                merge_into(item, &path.index(i), count)?;
+            }
+            Ok(())
+        }
+        Value::Tagged(t) => merge_into(&mut t.value, path, count),
+        _ => Ok(()),
+    }
+}
+
+/// Removes every tag, recording where each was (`!!str` and the other core tags are resolved by
+/// the parser and never reach here).
+fn untag(v: &mut Value, path: &FieldPath, found: &mut Vec<(FieldPath, String)>) {
+    if let Value::Tagged(t) = v {
+        found.push((path.clone(), t.tag.to_string()));
+        let inner = std::mem::replace(&mut t.value, Value::Null);
+        *v = inner;
+        untag(v, path, found);
+        return;
+    }
+    match v {
+        Value::Mapping(map) => {
+            for (k, value) in map.iter_mut() {
+                let child = match k.as_str() {
+                    Some(name) => path.key(name),
+                    None => path.clone(),
+                };
+                untag(value, &child, found);
+            }
+        }
+        Value::Sequence(items) => {
+            for (i, item) in items.iter_mut().enumerate() {
+                untag(item, &path.index(i), found);
+            }
+        }
+        _ => {}
     }
 }
 

@@ -12,7 +12,9 @@ use std::fmt;
 
 /// What a warning is about. Each has a fixed kebab-case name, used in messages, in the
 /// acknowledgement comment and in machine-readable output.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord, serde::Serialize)]
+#[derive(
+    Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord, serde::Serialize, schemars::JsonSchema,
+)]
 #[serde(rename_all = "kebab-case")]
 pub enum Code {
     /// A machine rating far above the plant's whole load (likely kVA written as MVA).
@@ -67,12 +69,13 @@ impl Code {
 }
 
 /// One plausibility warning (or note) in an input file.
-#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize, schemars::JsonSchema)]
 pub struct Warning {
     /// The file as the user named it.
     pub file: String,
-    /// 1-based line and column of the value, when known.
+    /// 1-based line of the value, when known.
     pub line: Option<usize>,
+    /// 1-based column of the value, when known.
     pub column: Option<usize>,
     /// Field path such as `generators[2].governor.droop_pct`.
     pub path: String,
@@ -83,7 +86,8 @@ pub struct Warning {
     pub message: String,
     /// The likely fix.
     pub help: String,
-    /// `Some(reason)` when a `nadir-ok` comment acknowledges it (the reason may be empty).
+    /// The reason written after the code when a `nadir-ok` comment acknowledges it (empty when
+    /// none is given); none while the warning is open.
     pub acknowledged: Option<String>,
 }
 

@@ -1,7 +1,8 @@
 //! Output formats: SVG plots, the HTML sign-off report and atomic file writing.
 //!
 //! `report` formats results only: it computes no physics and decides no pass or fail. Every file it
-//! writes goes through [`write::write_atomic`], so an interrupted run never leaves a truncated file.
+//! writes goes through [`write`] (outputs checked against the inputs before any work, then written
+//! atomically and race-free), so an interrupted run never leaves a truncated file.
 
 pub mod figures;
 pub mod html;

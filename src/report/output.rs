@@ -10,6 +10,7 @@
 //! no pass or fail.
 
 use super::figures::criteria_words;
+use crate::input::Warning;
 use crate::model::{Criteria, Plant, Scheme, StageTrigger};
 use crate::verify::audit::breaker_name;
 use crate::verify::compare::{Change, Comparison};
@@ -38,6 +39,9 @@ pub struct VerifyDocument {
     pub margins_searched: bool,
     /// One per case × operating point, cases in file order.
     pub runs: Vec<RunOut>,
+    /// Plausibility warnings and notes of the input files, in reading order; `acknowledged` is
+    /// null for a warning the file does not acknowledge.
+    pub input_warnings: Vec<Warning>,
 }
 
 /// The overall verdict of a verification.
@@ -205,6 +209,8 @@ pub struct CompareDocument {
     /// What differs, stage by stage, in words (the numbers are in the two schemes).
     pub changes: Vec<ChangeOut>,
     pub runs: Vec<ComparedRun>,
+    /// As in the verify document.
+    pub input_warnings: Vec<Warning>,
 }
 
 /// A shedding table with its settings as numbers.
@@ -260,6 +266,7 @@ pub fn verify_document(
     plant: &Plant,
     scheme: &Scheme,
     tool_version: &str,
+    warnings: &[Warning],
 ) -> VerifyDocument {
     let failed = m.rows.iter().filter(|r| !r.pass).count();
     VerifyDocument {
@@ -276,6 +283,7 @@ pub fn verify_document(
         criteria: criteria_out(&plant.criteria),
         margins_searched: m.rows.iter().any(|r| r.margins.is_some()),
         runs: m.rows.iter().map(run_out).collect(),
+        input_warnings: warnings.to_vec(),
     }
 }
 
@@ -286,6 +294,7 @@ pub fn compare_document(
     old: &Scheme,
     new: &Scheme,
     tool_version: &str,
+    warnings: &[Warning],
 ) -> CompareDocument {
     let runs: Vec<ComparedRun> = c
         .pairs()
@@ -322,6 +331,7 @@ pub fn compare_document(
             })
             .collect(),
         runs,
+        input_warnings: warnings.to_vec(),
     }
 }
 

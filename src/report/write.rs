@@ -59,6 +59,11 @@ pub enum WriteError {
         role: String,
         input: PathBuf,
     },
+    #[error(
+        "{0}: is a device, pipe or socket, not a file; nadir writes only plain files, even with \
+         --force; choose a file name"
+    )]
+    NotAFile(PathBuf),
     #[error("{0}: named for two outputs of this command; give each output its own file")]
     Twice(PathBuf),
     #[error(
@@ -275,6 +280,10 @@ fn check_one(path: &Path, overwrite: Overwrite, inputs: &[InputFile]) -> Result<
                 }
                 if f.is_dir() {
                     return Err(WriteError::IsDirectory(owned()));
+                }
+                // Replacing /dev/null or a named pipe (or a link to one) would destroy it.
+                if !f.is_file() {
+                    return Err(WriteError::NotAFile(owned()));
                 }
             }
             if meta.file_type().is_symlink() {
@@ -622,6 +631,24 @@ mod tests {
         assert_eq!(fs::read(&live).unwrap(), b"new");
         assert_eq!(fs::read(&pointed).unwrap(), b"keep me");
         assert!(!dir.join("nowhere.txt").exists());
+    }
+
+    #[cfg(unix)]
+    #[test]
+    fn devices_and_links_to_them_are_never_replaced() {
+        let dir = scratch("devices");
+        let link = dir.join("null.csv");
+        std::os::unix::fs::symlink("/dev/null", &link).unwrap();
+        for path in [Path::new("/dev/null"), link.as_path()] {
+            for overwrite in [Overwrite::Allow, Overwrite::Refuse] {
+                let err = check_outputs(&[path], &[], overwrite).unwrap_err();
+                assert_eq!(err, WriteError::NotAFile(path.to_path_buf()));
+            }
+        }
+        assert!(fs::symlink_metadata(&link)
+            .unwrap()
+            .file_type()
+            .is_symlink());
     }
 
     #[test]

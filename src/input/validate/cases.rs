@@ -5,9 +5,12 @@
 
 use super::*;
 
+/// The top-level fields of a cases file.
+pub(super) const CASES_KEYS: &[&str] = &["cases"];
+
 /// Validates a cases file against its plant; `None` when any diagnostic was recorded.
 pub fn cases(r: &mut Reader, map: &Mapping, plant: &Plant) -> Option<CaseSet> {
-    r.check_top_keys(map, &["cases"]);
+    r.check_top_keys(map, CASES_KEYS);
     let list: Vec<Slot<RawCase>> = r.list(map, "cases", true, limits::CASES)?;
     if list.is_empty() {
         r.error(
@@ -329,10 +332,11 @@ fn case(r: &mut Reader, p: &FieldPath, c: &RawCase, plant: &Plant) -> Case {
                     r.error(
                         &p.key("start"),
                         format!(
-                            "case `{}` starts islanded, but at operating point `{}` section(s) {} carry {load} MW of load with no generator online",
+                            "case `{}` starts islanded, but at operating point `{}` section(s) {} carry {} MW of load with no generator online",
                             c.id,
                             plant.operating_points[k].id,
-                            section_list(plant, island)
+                            section_list(plant, island),
+                            mw(load)
                         ),
                         "limit the case with only_at to operating points that can run islanded".to_string(),
                     );

@@ -64,6 +64,37 @@ fn written(options: &[(&'static str, bool)]) -> (usize, String) {
     (given.len(), said)
 }
 
+/// A value of any unit in a range message: at most 6 significant digits and no trailing zeros, so
+/// 5.712000000000001 reads 5.712, while a tiny time constant such as 1e-12 s is still shown (MW
+/// figures that nadir computes use [`mw`]); very large and very small magnitudes in exponent form.
+fn shown(x: f64) -> String {
+    if !x.is_finite() {
+        return format!("{x}");
+    }
+    if x == 0.0 {
+        return "0".to_string();
+    }
+    let magnitude = x.abs().log10().floor() as i32;
+    if !(-6..15).contains(&magnitude) {
+        let text = format!("{x:.5e}");
+        let (mantissa, exponent) = text.split_once('e').unwrap_or((&text, "0"));
+        let mantissa = mantissa.trim_end_matches('0').trim_end_matches('.');
+        return format!("{mantissa}e{exponent}");
+    }
+    let decimals = (5 - magnitude).max(0) as usize;
+    let text = format!("{x:.decimals$}");
+    let text = if text.contains('.') {
+        text.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        text
+    };
+    if text == "-0" {
+        "0".to_string()
+    } else {
+        text
+    }
+}
+
 fn field_name(path: &FieldPath) -> String {
     match path.0.last() {
         Some(Seg::Key(k)) => k.clone(),
@@ -84,10 +115,10 @@ fn range_text(name: &str, lo: Lo, hi: Hi, unit: &str) -> String {
     };
     match (lo_text, hi_text) {
         (None, None) => format!("any finite {name}"),
-        (Some((a, _, rev)), None) => format!("{name} {rev} {a}{unit}"),
-        (None, Some((b, op))) => format!("{name} {op} {b}{unit}"),
+        (Some((a, _, rev)), None) => format!("{name} {rev} {}{unit}", shown(a)),
+        (None, Some((b, op))) => format!("{name} {op} {}{unit}", shown(b)),
         (Some((a, op_lo, _)), Some((b, op_hi))) => {
-            format!("{a} {op_lo} {name} {op_hi} {b}{unit}")
+            format!("{} {op_lo} {name} {op_hi} {}{unit}", shown(a), shown(b))
         }
     }
 }
@@ -113,9 +144,9 @@ fn num(r: &mut Reader, path: &FieldPath, v: f64, lo: Lo, hi: Hi, unit: &str) -> 
     };
     if low_bad {
         let msg = match lo {
-            Lo::Above(0.0) => format!("{name} must be greater than 0, got {v}{unit}"),
-            Lo::AtLeast(0.0) => format!("{name} must not be negative, got {v}{unit}"),
-            _ => format!("{name} {v}{unit} is implausibly low"),
+            Lo::Above(0.0) => format!("{name} must be greater than 0, got {}{unit}", shown(v)),
+            Lo::AtLeast(0.0) => format!("{name} must not be negative, got {}{unit}", shown(v)),
+            _ => format!("{name} {}{unit} is implausibly low", shown(v)),
         };
         r.error(path, msg, allowed);
         return false;
@@ -128,7 +159,7 @@ fn num(r: &mut Reader, path: &FieldPath, v: f64, lo: Lo, hi: Hi, unit: &str) -> 
     if high_bad {
         r.error(
             path,
-            format!("{name} {v}{unit} is implausibly high"),
+            format!("{name} {}{unit} is implausibly high", shown(v)),
             allowed,
         );
         return false;
@@ -218,6 +249,9 @@ impl Ids {
         path: &FieldPath,
         what: &'static str,
     ) {
+        if let Some((message, help)) = id_problem(what, id) {
+            r.error(path, message, help);
+        }
         if let Some((_, first, first_what)) = self.entries.get(id) {
             let line = r
                 .line_of(first)
@@ -256,6 +290,141 @@ impl Ids {
     fn known(&self) -> Vec<&str> {
         self.order.iter().map(String::as_str).collect()
     }
+}
+
+/// What is wrong with an id as written, if anything: empty, spaces before or after it (two ids
+/// that differ only there would look the same), or an invisible, control or bidirectional
+/// formatting character (which make different ids look alike, or one id look like another).
+fn id_problem(what: &str, id: &str) -> Option<(String, String)> {
+    if id.is_empty() {
+        return Some((
+            format!("the {what} id is empty"),
+            format!("give the {what} a short name such as `pump-1`"),
+        ));
+    }
+    if id.trim() != id {
+        return Some((
+            format!(
+                "the {what} id \"{}\" has spaces before or after it",
+                escaped_id(id)
+            ),
+            format!(
+                "write it as `{}`: ids must match exactly where they are used",
+                id.trim()
+            ),
+        ));
+    }
+    if let Some(c) = id.chars().find(|&c| invisible(c)) {
+        let kind = if bidirectional(c) {
+            "the bidirectional control character"
+        } else if c.is_control() {
+            "the control character"
+        } else {
+            "the invisible character"
+        };
+        return Some((
+            format!(
+                "the {what} id `{}` contains {kind} U+{:04X}",
+                escaped_id(id),
+                c as u32
+            ),
+            "retype the id with visible characters only; such characters make different ids look the same".to_string(),
+        ));
+    }
+    None
+}
+
+/// Unicode's bidirectional formatting characters (Unicode Standard Annex #9, table 2, and the
+/// marks U+200E, U+200F and U+061C).
+fn bidirectional(c: char) -> bool {
+    matches!(c, '\u{061C}' | '\u{200E}' | '\u{200F}' | '\u{202A}'..='\u{202E}' | '\u{2066}'..='\u{2069}')
+}
+
+/// Characters that print as nothing or as a plain space: control characters, bidirectional
+/// formatting, zero-width and joiner characters, the byte-order mark, soft hyphen, variation
+/// selectors, tag characters, and every space other than the ordinary one.
+fn invisible(c: char) -> bool {
+    c.is_control()
+        || bidirectional(c)
+        || (c.is_whitespace() && c != ' ')
+        || matches!(c,
+            '\u{00AD}' | '\u{034F}' | '\u{115F}' | '\u{1160}' | '\u{17B4}' | '\u{17B5}'
+            | '\u{180B}'..='\u{180F}' | '\u{200B}'..='\u{200D}' | '\u{2060}'..='\u{2064}'
+            | '\u{206A}'..='\u{206F}' | '\u{3164}' | '\u{FE00}'..='\u{FE0F}' | '\u{FEFF}'
+            | '\u{FFA0}' | '\u{E0000}'..='\u{E007F}' | '\u{E0100}'..='\u{E01EF}')
+}
+
+/// An id for a message: invisible characters written as `\u{…}` so the reader sees them.
+fn escaped_id(id: &str) -> String {
+    id.chars()
+        .map(|c| {
+            if invisible(c) {
+                format!("\\u{{{:04X}}}", c as u32)
+            } else {
+                c.to_string()
+            }
+        })
+        .collect()
+}
+
+/// The kinds of input file, by their top-level fields, to recognise one given in the wrong place.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum FileKind {
+    Plant,
+    Cases,
+    Scheme,
+}
+
+impl FileKind {
+    fn name(self) -> &'static str {
+        match self {
+            FileKind::Plant => "plant",
+            FileKind::Cases => "cases",
+            FileKind::Scheme => "scheme",
+        }
+    }
+
+    fn keys(self) -> &'static [&'static str] {
+        match self {
+            FileKind::Plant => plant::PLANT_KEYS,
+            FileKind::Cases => cases::CASES_KEYS,
+            FileKind::Scheme => scheme::SCHEME_KEYS,
+        }
+    }
+}
+
+/// A file whose top-level fields are none of the expected kind's and all of another kind's is
+/// reported once, as that kind given in the wrong place, instead of one diagnostic per field.
+/// Returns whether it was.
+pub fn wrong_kind(r: &mut Reader, map: &Mapping, expected: FileKind) -> bool {
+    let keys: Vec<&str> = map.keys().filter_map(|k| k.as_str()).collect();
+    if keys.is_empty()
+        || keys.len() != map.len()
+        || keys.iter().any(|k| expected.keys().contains(k))
+    {
+        return false;
+    }
+    let Some(kind) = [FileKind::Plant, FileKind::Cases, FileKind::Scheme]
+        .into_iter()
+        .filter(|&k| k != expected)
+        .find(|k| keys.iter().all(|key| k.keys().contains(key)))
+    else {
+        return false;
+    };
+    r.error(
+        &FieldPath::root(),
+        format!(
+            "this looks like a {} file (top-level {}), not a {} file",
+            kind.name(),
+            quoted_list(&keys),
+            expected.name()
+        ),
+        format!(
+            "the files may be in the wrong order: give the {} file here; every verb takes the plant file first, then the scheme file, and the cases file after --cases (`nadir <verb> --help`)",
+            expected.name()
+        ),
+    );
+    true
 }
 
 /// Reports an id that names nothing of its kind.
@@ -432,6 +601,20 @@ mod tests {
         let c = ["steam-tg", "gas-engine", "steam-tg-2"];
         assert_eq!(near_matches("stean-tg", c.iter().copied())[0], "steam-tg");
         assert!(near_matches("pump", c.iter().copied()).is_empty());
+    }
+
+    #[test]
+    fn numbers_are_shown_with_six_significant_digits_at_most() {
+        assert_eq!(shown(5.712000000000001), "5.712");
+        assert_eq!(shown(0.1 + 0.2), "0.3");
+        assert_eq!(shown(23.1), "23.1");
+        assert_eq!(shown(1250.0), "1250");
+        assert_eq!(shown(-0.35), "-0.35");
+        assert_eq!(shown(0.0), "0");
+        assert_eq!(shown(-1e-9), "-1e-9");
+        assert_eq!(shown(1e300), "1e300");
+        assert_eq!(shown(123456789.0), "123456789");
+        assert_eq!(shown(f64::NAN), "NaN");
     }
 
     #[test]

@@ -6,8 +6,11 @@
 
 use super::*;
 
+/// The top-level fields of a scheme file.
+pub(super) const SCHEME_KEYS: &[&str] = &["name", "measurement", "stages"];
+
 pub fn scheme(r: &mut Reader, map: &Mapping, plant: &Plant, default_name: &str) -> Option<Scheme> {
-    r.check_top_keys(map, &["name", "measurement", "stages"]);
+    r.check_top_keys(map, SCHEME_KEYS);
     let name: Option<String> = r.optional(map, "name");
     let raw_m: Option<RawMeasurement> = r.optional(map, "measurement");
     let list: Option<Vec<Slot<RawStage>>> = r.list(map, "stages", true, limits::STAGES);

@@ -79,7 +79,8 @@ pub struct OrderedStage {
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Finding {
     /// A short stable name. Violations: `rank-order`, `unassigned-lower-rank`, `never-shed`,
-    /// `spacing`, `above-normal-band`. Notes: `empty-at-point`, `several-stages`, `measured-elsewhere`.
+    /// `spacing`, `above-normal-band`. Notes: `empty-at-point`, `several-stages`, `measured-elsewhere`,
+    /// `df/dt-supervised`.
     pub rule: &'static str,
     /// The finding in words, naming stages, loads, events and values.
     pub message: String,

@@ -17,6 +17,8 @@
 //! - a frequency stage can operate in an island without the utility; in an island held by the
 //!   utility only when the case's utility frequency falls below its pickup (a grid-wide event);
 //! - loads opened by armed stages at an earlier event of the same case are already open;
+//! - a df/dt-supervised stage is taken to operate at its pickup; a note names the first stage
+//!   after it that would open higher-ranked loads while its loads stay on, on a slower fall;
 //! - breakers opened by protection during a run (interface or generator trips) are not events of
 //!   the audit: `nadir verify` shows what they do.
 //!
@@ -26,7 +28,8 @@
 use super::Finding;
 use crate::model::{Action, BreakerRef, Case, CaseSet, Plant, Scheme, StageTrigger, Start};
 use crate::topology::{islands, BreakerState, Island};
-use std::collections::BTreeSet;
+use std::cmp::Reverse;
+use std::collections::{BTreeSet, BinaryHeap};
 
 /// How many places a finding names before it says "and N more".
 const PLACES_SHOWN: usize = 3;
@@ -321,8 +324,11 @@ pub fn rank_order(
         .map(|s| s.measuring_section(plant))
         .collect();
     // Keyed by (stage position in operating order, rule) for a stable order.
-    // By stage position in operating order × 2 + rule, so the findings come out in that order.
-    let mut found: Vec<Option<Gathered>> = (0..2 * order.len()).map(|_| None).collect();
+    // By stage position in operating order × 3 + rule, so the findings come out in that order.
+    // Rule 2 is the note on df/dt-supervised stages that a slow fall skips.
+    let mut found: Vec<Option<Gathered>> = (0..3 * order.len()).map(|_| None).collect();
+    let mut sup_opened = vec![false; n_loads];
+    let mut backed = vec![false; n_loads];
     let mut touched_flag = vec![false; found.len()];
     // By stage: loads it opens in another island than the one it measures in, and where first.
     let mut elsewhere: Vec<Option<(BTreeSet<(u32, usize)>, String)>> =
@@ -394,12 +400,63 @@ pub fn rank_order(
                 on[l] = true;
                 slot[l] = k;
             }
+            // Loads opened so far only by df/dt-supervised stages (lowest rank on top): on a fall
+            // slower than their setting those stages do not operate and the loads stay on.
+            let mut skippable: BinaryHeap<Reverse<(u32, usize)>> = BinaryHeap::new();
+            let mut reset: Vec<usize> = Vec::new();
             for group in walk_order(scheme, &order, &measures, event, island) {
                 let opened: Vec<(usize, usize)> = group
                     .iter()
                     .flat_map(|&s| scheme.stages[s].sheds.iter().map(move |&l| (s, l)))
                     .filter(|&(_, l)| on[l])
                     .collect();
+                let supervised = matches!(
+                    scheme.stages[group[0]].trigger,
+                    StageTrigger::Frequency {
+                        min_rocof_hz_per_s: Some(_),
+                        ..
+                    }
+                );
+                if supervised {
+                    for &(_, l) in &opened {
+                        sup_opened[l] = true;
+                        skippable.push(Reverse((rank[l], l)));
+                        reset.push(l);
+                    }
+                } else if !skippable.is_empty() {
+                    for &s in &group {
+                        for &l in &scheme.stages[s].sheds {
+                            backed[l] = true;
+                            reset.push(l);
+                        }
+                    }
+                    while skippable.peek().is_some_and(|Reverse((_, m))| backed[*m]) {
+                        skippable.pop();
+                    }
+                    if let Some(&Reverse((low, m))) = skippable.peek() {
+                        // Named once per walk, at the first stage it affects: the later ones
+                        // follow from it.
+                        skippable.clear();
+                        for &s in &group {
+                            for &l in &scheme.stages[s].sheds {
+                                if (on[l] || sup_opened[l]) && rank[l] > low {
+                                    let key = 3 * position[s] + 2;
+                                    let g = found[key].get_or_insert_with(|| Gathered {
+                                        opened: vec![false; n_loads],
+                                        ..Gathered::default()
+                                    });
+                                    g.opened[l] = true;
+                                    if g.left_on.len() <= LOADS_SHOWN {
+                                        g.left_on.insert((low, m));
+                                    }
+                                    if !std::mem::replace(&mut touched_flag[key], true) {
+                                        touched.push(key);
+                                    }
+                                }
+                            }
+                        }
+                    }
+                }
                 for &(_, l) in &opened {
                     if !std::mem::replace(&mut on[l], false) {
                         continue;
@@ -426,7 +483,7 @@ pub fn rank_order(
                         if !first.is_some_and(|m| rank[m] < rank_l) {
                             continue;
                         }
-                        let key = 2 * position[s] + usize::from(rule);
+                        let key = 3 * position[s] + usize::from(rule);
                         let g = found[key].get_or_insert_with(|| Gathered {
                             opened: vec![false; n_loads],
                             ..Gathered::default()
@@ -461,6 +518,10 @@ pub fn rank_order(
             for &l in &staged {
                 on[l] = false;
             }
+            for l in reset {
+                sup_opened[l] = false;
+                backed[l] = false;
+            }
         }
         for key in touched {
             touched_flag[key] = false;
@@ -483,22 +544,25 @@ pub fn rank_order(
     let findings = found
         .into_iter()
         .enumerate()
-        .filter_map(|(key, g)| g.map(|g| (key / 2, key % 2, g)))
+        .filter_map(|(key, g)| g.map(|g| (key / 3, key % 3, g)))
         .map(|(pos, rule, g)| {
             let opened: BTreeSet<(u32, usize)> = (0..n_loads)
                 .filter(|&l| g.opened[l])
                 .map(|l| (rank[l], l))
                 .collect();
-            let rule = if rule == 0 {
-                "rank-order"
-            } else {
-                "unassigned-lower-rank"
-            };
             let verb = if g.left_on.len() == 1 { "is" } else { "are" };
-            let what = if rule == "rank-order" {
-                format!("{verb} still connected")
-            } else {
-                format!("{verb} connected and in no stage")
+            let (rule, what) = match rule {
+                0 => ("rank-order", format!("{verb} still connected")),
+                1 => (
+                    "unassigned-lower-rank",
+                    format!("{verb} connected and in no stage"),
+                ),
+                _ => (
+                    "df/dt-supervised",
+                    format!(
+                        "{verb} still connected when the df/dt-supervised stage before it does not operate (a fall slower than its df/dt setting)"
+                    ),
+                ),
             };
             let mut places: Vec<String> = g
                 .places
@@ -528,7 +592,10 @@ pub fn rank_order(
                 ),
             }
         })
-        .collect();
+        .collect::<Vec<Finding>>();
+    let (supervised_notes, findings): (Vec<Finding>, Vec<Finding>) = findings
+        .into_iter()
+        .partition(|f| f.rule == "df/dt-supervised");
     let notes = order
         .iter()
         .filter_map(|&i| elsewhere[i].as_ref().map(|e| (i, e)))
@@ -543,6 +610,7 @@ pub fn rank_order(
                 ),
             }
         })
+        .chain(supervised_notes)
         .collect();
     (findings, notes, basis)
 }

@@ -26,7 +26,7 @@ use protection::frequency_trip;
 
 // ---------------------------------------------------------------- plant file
 
-const PLANT_KEYS: &[&str] = &[
+pub(super) const PLANT_KEYS: &[&str] = &[
     "plant",
     "sections",
     "ties",

@@ -372,9 +372,10 @@ pub(super) fn check_islands(r: &mut Reader, plant: &Plant, explicit_ops: bool) {
                 r.error(
                     &path,
                     format!(
-                        "at operating point `{}`, section(s) {} carry {load} MW of load but have no generator online and no utility connection",
+                        "at operating point `{}`, section(s) {} carry {} MW of load but have no generator online and no utility connection",
                         plant.operating_points[k].id,
-                        section_list(plant, island)
+                        section_list(plant, island),
+                        mw(load)
                     ),
                     "put a generator online there, close a tie to a section with supply, or move the loads".to_string(),
                 );
