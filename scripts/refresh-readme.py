@@ -14,6 +14,7 @@ BLOCKS = {
     "### `nadir replay": [N, "replay", P, S, "--cases", C, "--case", "utility-loss-then-engine-trip",
                           "--at", "full-rate", "--plot", "docs/demo-utility-loss-then-engine-trip.svg", "--force"],
     "### `nadir audit": [N, "audit", P, S, "--cases", C],
+    "### `nadir sheet": [N, "sheet", P, S],
     "### `nadir compare": [N, "compare", P, S, "schemes/biorefinery-proposed.yaml", "--cases", C],
 }
 
@@ -49,3 +50,6 @@ for heading, cmd in BLOCKS.items():
     end = text.index("\n```", fence)
     text = text[:fence] + out + text[end:]
 open("README.md", "w", encoding="utf-8").write(text)
+# The second demo plot the README links: both islands after the bus split.
+subprocess.run([N, "replay", P, S, "--cases", C, "--case", "bus-split-islanded",
+                "--plot", "docs/demo-bus-split-islanded.svg", "--force"], capture_output=True, check=True)

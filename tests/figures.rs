@@ -395,7 +395,35 @@ fn the_verify_table_fits_120_columns_and_names_the_rocof_window() {
     assert!(width(&compare.stdout) <= 120, "{}", compare.stdout);
     assert!(compare
         .stdout
-        .contains("utility-loss-then-engine-trip at full-rate: did not recover above 49.5 Hz"));
+        .contains("utility-loss-then-engine-trip at full-rate: did not recover above 49.5 Hz and stay there (limit 18.00 s, 10 s after"));
+    // The deadline is said the way the criterion reads: counted from the last event (8 s).
+    let r = nadir(&[
+        "verify",
+        DEMO_PLANT,
+        "schemes/biorefinery-proposed.yaml",
+        "--cases",
+        DEMO_CASES,
+        "--no-margins",
+        "--format",
+        "json",
+    ]);
+    let doc: serde_json::Value = serde_json::from_str(&r.stdout).unwrap();
+    let failed = run_of(&doc, "utility-loss-then-engine-trip", "full-rate");
+    let messages: Vec<&str> = failed["failures"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|f| f["message"].as_str().unwrap())
+        .collect();
+    assert!(messages.contains(
+        &"did not recover above 49.5 Hz and stay there (limit 18.00 s, 10 s after the last event at 8.00 s)"
+    ), "{messages:?}");
+    assert!(
+        messages
+            .iter()
+            .any(|m| m.contains("from 20.00 s on, below the 49.5–50.5 Hz settling band")),
+        "{messages:?}"
+    );
 }
 
 #[test]

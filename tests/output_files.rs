@@ -225,6 +225,8 @@ fn symbolic_link_outputs_are_refused_without_force_and_replaced_as_links_with_it
     fs::write(dir.join("elsewhere.csv"), b"keep").unwrap();
     std::os::unix::fs::symlink("elsewhere.csv", dir.join("live.csv")).unwrap();
     std::os::unix::fs::symlink("missing/nowhere.csv", dir.join("dangling.csv")).unwrap();
+    // A plot is .svg or .png, so the plot's dangling link has that extension.
+    std::os::unix::fs::symlink("missing/nowhere.svg", dir.join("dangling.svg")).unwrap();
 
     let (code, _, stderr) = run(&dir, &with(&REPLAY, &["--csv", "live.csv"]));
     assert_eq!(code, 2);
@@ -243,11 +245,11 @@ fn symbolic_link_outputs_are_refused_without_force_and_replaced_as_links_with_it
         &dir,
         &with(
             &REPLAY,
-            &["--csv", "live.csv", "--plot", "dangling.csv", "--force"],
+            &["--csv", "live.csv", "--plot", "dangling.svg", "--force"],
         ),
     );
     assert_eq!(code, 0, "{stderr}");
-    for link in ["live.csv", "dangling.csv"] {
+    for link in ["live.csv", "dangling.svg"] {
         let meta = fs::symlink_metadata(dir.join(link)).unwrap();
         assert!(meta.file_type().is_file(), "{link} is now a plain file");
     }

@@ -102,7 +102,11 @@ fn the_demo_report_has_every_section_and_identifies_its_inputs() {
         "model error %",
         "failed criterion",
         "<h2>Frequency after each case</h2>",
-        "lowest frequency of any bus section",
+        "Each line is one island's frequency at one operating point",
+        "<nav class=\"toc\">",
+        "<div id=\"warnings\">",
+        "<h2>Relay setting sheet</h2>",
+        "<td>df/dt supervision</td>",
         "<h2>Review and sign-off</h2>",
         "Reviewed by (name)",
         "Signature",
@@ -141,9 +145,78 @@ fn one_plot_per_case_and_nothing_to_fetch() {
     // Every operating point of the first case (it applies to all three) is a line in its plot.
     let first = &html[html.find("<figure").unwrap()..html.find("</figure>").unwrap()];
     for point in ["full-rate", "turndown", "stg-1-maintenance"] {
-        assert!(first.contains(&format!(">{point}</text>")), "{point}");
+        assert!(
+            first.contains(&format!("data-label=\"{point}, island mv-a+mv-b\"")),
+            "{point}"
+        );
     }
-    assert!(first.contains("uf-1 49 Hz") && first.contains("min 47.5 Hz"));
+    assert!(first.contains("uf-1 49 Hz") && first.contains("minimum 47.5 Hz"));
+    // After the bus split each island is its own line (the over-frequency one included).
+    let split = &html[html.find("<h3>bus-split-islanded</h3>").unwrap()..];
+    let split = &split[..split.find("</figure>").unwrap()];
+    assert!(split.contains("data-label=\"turndown, island mv-a\""));
+    assert!(split.contains("data-label=\"turndown, island mv-b\""));
+    assert!(split.contains("peak 50.39 Hz"));
+}
+
+/// The report-size ceiling of issue 13 for the demo (twelve runs): under 400 KB.
+#[test]
+fn the_demo_report_is_under_400_kb() {
+    let (path, _) = demo();
+    let size = std::fs::metadata(path).unwrap().len();
+    assert!(size < 400_000, "the demo report is {size} bytes");
+}
+
+/// The warnings box comes before the verdict, the contents before both.
+#[test]
+fn contents_then_warnings_then_verdict() {
+    let (_, html) = demo();
+    let toc = html.find("<nav class=\"toc\">").unwrap();
+    let warnings = html.find("<div id=\"warnings\">").unwrap();
+    let verdict = html.find("<section class=\"verdict").unwrap();
+    assert!(toc < warnings && warnings < verdict);
+    for anchor in [
+        "#verdict",
+        "#sheet",
+        "#matrix",
+        "#case-1",
+        "#case-7",
+        "#sign-off",
+    ] {
+        let id = &anchor[1..];
+        assert!(html.contains(&format!("href=\"{anchor}\"")), "{anchor}");
+        assert!(html.contains(&format!("id=\"{id}\"")), "{id}");
+    }
+}
+
+/// Input paths given as absolute paths are shown relative to the working directory.
+#[test]
+fn input_paths_are_relative_to_the_working_directory() {
+    let out = scratch_dir("relative").join("r.html");
+    let abs = |p: &str| root().join(p).to_str().unwrap().to_string();
+    let o = Command::new(env!("CARGO_BIN_EXE_nadir"))
+        .args([
+            "report",
+            &abs(PLANT),
+            &abs(SCHEME),
+            "--cases",
+            &abs(CASES),
+            "-o",
+        ])
+        .arg(&out)
+        .current_dir(root().join("examples"))
+        .env("SOURCE_DATE_EPOCH", EPOCH)
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let html = std::fs::read_to_string(&out).unwrap();
+    assert!(html.contains("<td>biorefinery/plant.yaml</td>"));
+    assert!(html.contains("<td>../schemes/biorefinery.yaml</td>"));
+    let here = root();
+    assert!(
+        !html.contains(here.to_str().unwrap()),
+        "an absolute path in the report"
+    );
 }
 
 #[test]

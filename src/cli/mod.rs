@@ -16,6 +16,7 @@ pub mod load;
 pub mod replay;
 pub mod report;
 pub mod schema;
+pub mod sheet;
 pub mod verify;
 
 use clap::{Parser, Subcommand};
@@ -57,6 +58,9 @@ pub enum Command {
     Design(design::DesignArgs),
     /// Write the JSON Schemas of the plant, cases and scheme files.
     Schema(schema::SchemaArgs),
+    /// Write the relay setting sheet: one row per element a technician sets (CSV, HTML or
+    /// Markdown).
+    Sheet(sheet::SheetArgs),
 }
 
 /// How a verb that ran to the end came out.
@@ -82,6 +86,7 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
         Command::Compare(args) => compare::run(args),
         Command::Report(args) => report::run(args),
         Command::Design(args) => design::run(args),
+        Command::Sheet(args) => sheet::run(args),
     }?;
     if !says_it_itself {
         if let Some(caveat) = load::verdict_caveat() {

@@ -4,10 +4,10 @@
 use super::check::{finish, fmt};
 use super::verify::wrap_text;
 use super::{load, Outcome};
-use anyhow::bail;
-use nadir::model::{Case, Plant, Scheme, StageTrigger};
+use anyhow::{bail, Context};
+use nadir::model::{Case, Plant};
 use nadir::report::figures::{criteria_words, setting, FIGURES_NOTE};
-use nadir::report::svg::{self, FrequencyPlot, Level, LevelKind, Series};
+use nadir::report::plot::{self, RunAt};
 use nadir::sim::{self, Cause, EventKind, IslandEnd, Run};
 use nadir::verify::criteria::{judge, Observed};
 use nadir::verify::matrix::{observe, sim_config_for};
@@ -35,8 +35,9 @@ pub struct ReplayArgs {
     /// Write the sampled frequencies and shed MW as CSV.
     #[arg(long, value_name = "FILE")]
     pub csv: Option<PathBuf>,
-    /// Write a plot of frequency and shed MW against time as SVG.
-    #[arg(long, value_name = "FILE.svg")]
+    /// Write a plot of every island's frequency, the limits, events, stages and MW shed against
+    /// time: PNG when FILE ends in .png, SVG when it ends in .svg (other extensions are refused).
+    #[arg(long, value_name = "FILE.svg|FILE.png")]
     pub plot: Option<PathBuf>,
     /// Replace the --csv and --plot files if they exist (never one of the input files). A
     /// symbolic link there is replaced as a link; the file it points to is not written.
@@ -59,9 +60,13 @@ pub fn run(args: ReplayArgs) -> anyhow::Result<Outcome> {
         ],
         args.force,
     )?;
+    let plot_format = match &args.plot {
+        Some(path) => Some(plot::Format::for_path(path).map_err(anyhow::Error::msg)?),
+        None => None,
+    };
     let mut targets = targets.into_iter();
-    let csv_target = args.csv.as_ref().and(targets.next());
-    let plot_target = args.plot.as_ref().and(targets.next());
+    let csv_target = args.csv.as_ref().and_then(|_| targets.next());
+    let plot_target = args.plot.as_ref().and_then(|_| targets.next());
     let plant = load::plant(&args.plant)?;
     let cases = load::cases(&args.cases, &plant)?;
     let scheme = load::scheme(&args.scheme, &plant)?;
@@ -128,10 +133,14 @@ pub fn run(args: ReplayArgs) -> anyhow::Result<Outcome> {
         target.write(csv_text(&plant, &run)?.as_bytes())?;
         out.push_str(&format!("Samples written to {}\n", target.path().display()));
     }
-    if let Some(target) = &plot_target {
+    if let (Some(target), Some(format)) = (&plot_target, plot_format) {
         let title = format!("{} at {} — {}", case.id, point.id, scheme.name);
-        let plot = plot_for(&plant, &scheme, &run, title, case.duration_s);
-        target.write(svg::render(&plot).as_bytes())?;
+        let runs = [RunAt {
+            point: &point.id,
+            run: &run,
+        }];
+        let drawn = plot::build(&plant, &scheme, case, &runs, title, false);
+        target.write(&format.bytes(&drawn).context("drawing the plot")?)?;
         out.push_str(&format!("Plot written to {}\n", target.path().display()));
     }
     out.push_str("Criteria:\n");
@@ -336,71 +345,4 @@ fn csv_text(plant: &Plant, run: &Run) -> anyhow::Result<String> {
         w.write_record(&rec)?;
     }
     Ok(String::from_utf8(w.into_inner()?)?)
-}
-
-/// The plot of one run: one trace per section (sections of one island overlap), the scheme's
-/// pickups, the criteria's limits and recovery level, and the cumulative shed.
-pub fn plot_for(
-    plant: &Plant,
-    scheme: &Scheme,
-    run: &Run,
-    title: String,
-    duration_s: f64,
-) -> FrequencyPlot {
-    let mut series = Vec::new();
-    if let Some(trace) = &run.trace {
-        let shed: Vec<(f64, f64)> = trace
-            .t_s
-            .iter()
-            .copied()
-            .zip(trace.shed_mw.iter().copied())
-            .collect();
-        for (s, hz) in trace.section_hz.iter().enumerate() {
-            series.push(Series {
-                label: plant.sections[s].id.clone(),
-                points: trace.t_s.iter().copied().zip(hz.iter().copied()).collect(),
-                shed_mw: if s == 0 { shed.clone() } else { Vec::new() },
-            });
-        }
-    }
-    FrequencyPlot {
-        title,
-        nominal_hz: plant.nominal_hz,
-        duration_s,
-        series,
-        levels: levels(plant, scheme),
-    }
-}
-
-/// Stage pickups and the criteria as labelled lines.
-pub fn levels(plant: &Plant, scheme: &Scheme) -> Vec<Level> {
-    let mut levels: Vec<Level> = scheme
-        .stages
-        .iter()
-        .filter_map(|s| match s.trigger {
-            StageTrigger::Frequency { pickup_hz, .. } => Some(Level {
-                label: s.id.clone(),
-                hz: pickup_hz,
-                kind: LevelKind::Pickup,
-            }),
-            StageTrigger::Breaker(_) => None,
-        })
-        .collect();
-    let c = &plant.criteria;
-    levels.push(Level {
-        label: "min".into(),
-        hz: c.min_hz,
-        kind: LevelKind::Limit,
-    });
-    levels.push(Level {
-        label: "max".into(),
-        hz: c.max_hz,
-        kind: LevelKind::Limit,
-    });
-    levels.push(Level {
-        label: "recover".into(),
-        hz: c.recover_above_hz,
-        kind: LevelKind::Recovery,
-    });
-    levels
 }

@@ -8,7 +8,8 @@ use super::Outcome;
 use anyhow::{bail, Context};
 use nadir::model::{CaseSet, Plant, Scheme};
 use nadir::report::html::{self, CasePlot, InputFile, ReportInputs};
-use nadir::report::svg::FrequencyPlot;
+use nadir::report::plot::{self, RunAt};
+use nadir::report::sheet;
 use nadir::verify::audit::{self, AuditRules};
 use nadir::verify::matrix::{self, sim_config_for, VerifyConfig};
 use std::path::{Path, PathBuf};
@@ -78,6 +79,7 @@ pub fn run(args: ReportArgs) -> anyhow::Result<Outcome> {
     bar.finish_and_clear();
 
     let generated_utc = html::utc_timestamp(run_time_unix_s()?);
+    let setting_sheet = sheet::sheet(&plant, &scheme);
     let files = [plant_file, cases_file, scheme_file];
     let text = html::render(&ReportInputs {
         plant: &plant,
@@ -87,6 +89,7 @@ pub fn run(args: ReportArgs) -> anyhow::Result<Outcome> {
         audit_rules: &rules,
         matrix: &m,
         plots: &plots,
+        sheet: &setting_sheet,
         files: &files,
         generated_utc: &generated_utc,
         tool_version: env!("CARGO_PKG_VERSION"),
@@ -139,7 +142,7 @@ fn read_input(role: &str, path: &Path) -> anyhow::Result<(String, InputFile)> {
             nadir::input::MAX_FILE_BYTES
         );
     }
-    let file = InputFile::from_bytes(role, &path.display().to_string(), &bytes);
+    let file = InputFile::from_bytes(role, &relative_to_working_directory(path), &bytes);
     let text = String::from_utf8(bytes)
         .with_context(|| format!("reading {role} file {}: not UTF-8 text", path.display()))?;
     Ok((text, file))
@@ -159,28 +162,49 @@ fn case_plots(
         .cases
         .par_iter()
         .map(|case| {
-            let series = case
+            let runs: Vec<(String, nadir::sim::Run)> = case
                 .applies_to
                 .iter()
-                .filter_map(|&op| {
+                .map(|&op| {
                     let run = nadir::sim::simulate(plant, case, op, scheme, &sim_config);
                     progress();
-                    html::lowest_section_series(&plant.operating_points[op].id, &run)
+                    (plant.operating_points[op].id.clone(), run)
                 })
+                .collect();
+            let views: Vec<RunAt> = runs
+                .iter()
+                .map(|(point, run)| RunAt { point, run })
                 .collect();
             CasePlot {
                 case: case.id.clone(),
                 description: case.description.clone(),
-                plot: FrequencyPlot {
-                    title: case.description.clone(),
-                    nominal_hz: plant.nominal_hz,
-                    duration_s: case.duration_s,
-                    series,
-                    levels: super::replay::levels(plant, scheme),
-                },
+                plot: plot::build(plant, scheme, case, &views, case.description.clone(), true),
             }
         })
         .collect()
+}
+
+/// A path as the report shows it: relative to the working directory (`../x.yaml` when outside
+/// it), so that a report names no folder of the machine it was made on. The path as given when
+/// either cannot be resolved.
+fn relative_to_working_directory(path: &Path) -> String {
+    let (Ok(file), Ok(cwd)) = (
+        std::fs::canonicalize(path),
+        std::env::current_dir().and_then(std::fs::canonicalize),
+    ) else {
+        return path.display().to_string();
+    };
+    let f: Vec<_> = file.components().collect();
+    let c: Vec<_> = cwd.components().collect();
+    let common = f.iter().zip(&c).take_while(|(a, b)| a == b).count();
+    let mut rel = PathBuf::new();
+    for _ in common..c.len() {
+        rel.push("..");
+    }
+    for part in &f[common..] {
+        rel.push(part);
+    }
+    rel.display().to_string()
 }
 
 /// The time the report states: `SOURCE_DATE_EPOCH` when set (reproducible-builds.org

@@ -8,11 +8,11 @@
 //! inputs and time give the same bytes.
 
 use super::figures;
-use super::svg::{self, FrequencyPlot, Series};
+use super::plot::{self, Plot};
+use super::sheet::{self, Sheet};
 use crate::input::Warning;
 use crate::model::{Plant, Scheme};
 use crate::screening::Screening;
-use crate::sim::Run;
 use crate::verify::audit::{Audit, AuditRules};
 use crate::verify::matrix::Matrix;
 use sha2::{Digest, Sha256};
@@ -27,7 +27,7 @@ protection engineer, coordinated with the grid operator, and conform to local co
 pub struct InputFile {
     /// `plant`, `cases` or `scheme`.
     pub role: String,
-    /// The path as given on the command line.
+    /// The path as the report shows it (relative to the working directory).
     pub path: String,
     pub size_bytes: u64,
     /// Lower-case hexadecimal SHA-256 of the file's bytes (FIPS 180-4).
@@ -51,7 +51,7 @@ impl InputFile {
 pub struct CasePlot {
     pub case: String,
     pub description: String,
-    pub plot: FrequencyPlot,
+    pub plot: Plot,
 }
 
 /// Everything a report shows; all of it computed before.
@@ -66,6 +66,8 @@ pub struct ReportInputs<'a> {
     /// In the cases file's order.
     pub plots: &'a [CasePlot],
     pub files: &'a [InputFile],
+    /// The relay setting sheet of the scheme.
+    pub sheet: &'a Sheet,
     /// When the run was made, e.g. from [`utc_timestamp`].
     pub generated_utc: &'a str,
     /// The nadir version that made the report.
@@ -107,43 +109,17 @@ pub fn utc_timestamp(unix_s: u64) -> String {
     )
 }
 
-/// The trace of one operating point for an overlaid plot: at each sample, the lowest frequency
-/// of any section (so after a split it follows whichever island is lower), and the cumulative
-/// shed. `None` when the run kept no trace.
-pub fn lowest_section_series(label: &str, run: &Run) -> Option<Series> {
-    let trace = run.trace.as_ref()?;
-    let points = trace
-        .t_s
-        .iter()
-        .enumerate()
-        .map(|(k, &t)| {
-            let low = trace
-                .section_hz
-                .iter()
-                .filter_map(|s| s.get(k).copied())
-                .fold(f64::INFINITY, f64::min);
-            (t, low)
-        })
-        .filter(|p| p.1.is_finite())
-        .collect();
-    let shed_mw = trace
-        .t_s
-        .iter()
-        .copied()
-        .zip(trace.shed_mw.iter().copied())
-        .collect();
-    Some(Series {
-        label: label.to_string(),
-        points,
-        shed_mw,
-    })
-}
-
 /// What the caption under each plot says its lines are.
-pub const PLOT_CAPTION: &str = "One line per operating point. Each line is the lowest frequency \
-of any bus section at each sample (after a split, whichever island is lower); the lower panel is \
-the cumulative load shed. Dotted grey lines: stage pickups; dashed red: frequency limits; dashed \
-green: the recovery level.";
+pub const PLOT_CAPTION: &str = "Each line is one island's frequency at one operating point \
+(sections whose frequency is the same are one island), in its own colour, dash and marker. Red \
+dashed lines: the minimum and maximum frequency; green: the recovery level with its deadline and the \
+settling band; grey: stage pickups (dash-dot for df/dt-supervised stages). Vertical lines mark each \
+event, each breaker-armed stage's trip and each generator tripped by its own protection; a filled \
+marker, each line's nadir (and peak above nominal). A circled slash marks a pickup a line crossed \
+without the stage operating, with the reason from the run's event log. Lower panel: MW shed, \
+cumulative, each step labelled by stage; undervoltage drop-outs dotted. Time axis: the first 5 s \
+after each event are drawn wider (shaded), so the part where stages act can be read; the scale is \
+stated under the axis.";
 
 /// The whole report as HTML text.
 pub fn render(r: &ReportInputs) -> String {
@@ -156,12 +132,20 @@ pub fn render(r: &ReportInputs) -> String {
         esc(&title)
     );
     title_block(&mut h, r);
-    warnings_box(&mut h, r.warnings);
+    contents(&mut h, r);
+    h.push_str("<div id=\"warnings\">\n");
+    if r.warnings.is_empty() {
+        h.push_str("<section class=\"warnings none\">\n<strong>Warnings about the inputs:</strong> none raised.\n</section>\n");
+    } else {
+        warnings_box(&mut h, r.warnings);
+    }
+    h.push_str("</div>\n");
     verdict(&mut h, r);
     caution(&mut h);
     inputs(&mut h, r);
     plant_summary(&mut h, r);
     shedding_table(&mut h, r);
+    setting_sheet(&mut h, r);
     audit_section(&mut h, r);
     matrix_section(&mut h, r);
     plots(&mut h, r);
@@ -201,21 +185,30 @@ td.result { white-space: nowrap; }
 .caution { border: 2px solid #8a6d00; background: #fff8dc; padding: 8px 12px; margin: 10px 0; }
 .caution strong { display: block; margin-bottom: 2px; }
 figure { margin: 8px 0 18px 0; break-inside: avoid; page-break-inside: avoid; }
-figure svg { width: 100%; height: auto; max-width: 960px; display: block; border: 1px solid #ccc; }
-figcaption { font-size: 9pt; color: #222; margin-top: 3px; max-width: 960px; }
+figure svg { width: 100%; height: auto; max-width: 1000px; display: block; border: 1px solid #ccc; }
+figcaption { font-size: 9pt; color: #222; margin-top: 3px; max-width: 1000px; }
 .signoff td { border: none; padding: 22px 10px 2px 0; }
 .signoff .line { border-bottom: 1px solid #000; width: 22em; }
 .note { font-size: 9pt; color: #333; }
-@page { size: landscape; margin: 12mm; }
+nav.toc { border: 1px solid #bbb; padding: 4px 14px; margin: 10px 0; font-size: 9.5pt; columns: 2; }
+nav.toc h2 { border: none; margin: 4px 0; font-size: 11pt; column-span: all; }
+nav.toc ol { margin: 0; padding-left: 20px; }
+nav.toc ol.cases { columns: 1; font-size: 9pt; }
+nav.toc a { color: #113; text-decoration: none; }
+.warnings.none { border: 1px solid #8a4b00; background: #f7f7f7; }
+table.sheet { font-size: 8.5pt; }
+table.sheet td.blank { min-width: 5em; }
+@page { size: landscape; margin: 11mm; }
 @media print {
-  body { max-width: none; padding: 0; font-size: 9.5pt; }
-  .page { break-before: page; page-break-before: always; }
+  body { max-width: none; padding: 0; font-size: 9pt; }
+  nav.toc a::after { content: ""; }
   table { page-break-inside: auto; }
   tr { break-inside: avoid; page-break-inside: avoid; }
   thead { display: table-header-group; }
   h2, h3 { break-after: avoid; page-break-after: avoid; }
-  figure svg { width: auto; height: 140mm; max-width: 100%; }
-  .caution, .verdict, .signoff { break-inside: avoid; page-break-inside: avoid; }
+  figure { break-inside: avoid; page-break-inside: avoid; margin: 4px 0 10px 0; }
+  figure svg { width: auto; height: auto; max-height: 158mm; max-width: 100%; }
+  .caution, .verdict, .warnings, .signoff-block, nav.toc { break-inside: avoid; page-break-inside: avoid; }
 }
 "#;
 
@@ -351,7 +344,7 @@ fn verdict(h: &mut String, r: &ReportInputs) {
     };
     let _ = write!(
         h,
-        "<section class=\"verdict{}\">\n<strong>Verdict: {}.</strong> {runs}; {audit}. \
+        "<section class=\"verdict{}\" id=\"verdict\">\n<strong>Verdict: {}.</strong> {runs}; {audit}. \
 ({total} runs: {} pass, {failed} fail; {violations} audit {}.){assumes}\n</section>\n",
         if ok { "" } else { " fail" },
         if ok {
@@ -375,7 +368,7 @@ be applied on the strength of this report alone.\n</section>\n"
 }
 
 fn inputs(h: &mut String, r: &ReportInputs) {
-    h.push_str("<section>\n<h2>Inputs</h2>\n<table class=\"wide\">\n<thead><tr><th>file</th><th>path</th><th>bytes</th><th>SHA-256</th></tr></thead>\n<tbody>\n");
+    h.push_str("<section id=\"inputs\">\n<h2>Inputs</h2>\n<table class=\"wide\">\n<thead><tr><th>file</th><th>path</th><th>bytes</th><th>SHA-256</th></tr></thead>\n<tbody>\n");
     for f in r.files {
         let _ = writeln!(
             h,
@@ -398,7 +391,7 @@ fn plant_summary(h: &mut String, r: &ReportInputs) {
     let p = r.plant;
     let _ = write!(
         h,
-        "<section class=\"page\">\n<h2>Plant</h2>\n<p>{} bus {}, {} {}, {} {}, {} operating {}; \
+        "<section id=\"plant\">\n<h2>Plant</h2>\n<p>{} bus {}, {} {}, {} {}, {} operating {}; \
 nominal frequency {} Hz; {} utility connection.</p>\n",
         p.sections.len(),
         plural(p.sections.len(), "section", "sections"),
@@ -443,7 +436,7 @@ nominal frequency {} Hz; {} utility connection.</p>\n",
 
 fn shedding_table(h: &mut String, r: &ReportInputs) {
     let a = r.audit;
-    h.push_str("<section>\n<h2>Shedding table, in operating order</h2>\n<p class=\"note\">Armed stages first, then frequency stages by falling pickup. Each cell: MW the stage opens at that operating point, and in brackets the cumulative MW, each load counted once however many stages list it.</p>\n<table class=\"wide\">\n<thead><tr><th>stage</th><th>trigger</th><th>delay s</th><th>breaker s</th><th>loads (rank)</th>");
+    h.push_str("<section id=\"table\">\n<h2>Shedding table, in operating order</h2>\n<p class=\"note\">Armed stages first, then frequency stages by falling pickup. Each cell: MW the stage opens at that operating point, and in brackets the cumulative MW, each load counted once however many stages list it.</p>\n<table class=\"wide\">\n<thead><tr><th>stage</th><th>trigger</th><th>delay s</th><th>breaker s</th><th>loads (rank)</th>");
     for op in &a.operating_points {
         let _ = write!(h, "<th>{} MW (cum.)</th>", esc(op));
     }
@@ -475,7 +468,7 @@ fn audit_section(h: &mut String, r: &ReportInputs) {
     let rules = r.audit_rules;
     let _ = write!(
         h,
-        "<section>\n<h2>Audit against the plant's own rules</h2>\n<p>Rules: {}.</p>\n<p>Rank order judged in {}.</p>\n",
+        "<section id=\"audit\">\n<h2>Audit against the plant's own rules</h2>\n<p>Rules: {}.</p>\n<p>Rank order judged in {}.</p>\n",
         esc(&rules.statement()),
         esc(&r.audit.rank_order_judged_in)
     );
@@ -518,7 +511,7 @@ fn matrix_section(h: &mut String, r: &ReportInputs) {
     let failed = m.rows.iter().filter(|x| !x.pass).count();
     let _ = write!(
         h,
-        "<section class=\"page\">\n<h2>Verification matrix</h2>\n<p>{} case × operating-point runs; {} pass, {failed} fail. Failing rows are marked ✖ FAIL and set in bold.</p>\n",
+        "<section id=\"matrix\">\n<h2>Verification matrix</h2>\n<p>{} case × operating-point runs; {} pass, {failed} fail. Failing rows are marked ✖ FAIL and set in bold.</p>\n",
         m.rows.len(),
         m.rows.len() - failed
     );
@@ -573,7 +566,7 @@ fn matrix_section(h: &mut String, r: &ReportInputs) {
 }
 
 fn plots(h: &mut String, r: &ReportInputs) {
-    h.push_str("<section class=\"page\">\n<h2>Frequency after each case</h2>\n");
+    h.push_str("<section id=\"plots\">\n<h2>Frequency after each case</h2>\n");
     let _ = writeln!(h, "<p class=\"note\">{PLOT_CAPTION}</p>");
     for (i, p) in r.plots.iter().enumerate() {
         // The caption repeats the matrix rows of this case, so a printed plot page stands alone.
@@ -599,20 +592,64 @@ fn plots(h: &mut String, r: &ReportInputs) {
             .join("; ");
         let _ = write!(
             h,
-            "<figure id=\"case-{}\">\n<h3>{}</h3>\n{}<figcaption>{}. {results}.</figcaption>\n</figure>\n",
+            "<figure id=\"case-{}\">\n<h3>{}</h3>\n{}<figcaption>{}. {results}.{idle}</figcaption>\n</figure>\n",
             i + 1,
             esc(&p.case),
-            svg::render(&p.plot),
-            esc(&p.description)
+            plot::svg::render(&p.plot),
+            esc(&p.description),
+            idle = idle_note(&p.plot)
         );
     }
     h.push_str("</section>\n");
 }
 
+/// Stages whose pickup a line crossed without operating, in words, for the figure's caption.
+fn idle_note(p: &Plot) -> String {
+    if p.idle.is_empty() {
+        return String::new();
+    }
+    let items: Vec<String> = p
+        .idle
+        .iter()
+        .map(|i| {
+            let point = p.lines.get(i.style).map(|l| l.point.as_str()).unwrap_or("");
+            format!("{} at {point}: {}", esc(&i.stage), esc(&i.reason))
+        })
+        .collect();
+    format!(
+        " Pickups crossed without the stage operating: {}.",
+        items.join("; ")
+    )
+}
+
+fn contents(h: &mut String, r: &ReportInputs) {
+    h.push_str("<nav class=\"toc\">\n<h2>Contents</h2>\n<ol>\n<li><a href=\"#warnings\">Warnings</a></li>\n<li><a href=\"#verdict\">Verdict</a></li>\n<li><a href=\"#inputs\">Inputs</a></li>\n<li><a href=\"#plant\">Plant, operating points and criteria</a></li>\n<li><a href=\"#table\">Shedding table</a></li>\n<li><a href=\"#sheet\">Relay setting sheet</a></li>\n<li><a href=\"#audit\">Audit</a></li>\n<li><a href=\"#matrix\">Verification matrix</a></li>\n<li><a href=\"#plots\">Frequency after each case</a><ol class=\"cases\">\n");
+    for (i, p) in r.plots.iter().enumerate() {
+        let _ = writeln!(
+            h,
+            "<li><a href=\"#case-{}\">{}</a></li>",
+            i + 1,
+            esc(&p.case)
+        );
+    }
+    h.push_str(
+        "</ol></li>\n<li><a href=\"#sign-off\">Review and sign-off</a></li>\n</ol>\n</nav>\n",
+    );
+}
+
+fn setting_sheet(h: &mut String, r: &ReportInputs) {
+    let _ = write!(
+        h,
+        "<section id=\"sheet\">\n<h2>Relay setting sheet</h2>\n<p class=\"note\">One row per element a technician sets, in the scheme file's order (the same rows as <code>nadir sheet</code>). Frequency measurement lag: {} s for every stage. The as-left value and initials are filled in on site.</p>\n{}</section>\n",
+        r.sheet.frequency_lag_s,
+        sheet::html_table(r.sheet)
+    );
+}
+
 fn sign_off(h: &mut String, r: &ReportInputs) {
     let _ = write!(
         h,
-        "<section class=\"page signoff-block\">\n<h2>Review and sign-off</h2>\n<p>I have reviewed the \
+        "<section id=\"sign-off\" class=\"signoff-block\">\n<h2>Review and sign-off</h2>\n<p>I have reviewed the \
 shedding table <strong>{}</strong> for <strong>{}</strong> against the inputs identified above by their \
 SHA&#8209;256, and the results in this report.</p>\n<table class=\"signoff\">\n<tbody>\n\
 <tr><td>Reviewed by (name)</td><td class=\"line\"></td></tr>\n\
@@ -720,48 +757,5 @@ mod tests {
             esc(r#"<script>alert('x') & "y"</script>"#),
             "&lt;script&gt;alert(&#39;x&#39;) &amp; &quot;y&quot;&lt;/script&gt;"
         );
-    }
-
-    #[test]
-    fn the_lowest_section_is_followed_at_each_sample() {
-        let run_trace = crate::sim::Trace {
-            t_s: vec![0.0, 1.0, 2.0],
-            section_hz: vec![vec![50.0, 49.0, 49.8], vec![50.0, 49.5, 49.2]],
-            shed_mw: vec![0.0, 1.0, 1.0],
-        };
-        let series = lowest_section_series("p", &fake_run(run_trace)).expect("trace kept");
-        assert_eq!(series.points, vec![(0.0, 50.0), (1.0, 49.0), (2.0, 49.2)]);
-        assert_eq!(series.shed_mw[1], (1.0, 1.0));
-        assert!(lowest_section_series(
-            "p",
-            &Run {
-                trace: None,
-                ..fake_run(crate::sim::Trace {
-                    t_s: vec![],
-                    section_hz: vec![],
-                    shed_mw: vec![]
-                })
-            }
-        )
-        .is_none());
-    }
-
-    fn fake_run(trace: crate::sim::Trace) -> Run {
-        Run {
-            stop: crate::sim::StopReason::EndTime,
-            islands: vec![],
-            nadir_hz: 0.0,
-            nadir_at_s: 0.0,
-            peak_hz: None,
-            peak_at_s: None,
-            max_rocof_hz_per_s: 0.0,
-            final_hz: 0.0,
-            recovered_above_at_s: None,
-            went_below_recover_level: false,
-            events: vec![],
-            shed_mw: 0.0,
-            dropped_mw: 0.0,
-            trace: Some(trace),
-        }
     }
 }

@@ -1,4 +1,5 @@
-//! Output formats: SVG plots, the HTML sign-off report and atomic file writing.
+//! Output formats: the plots, the HTML sign-off report, the relay setting sheet, trace thinning,
+//! PNG rendering and atomic file writing.
 //!
 //! `report` formats results only: it computes no physics and decides no pass or fail. Every file it
 //! writes goes through [`write`] (outputs checked against the inputs before any work, then written
@@ -7,5 +8,8 @@
 pub mod figures;
 pub mod html;
 pub mod output;
-pub mod svg;
+pub mod plot;
+pub mod png;
+pub mod sheet;
+pub mod thin;
 pub mod write;

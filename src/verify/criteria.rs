@@ -104,19 +104,23 @@ pub fn judge(seen: &Observed, c: &Criteria) -> Vec<Failure> {
         Some(t) => out.push(Failure {
             criterion: "recover",
             message: format!(
-                "recovered above {} Hz only at {:.2} s, after the {:.2} s limit",
+                "recovered above {} Hz only at {:.2} s, after the {:.2} s limit ({} s after the last event at {:.2} s)",
                 num(c.recover_above_hz),
                 t,
-                deadline
+                deadline,
+                num(c.recover_within_s),
+                seen.last_event_s
             ),
             excess: t - deadline,
         }),
         None => out.push(Failure {
             criterion: "recover",
             message: format!(
-                "did not recover above {} Hz and stay there (limit {:.2} s)",
+                "did not recover above {} Hz and stay there (limit {:.2} s, {} s after the last event at {:.2} s)",
                 num(c.recover_above_hz),
-                deadline
+                deadline,
+                num(c.recover_within_s),
+                seen.last_event_s
             ),
             excess: f64::INFINITY,
         }),
@@ -137,7 +141,7 @@ pub fn judge(seen: &Observed, c: &Criteria) -> Vec<Failure> {
             out.push(Failure {
                 criterion: "settle",
                 message: format!(
-                    "was at {:.2} Hz after {:.2} s, below the {}–{} Hz settling band",
+                    "was as low as {:.2} Hz from {:.2} s on, below the {}–{} Hz settling band",
                     lo,
                     from,
                     num(c.settle_low_hz),
@@ -150,7 +154,7 @@ pub fn judge(seen: &Observed, c: &Criteria) -> Vec<Failure> {
             out.push(Failure {
                 criterion: "settle",
                 message: format!(
-                    "was at {:.2} Hz after {:.2} s, above the {}–{} Hz settling band",
+                    "was as high as {:.2} Hz from {:.2} s on, above the {}–{} Hz settling band",
                     hi,
                     from,
                     num(c.settle_low_hz),
@@ -219,9 +223,9 @@ mod tests {
             .contains("ROCOF reached 2.40 Hz/s over 0.5 s"));
         let mut seen = healthy();
         seen.recovered_at_s = Some(11.5); // first event at 1 s, 10 s allowed
-        assert!(judge(&seen, &c)[0]
-            .message
-            .contains("only at 11.50 s, after the 11.00 s limit"));
+        assert!(judge(&seen, &c)[0].message.contains(
+            "only at 11.50 s, after the 11.00 s limit (10 s after the last event at 1.00 s)"
+        ));
         let mut seen = healthy();
         seen.recovered_at_s = None;
         assert_eq!(judge(&seen, &c)[0].criterion, "recover");

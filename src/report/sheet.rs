@@ -1,0 +1,347 @@
+//! The relay setting sheet: one row per element a site technician sets, from the scheme exactly as
+//! validated — under-frequency pickup and delay, df/dt supervision with its measurement window,
+//! breaker-armed stages with the breaker that arms them — with the loads each stage opens, the MW
+//! that is at each operating point, and blank columns for the as-left value and initials.
+//!
+//! Written as CSV for spreadsheets, Markdown, a printable HTML page, and as a table inside the
+//! report. Setting values are written in Rust's shortest round-trip form (the value read from the
+//! scheme file, `49.2`, not `49.20000000000000284`), so the CSV reads back to the same scheme.
+
+use crate::model::{BreakerRef, Plant, Scheme, StageTrigger};
+use std::fmt::Write;
+
+/// What a row sets.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Element {
+    UnderFrequency,
+    DfDtSupervision,
+    BreakerArmed,
+}
+
+impl Element {
+    /// The words in the sheet's `element` column.
+    pub fn words(self) -> &'static str {
+        match self {
+            Element::UnderFrequency => "under-frequency",
+            Element::DfDtSupervision => "df/dt supervision",
+            Element::BreakerArmed => "breaker-armed",
+        }
+    }
+}
+
+/// One element of one stage.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Row {
+    pub stage: String,
+    pub element: Element,
+    pub pickup_hz: Option<f64>,
+    /// The breaker whose opening starts a breaker-armed stage.
+    pub armed_by: Option<String>,
+    pub delay_s: Option<f64>,
+    /// df/dt supervision: the stage operates only while frequency falls at least this fast.
+    pub dfdt_fall_hz_per_s: Option<f64>,
+    pub dfdt_window_s: Option<f64>,
+    pub breaker_s: Option<f64>,
+    /// Load ids the stage opens (empty on a supervision row: the stage's row lists them).
+    pub opens: Vec<String>,
+    /// MW of those loads at each operating point (in the plant's order).
+    pub mw: Vec<f64>,
+    /// How the element works with the others, in words.
+    pub logic: String,
+}
+
+/// The whole sheet.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Sheet {
+    pub plant: String,
+    pub scheme: String,
+    /// Operating point ids, the MW columns' order.
+    pub points: Vec<String>,
+    /// The frequency measurement's lag, seconds (a relay setting for every stage).
+    pub frequency_lag_s: f64,
+    pub rows: Vec<Row>,
+}
+
+/// The sheet of `scheme` on `plant`, stages in the scheme file's order.
+pub fn sheet(plant: &Plant, scheme: &Scheme) -> Sheet {
+    let points: Vec<String> = plant
+        .operating_points
+        .iter()
+        .map(|p| p.id.clone())
+        .collect();
+    let mut rows = Vec::new();
+    for st in &scheme.stages {
+        let opens: Vec<String> = st
+            .sheds
+            .iter()
+            .map(|&l| plant.loads[l].id.clone())
+            .collect();
+        let mw: Vec<f64> = plant
+            .operating_points
+            .iter()
+            .map(|op| st.sheds.iter().map(|&l| op.load_mw[l]).sum())
+            .collect();
+        match st.trigger {
+            StageTrigger::Frequency {
+                pickup_hz,
+                min_rocof_hz_per_s,
+            } => {
+                rows.push(Row {
+                    stage: st.id.clone(),
+                    element: Element::UnderFrequency,
+                    pickup_hz: Some(pickup_hz),
+                    armed_by: None,
+                    delay_s: Some(st.delay_s),
+                    dfdt_fall_hz_per_s: None,
+                    dfdt_window_s: None,
+                    breaker_s: Some(st.breaker_s),
+                    opens,
+                    mw,
+                    logic: match min_rocof_hz_per_s {
+                        Some(_) => format!(
+                            "trips when below {} Hz for {} s while the df/dt element is picked up",
+                            setting(pickup_hz),
+                            setting(st.delay_s)
+                        ),
+                        None => format!(
+                            "trips when below {} Hz for {} s",
+                            setting(pickup_hz),
+                            setting(st.delay_s)
+                        ),
+                    },
+                });
+                if let Some(rate) = min_rocof_hz_per_s {
+                    rows.push(Row {
+                        stage: st.id.clone(),
+                        element: Element::DfDtSupervision,
+                        pickup_hz: None,
+                        armed_by: None,
+                        delay_s: None,
+                        dfdt_fall_hz_per_s: Some(rate),
+                        dfdt_window_s: Some(scheme.measurement.rocof_window_s),
+                        breaker_s: None,
+                        opens: Vec::new(),
+                        mw: Vec::new(),
+                        logic: format!(
+                            "picked up while df/dt ≤ −{} Hz/s over {} s; AND with the under-frequency element",
+                            setting(rate),
+                            setting(scheme.measurement.rocof_window_s)
+                        ),
+                    });
+                }
+            }
+            StageTrigger::Breaker(b) => {
+                let name = breaker_name(plant, b);
+                rows.push(Row {
+                    stage: st.id.clone(),
+                    element: Element::BreakerArmed,
+                    pickup_hz: None,
+                    armed_by: Some(name.clone()),
+                    delay_s: Some(st.delay_s),
+                    dfdt_fall_hz_per_s: None,
+                    dfdt_window_s: None,
+                    breaker_s: Some(st.breaker_s),
+                    opens,
+                    mw,
+                    logic: format!("trips {} s after breaker {name} opens", setting(st.delay_s)),
+                });
+            }
+        }
+    }
+    Sheet {
+        plant: plant.name.clone(),
+        scheme: scheme.name.clone(),
+        points,
+        frequency_lag_s: scheme.measurement.frequency_lag_s,
+        rows,
+    }
+}
+
+/// The name a case or scheme file uses for a breaker.
+pub fn breaker_name(plant: &Plant, b: BreakerRef) -> String {
+    match b {
+        BreakerRef::Utility => plant
+            .utility
+            .as_ref()
+            .map_or_else(|| "utility".to_string(), |u| u.breaker_id.clone()),
+        BreakerRef::Tie(i) => plant.ties[i].id.clone(),
+        BreakerRef::Generator(g) => plant.generators[g].id.clone(),
+    }
+}
+
+/// Column titles, in order (the MW columns are `MW at POINT`).
+pub fn header(sheet: &Sheet) -> Vec<String> {
+    let mut h: Vec<String> = [
+        "stage",
+        "element",
+        "pickup Hz",
+        "armed by breaker",
+        "delay s",
+        "df/dt fall at least Hz/s",
+        "df/dt window s",
+        "breaker s",
+        "opens (loads)",
+    ]
+    .iter()
+    .map(|s| s.to_string())
+    .collect();
+    h.extend(sheet.points.iter().map(|p| format!("MW at {p}")));
+    h.extend(["logic", "as-left value", "initials"].map(String::from));
+    h
+}
+
+/// The cells of a row, as in [`header`] (settings in shortest round-trip form, MW to 0.01).
+pub fn cells(row: &Row, points: usize) -> Vec<String> {
+    let opt = |v: Option<f64>| v.map(setting).unwrap_or_default();
+    let mut c = vec![
+        row.stage.clone(),
+        row.element.words().to_string(),
+        opt(row.pickup_hz),
+        row.armed_by.clone().unwrap_or_default(),
+        opt(row.delay_s),
+        opt(row.dfdt_fall_hz_per_s),
+        opt(row.dfdt_window_s),
+        opt(row.breaker_s),
+        row.opens.join("; "),
+    ];
+    if row.mw.is_empty() {
+        c.extend(std::iter::repeat_n(String::new(), points));
+    } else {
+        c.extend(row.mw.iter().map(|v| format!("{v:.2}")));
+    }
+    c.extend([row.logic.clone(), String::new(), String::new()]);
+    c
+}
+
+/// A setting in its shortest round-trip form with at least one decimal (`49.0`, `0.15`).
+pub fn setting(v: f64) -> String {
+    let s = v.to_string();
+    if s.contains(['.', 'e', 'E']) || !v.is_finite() {
+        s
+    } else {
+        format!("{s}.0")
+    }
+}
+
+/// The sheet as CSV (RFC 4180). A cell that a spreadsheet would read as a formula (starting with
+/// `=`, `+`, `-`, `@`, tab or carriage return) is prefixed with `'` (OWASP "CSV Injection").
+pub fn csv(sheet: &Sheet) -> String {
+    let mut w = csv::Writer::from_writer(Vec::new());
+    let _ = w.write_record(header(sheet).iter().map(|c| guard(c)));
+    for row in &sheet.rows {
+        let _ = w.write_record(cells(row, sheet.points.len()).iter().map(|c| guard(c)));
+    }
+    String::from_utf8(w.into_inner().unwrap_or_default()).unwrap_or_default()
+}
+
+fn guard(cell: &str) -> String {
+    let numeric = cell.parse::<f64>().is_ok();
+    match cell.chars().next() {
+        Some('=' | '+' | '-' | '@' | '\t' | '\r') if !numeric => format!("'{cell}"),
+        _ => cell.to_string(),
+    }
+}
+
+/// The sheet as a Markdown table with a heading.
+pub fn markdown(sheet: &Sheet) -> String {
+    let mut s = format!(
+        "# Relay setting sheet: {}\n\nPlant: {}. Frequency measurement lag: {} s (every stage).\n\n",
+        md(&sheet.scheme),
+        md(&sheet.plant),
+        setting(sheet.frequency_lag_s)
+    );
+    let h = header(sheet);
+    let _ = writeln!(
+        s,
+        "| {} |",
+        h.iter().map(|c| md(c)).collect::<Vec<_>>().join(" | ")
+    );
+    let _ = writeln!(s, "|{}", "---|".repeat(h.len()));
+    for row in &sheet.rows {
+        let c = cells(row, sheet.points.len());
+        let _ = writeln!(
+            s,
+            "| {} |",
+            c.iter().map(|c| md(c)).collect::<Vec<_>>().join(" | ")
+        );
+    }
+    let _ = write!(
+        s,
+        "\nChecked by (name) ____________________  Date __________  Signature ____________________\n\n{}\n",
+        super::html::CAUTION
+    );
+    s
+}
+
+fn md(text: &str) -> String {
+    text.replace('|', "\\|").replace('\n', " ")
+}
+
+/// The sheet as an HTML table (for the report and the printable page).
+pub fn html_table(sheet: &Sheet) -> String {
+    use super::html::esc;
+    let mut s = String::from("<table class=\"wide sheet\">\n<thead><tr>");
+    for h in header(sheet) {
+        let _ = write!(s, "<th>{}</th>", esc(&h));
+    }
+    s.push_str("</tr></thead>\n<tbody>\n");
+    let points = sheet.points.len();
+    let numeric = |k: usize| matches!(k, 2 | 4..=7) || (9..9 + points).contains(&k);
+    for row in &sheet.rows {
+        s.push_str("<tr>");
+        for (k, c) in cells(row, points).iter().enumerate() {
+            let class = if numeric(k) {
+                " class=\"n\""
+            } else if k > 9 + points {
+                " class=\"blank\""
+            } else {
+                ""
+            };
+            let text = if k == 8 {
+                row.opens
+                    .iter()
+                    .map(|o| esc(o))
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            } else {
+                esc(c)
+            };
+            let _ = write!(s, "<td{class}>{text}</td>");
+        }
+        s.push_str("</tr>\n");
+    }
+    s.push_str("</tbody>\n</table>\n");
+    s
+}
+
+/// A printable HTML page holding the sheet alone (A4 or Letter, landscape).
+pub fn html_page(sheet: &Sheet) -> String {
+    use super::html::{esc, CAUTION};
+    format!(
+        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>Relay setting sheet: {scheme}</title>\n<style>\n{STYLE}</style>\n</head>\n<body>\n\
+<h1>Relay setting sheet</h1>\n<p><strong>{scheme}</strong> on <strong>{plant}</strong>. Frequency measurement lag: {lag} s (every stage). \
+One row per element to set; the as-left value and initials are filled in on site.</p>\n{table}\
+<table class=\"sign\"><tr><td>Set and checked by (name)</td><td class=\"line\"></td><td>Date</td><td class=\"line short\"></td><td>Signature</td><td class=\"line\"></td></tr></table>\n\
+<p class=\"note\">{CAUTION}</p>\n</body>\n</html>\n",
+        scheme = esc(&sheet.scheme),
+        plant = esc(&sheet.plant),
+        lag = sheet.frequency_lag_s,
+        table = html_table(sheet),
+    )
+}
+
+const STYLE: &str = r#"body { font-family: "DejaVu Sans", Arial, sans-serif; font-size: 10pt; margin: 16px; color: #111; }
+h1 { font-size: 15pt; margin: 0 0 6px 0; }
+table { border-collapse: collapse; margin: 8px 0; }
+th, td { border: 1px solid #777; padding: 3px 5px; text-align: left; vertical-align: top; }
+th { background: #eee; font-size: 9pt; }
+td.n { text-align: right; white-space: nowrap; }
+td.blank { min-width: 6em; }
+table.wide { width: 100%; }
+table.sign td { border: none; padding: 18px 8px 2px 0; white-space: nowrap; }
+table.sign td.line { border-bottom: 1px solid #000; width: 16em; }
+table.sign td.line.short { width: 8em; }
+.note { font-size: 8.5pt; color: #333; }
+@page { size: landscape; margin: 10mm; }
+@media print { body { margin: 0; } tr { break-inside: avoid; } thead { display: table-header-group; } }
+"#;
