@@ -213,7 +213,8 @@ pub fn cells(row: &Row, points: usize) -> Vec<String> {
     c
 }
 
-/// A setting in its shortest round-trip form with at least one decimal (`49.0`, `0.15`).
+/// A setting in its shortest round-trip form with at least one decimal (`49.0`, `0.15`, `0.0375`):
+/// exact, unlike the rounded `figures::setting` of the tables, because a technician sets this value.
 pub fn setting(v: f64) -> String {
     let s = v.to_string();
     if s.contains(['.', 'e', 'E']) || !v.is_finite() {
@@ -223,8 +224,8 @@ pub fn setting(v: f64) -> String {
     }
 }
 
-/// The sheet as CSV (RFC 4180). A cell that a spreadsheet would read as a formula (starting with
-/// `=`, `+`, `-`, `@`, tab or carriage return) is prefixed with `'` (OWASP "CSV Injection").
+/// The sheet as CSV (RFC 4180). Text cells go through [`super::output::csv_cell`] (the one CSV
+/// injection rule); numbers nadir formats itself are written as they are.
 pub fn csv(sheet: &Sheet) -> String {
     let mut w = csv::Writer::from_writer(Vec::new());
     let _ = w.write_record(header(sheet).iter().map(|c| guard(c)));
@@ -235,10 +236,10 @@ pub fn csv(sheet: &Sheet) -> String {
 }
 
 fn guard(cell: &str) -> String {
-    let numeric = cell.parse::<f64>().is_ok();
-    match cell.chars().next() {
-        Some('=' | '+' | '-' | '@' | '\t' | '\r') if !numeric => format!("'{cell}"),
-        _ => cell.to_string(),
+    if cell.parse::<f64>().is_ok() {
+        cell.to_string()
+    } else {
+        super::output::csv_cell(cell)
     }
 }
 

@@ -502,17 +502,16 @@ pub fn render(plot: &Plot) -> String {
                 let (px, py) = (x(step.at_s), ys(step.cumulative_mw));
                 marker(&mut s, st, px, py, 4.0, !uv);
                 let w = step.label.chars().count() as f64 * CHAR_W;
-                let (lx, ly) = placer.place(
-                    step.label.chars().count(),
-                    &[
-                        (px + 6.0, py - 4.0),
-                        (px + 6.0, py + 12.0),
-                        (px - 6.0 - w, py - 4.0),
-                        (px + 6.0, py - 4.0 - ROW),
-                        (px + 6.0, py + 12.0 + ROW),
-                    ],
-                    shed_box,
-                );
+                // Beside the step first, then further along the flat line to its right (a leader
+                // line joins a label that had to move).
+                let mut candidates = vec![(px - 6.0 - w, py - 4.0)];
+                for dx in [6.0, 70.0, 140.0, 210.0, 280.0, 350.0, 420.0] {
+                    for dy in [-4.0, 12.0, -4.0 - ROW, 12.0 + ROW] {
+                        candidates.push((px + dx, py + dy));
+                    }
+                }
+                candidates.swap(0, 1);
+                let (lx, ly) = placer.place(step.label.chars().count(), &candidates, shed_box);
                 leader(
                     &mut s,
                     st.colour,
