@@ -17,7 +17,6 @@ const PLANT: &str = "examples/biorefinery/plant.yaml";
 const CASES: &str = "examples/biorefinery/cases.yaml";
 
 #[test]
-#[ignore = "design does not yet follow the per-event, per-island rank rule of docs/files.md (issue 12 item 8, design side)"]
 fn the_written_scheme_verifies_and_an_existing_file_is_kept() {
     let out = scratch_dir().join("proposed.yaml");
     let _ = std::fs::remove_file(&out);
@@ -119,4 +118,49 @@ fn a_case_no_table_can_hold_is_exit_1_and_writes_nothing() {
         r.stdout
     );
     assert!(!out.exists());
+}
+
+/// `--from` tells the truth: an existing table that holds is kept, under its own name, and the
+/// output says that a fresh design is cheaper and by how much; `--name` renames the table.
+#[test]
+fn from_an_existing_table_prints_what_a_fresh_design_would_save() {
+    let out = scratch_dir().join("mill-kept.yaml");
+    let o = out.to_str().unwrap();
+    let plant = "tests/design_plants/sugar-mill.yaml";
+    let cases = "tests/design_plants/sugar-mill-cases.yaml";
+    let hand = "tests/design_plants/sugar-mill-hand.yaml";
+    let r = nadir(&[
+        "design", plant, "--cases", cases, "-o", o, "--force", "--from", hand,
+    ]);
+    assert_eq!(r.code, 0, "{}{}", r.stdout, r.stderr);
+    for words in [
+        "The existing table still holds every case; it is kept unchanged.",
+        "A fresh design is cheaper: objective",
+        "keeping costs",
+        "Run `nadir design` without --from for the fresh design.",
+    ] {
+        assert!(r.stdout.contains(words), "missing {words:?}:\n{}", r.stdout);
+    }
+    let text = std::fs::read_to_string(&out).unwrap();
+    assert!(
+        text.contains("name: Cane Ridge hand table (fictional)"),
+        "{text}"
+    );
+
+    let renamed = nadir(&[
+        "design",
+        plant,
+        "--cases",
+        cases,
+        "-o",
+        o,
+        "--force",
+        "--from",
+        hand,
+        "--name",
+        "mill table rev B",
+    ]);
+    assert_eq!(renamed.code, 0, "{}", renamed.stdout);
+    let text = std::fs::read_to_string(&out).unwrap();
+    assert!(text.contains("name: mill table rev B"), "{text}");
 }

@@ -52,6 +52,7 @@ fn demo_plant_block_reads_as_written() {
             armed_by: vec![BreakerRef::Utility],
             rocof_supervision_hz_per_s: Some(0.5),
             rank_weights: Vec::new(),
+            backstop: true,
         }
     );
 }
@@ -66,7 +67,8 @@ fn full_block_on_the_demo_plant_resolves_breakers_and_weights() {
            \x20 breaker_s: 0.06\n\
            \x20 armed_by: [utility, bus-tie, bge-1]\n\
            \x20 rocof_supervision_hz_per_s: 1.0\n\
-           \x20 rank_weights: { 10: 25.0, 1: 1.5, 2: 2.0 }\n";
+           \x20 rank_weights: { 10: 25.0, 1: 1.5, 2: 2.0 }\n\
+           \x20 backstop: false\n";
     let plant = parse(&text);
     let tie = plant.ties.iter().position(|t| t.id == "bus-tie").unwrap();
     let engine = plant.generator_index("bge-1").unwrap();
@@ -91,6 +93,7 @@ fn full_block_on_the_demo_plant_resolves_breakers_and_weights() {
             rocof_supervision_hz_per_s: Some(1.0),
             // In rank order, whatever the order written.
             rank_weights: vec![(1, 1.5), (2, 2.0), (10, 25.0)],
+            backstop: false,
         }
     );
     assert_eq!(d.rank_weight(10), 25.0);
@@ -122,20 +125,35 @@ fn partial_block_takes_the_documented_defaults() {
 #[test]
 fn plant_without_block_gets_the_defaults() {
     let plant = parse(&demo_without_design());
-    assert_eq!(plant.design, DesignLimits::defaults(50.0, true));
-    assert_eq!(plant.design.armed_by, vec![BreakerRef::Utility]);
+    // Every breaker a case can open may arm a stage: the utility, the tie, each generator.
+    let every = vec![
+        BreakerRef::Utility,
+        BreakerRef::Tie(0),
+        BreakerRef::Generator(0),
+        BreakerRef::Generator(1),
+        BreakerRef::Generator(2),
+    ];
+    assert_eq!(
+        plant.design,
+        DesignLimits {
+            armed_by: every.clone(),
+            ..DesignLimits::defaults(50.0, true)
+        }
+    );
+    assert_eq!(plant.design.armed_by, every);
     assert_eq!((plant.design.min_stages, plant.design.max_stages), (1, 6));
 }
 
-/// Without a utility nothing is armed by default, and a 60 Hz plant's pickup band scales with
-/// nominal frequency (docs/files.md: 0.98·f0 to 0.96·f0 in 0.002·f0 steps).
+/// Without a utility or ties only the generator breakers may arm by default, and a 60 Hz
+/// plant's pickup band scales with nominal frequency (docs/files.md: 0.98·f0 to 0.96·f0 in
+/// 0.002·f0 steps).
 #[test]
-fn islanded_60_hz_plant_defaults_scale_and_arm_nothing() {
+fn islanded_60_hz_plant_defaults_scale_and_arm_its_generator() {
     let text = "plant: { name: t, nominal_hz: 60 }\n\
                 generators:\n  - { id: g1, section: main, rating_mva: 10, inertia_s: 4, output_mw: 5, governor: { model: steam, droop_pct: 5 } }\n\
                 loads:\n  - { id: l1, section: main, p_mw: 5, rank: 1 }\n";
     let d = parse(text).design;
-    assert!(d.armed_by.is_empty());
+    assert_eq!(d.armed_by, vec![BreakerRef::Generator(0)]);
     assert!(close(d.highest_pickup_hz, 58.8), "{}", d.highest_pickup_hz);
     assert!(close(d.lowest_pickup_hz, 57.6), "{}", d.lowest_pickup_hz);
     assert!(close(d.pickup_step_hz, 0.12), "{}", d.pickup_step_hz);

@@ -5,6 +5,7 @@
 
 use super::check::{finish, fmt};
 use super::{load, Outcome};
+use nadir::design::backstop::Backstop;
 use nadir::design::{self, DesignError, FromOutcome, Proposal, Source};
 use nadir::verify::audit::{audit_cases, AuditRules};
 use nadir::verify::matrix::{self, VerifyConfig};
@@ -32,6 +33,10 @@ pub struct DesignArgs {
     /// the output is replaced as a link; the file it points to is not written.
     #[arg(long)]
     pub force: bool,
+    /// Name of the written table (default: the `--from` table's name, else "proposed by nadir
+    /// design").
+    #[arg(long, value_name = "NAME")]
+    pub name: Option<String>,
 }
 
 pub fn run(args: DesignArgs) -> anyhow::Result<Outcome> {
@@ -54,7 +59,7 @@ pub fn run(args: DesignArgs) -> anyhow::Result<Outcome> {
     let progress = |what: &str| spinner.set_message(what.to_string());
     let result = design::design(&plant, &cases, existing.as_ref(), &progress);
     spinner.finish_and_clear();
-    let proposal = match result {
+    let mut proposal = match result {
         Ok(p) => p,
         Err(DesignError::Unholdable(list)) => {
             let mut text = String::from("No shedding table can hold every case:\n");
@@ -65,6 +70,14 @@ pub fn run(args: DesignArgs) -> anyhow::Result<Outcome> {
             super::write_stdout(&text)?;
             return Ok(Outcome::Fail);
         }
+        Err(DesignError::NothingNeeded) => {
+            super::write_stdout(
+                "No case needs shedding: every case holds every criterion, with the required margins, with no table at all.\n\
+The plant's design block turns the backstop off (`backstop: false`), so there is no table to propose.\n\
+Nothing was written.\n",
+            )?;
+            return Ok(Outcome::Pass);
+        }
         Err(DesignError::NoLayout(why)) => {
             super::write_stdout(&format!(
                 "No table proposed: {why}.\nNothing was written.\n"
@@ -73,6 +86,9 @@ pub fn run(args: DesignArgs) -> anyhow::Result<Outcome> {
         }
     };
 
+    if let Some(name) = &args.name {
+        proposal.scheme.name = name.clone();
+    }
     let yaml = scheme_text(&plant, &proposal, &args);
     target[0].write(yaml.as_bytes())?;
 
@@ -179,11 +195,7 @@ fn stage_table(plant: &nadir::model::Plant, p: &Proposal) -> String {
             nadir::verify::audit::describe_trigger(plant, &s.trigger),
             fmt(s.delay_s, 2),
             fmt(s.breaker_s, 2),
-            s.sheds
-                .iter()
-                .map(|&l| format!("{} ({})", plant.loads[l].id, plant.loads[l].rank))
-                .collect::<Vec<_>>()
-                .join(", "),
+            loads_in_words(plant, &s.sheds),
         ];
         for op in &plant.operating_points {
             row.push(fmt(s.sheds.iter().map(|&l| op.load_mw[l]).sum(), 2));
@@ -199,11 +211,70 @@ fn stage_table(plant: &nadir::model::Plant, p: &Proposal) -> String {
             "the plain baseline table: the search found nothing that sheds less".into()
         }
         Source::Existing => "the existing table's settings".into(),
+        Source::BackstopOnly => "the backstop alone: no studied case needs shedding (every case holds with no table), so its one stage at the lowest pickup holds every sheddable load, in rank order, for events beyond the studied ones".into(),
+    };
+    let backstop = match &p.backstop {
+        Backstop::NewStage if p.source != Source::BackstopOnly => {
+            "Backstop: the loads no studied case needs are in the last stage, at the lowest pickup; no studied case operates it unless its shed is shown below.\n".to_string()
+        }
+        Backstop::LastStage => {
+            "Backstop: the loads no studied case needs were added to the last frequency stage.\n".to_string()
+        }
+        Backstop::Off => format!(
+            "No backstop (the design block says `backstop: false`): {} sheddable load(s) in no stage.\n",
+            p.unassigned.len()
+        ),
+        Backstop::NotHeld(why) => format!(
+            "No backstop: {why}; these sheddable loads are in no stage: {}.\n",
+            p.unassigned.join(", ")
+        ),
+        _ => String::new(),
     };
     format!(
-        "Proposed table, {source}:\n{}\n",
-        finish(b, 2..4 + 1 + plant.operating_points.len())
+        "Proposed table, {source}:\n{}\n{backstop}{}",
+        finish(b, 2..4 + 1 + plant.operating_points.len()),
+        headroom_lines(p)
     )
+}
+
+/// Per operating point, the sheddable load in the table against the most any studied case sheds:
+/// roughly how much larger a disturbance the table can meet before it runs out of load to shed.
+fn headroom_lines(p: &Proposal) -> String {
+    let mut out = String::from(
+        "Room to shed (the load in the table's stages against the most a studied case sheds at the point):\n",
+    );
+    for h in &p.headroom {
+        let line = match h.worst_shed_mw {
+            None => format!("no studied case applies; {:.2} MW sheddable", h.sheddable_mw),
+            Some(w) if w > 1e-6 => format!(
+                "{:.2} MW sheddable, {:.2} MW shed at most: {:.1}× the worst studied shed before the table runs out of load",
+                h.sheddable_mw,
+                w,
+                h.sheddable_mw / w
+            ),
+            Some(_) => format!(
+                "{:.2} MW sheddable; no studied case sheds here",
+                h.sheddable_mw
+            ),
+        };
+        out.push_str(&format!("  {}: {line}\n", h.operating_point));
+    }
+    out
+}
+
+/// A stage's loads with their ranks; a long list as its first and last load and a count, so
+/// that the table stays readable (the scheme file lists every load).
+fn loads_in_words(plant: &nadir::model::Plant, sheds: &[usize]) -> String {
+    let one = |l: usize| format!("{} ({})", plant.loads[l].id, plant.loads[l].rank);
+    let mut sorted = sheds.to_vec();
+    sorted.sort_by_key(|&l| (plant.loads[l].rank, l));
+    let sheds = sorted.as_slice();
+    match sheds {
+        [first, .., last] if sheds.len() > 4 => {
+            format!("{} … {}: {} loads", one(*first), one(*last), sheds.len())
+        }
+        _ => sheds.iter().map(|&l| one(l)).collect::<Vec<_>>().join(", "),
+    }
 }
 
 fn shed_table(p: &Proposal) -> String {
@@ -213,8 +284,9 @@ fn shed_table(p: &Proposal) -> String {
         "point",
         "weight",
         "shed MW",
-        "bound MW",
-        "shed / bound",
+        "ideal bound MW",
+        "realisable bound MW",
+        "shed / realisable",
         "baseline MW",
     ]);
     let ratio = |shed: f64, bound: f64| {
@@ -226,10 +298,11 @@ fn shed_table(p: &Proposal) -> String {
             "-".into()
         }
     };
-    let (mut shed, mut bound, mut base) = (0.0, 0.0, 0.0);
+    let (mut shed, mut bound, mut real, mut base) = (0.0, 0.0, 0.0, 0.0);
     for r in &p.rows {
         shed += r.weight * r.shed_mw;
         bound += r.weight * r.bound_mw;
+        real += r.weight * r.realisable_mw;
         base += r.weight * r.baseline_mw.unwrap_or(0.0);
         b.push_record([
             r.case.clone(),
@@ -237,7 +310,8 @@ fn shed_table(p: &Proposal) -> String {
             fmt(r.weight, 2),
             fmt(r.shed_mw, 2),
             fmt(r.bound_mw, 2),
-            ratio(r.shed_mw, r.bound_mw),
+            fmt(r.realisable_mw, 2),
+            ratio(r.shed_mw, r.realisable_mw),
             r.baseline_mw
                 .map(|v| fmt(v, 2))
                 .unwrap_or_else(|| "-".into()),
@@ -254,18 +328,31 @@ fn shed_table(p: &Proposal) -> String {
         ),
         None => "Plain baseline: no equal-step table within the limits holds every case.".into(),
     };
-    format!(
-        "Shed per case (MW at nominal frequency) against the lower bound (an ideal instant shed at each event):\n{}\n\
-Total weighted by case: {:.2} MW shed against a bound of {:.2} MW ({}).\n{baseline_line}\n\
-Objective = Σ case weight × rank weight × MW shed.\n",
-        finish(b, 2..7),
-        shed,
-        bound,
-        if bound > 1e-6 {
-            format!("{:.1} % above the bound", 100.0 * (shed / bound - 1.0))
+    let above = |total: f64| {
+        if total > 1e-6 {
+            format!("{:+.1} %", 100.0 * (shed / total - 1.0))
         } else {
             "bound 0".into()
         }
+    };
+    let mut why = String::new();
+    for r in &p.rows {
+        why.push_str(&format!(
+            "  {} at {}: {}\n",
+            r.case, r.operating_point, r.why
+        ));
+    }
+    format!(
+        "Shed per case (MW at nominal frequency) against two lower bounds: the ideal bound (relief at the very instant of each event, in any amount) and the realisable bound (relief no sooner than the fastest allowed relay — minimum delay, breaker time, measurement lag — in whole loads in rank order, each row on its own):\n{}\n\
+Total weighted by case: {:.2} MW shed; ideal bound {:.2} MW ({}); realisable bound {:.2} MW ({}).\n\
+Row by row:\n{why}{baseline_line}\n\
+Objective = Σ case weight × rank weight × MW shed.\n",
+        finish(b, 2..8),
+        shed,
+        bound,
+        above(bound),
+        real,
+        above(real),
     )
 }
 
@@ -289,6 +376,51 @@ fn from_summary(
     if outcome != FromOutcome::Unchanged {
         out.push_str(&super::compare::settings_table(&changes));
     }
+    out.push_str(&cost_of_keeping(p));
     out.push('\n');
     out
+}
+
+/// What keeping the existing settings costs against a fresh design and the plain baseline, and
+/// which is cheaper by how much (objective: Σ case weight × rank weight × MW shed).
+fn cost_of_keeping(p: &Proposal) -> String {
+    let kept = p.objective;
+    let against = |what: &str, other: f64| {
+        let diff = kept - other;
+        if diff.abs() <= 1e-6 * kept.abs().max(other.abs()).max(1.0) {
+            format!("Keeping the existing settings costs the same as {what} ({kept:.2}).\n")
+        } else if diff > 0.0 {
+            format!(
+                "{} is cheaper: objective {other:.2} against {kept:.2} for keeping the existing settings ({:.2} less; keeping costs {:.1} % more).\n",
+                capitalise(what),
+                diff,
+                100.0 * diff / other.max(1e-9)
+            )
+        } else {
+            format!(
+                "Keeping the existing settings is cheaper than {what}: objective {kept:.2} against {other:.2} ({:.2} less, {:.1} %).\n",
+                -diff,
+                100.0 * -diff / other.max(1e-9)
+            )
+        }
+    };
+    let mut out = String::new();
+    if let Some(f) = &p.fresh {
+        out.push_str(&against("a fresh design", f.objective));
+        if f.objective < kept - 1e-9 {
+            out.push_str("Run `nadir design` without --from for the fresh design.\n");
+        }
+    }
+    if let Some(b) = &p.baseline {
+        out.push_str(&against("the plain baseline", b.objective));
+    }
+    out
+}
+
+fn capitalise(s: &str) -> String {
+    let mut c = s.chars();
+    match c.next() {
+        Some(f) => f.to_uppercase().collect::<String>() + c.as_str(),
+        None => String::new(),
+    }
 }

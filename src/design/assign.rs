@@ -36,6 +36,10 @@ pub struct Problem<'a> {
     /// MW of each plant load at each operating point: `mw[op][load]`.
     pub mw: &'a [Vec<f64>],
     pub stages: usize,
+    /// Section of each candidate load (`loads` order).
+    pub load_section: &'a [usize],
+    /// The section each stage must measure at (a load of it in the stage), if chosen.
+    pub measure: &'a [Option<usize>],
     pub requirements: &'a [Requirement],
     /// Cost of load `loads[j]` in stage k: `cost[j][k]`.
     pub cost: &'a [Vec<f64>],
@@ -166,10 +170,24 @@ fn solve_with(p: &Problem, reach: Vec<bool>) -> Result<Vec<Option<usize>>, Assig
             }
         }
     }
-    // Every stage opens at least one load: an empty stage has nothing to measure with.
+    // Every stage opens at least one load at every operating point: a stage with nothing
+    // switched on at some point has nothing to shed there (and an empty stage nothing to
+    // measure with). A stage with a chosen measuring section holds a load of that section.
     for k in 0..s {
-        let members: Expression = (0..n).filter_map(|j| x(j, k)).sum();
-        model = model.with(constraint!(members >= 1.0));
+        for mw in p.mw {
+            let members: Expression = (0..n)
+                .filter(|&j| mw[p.loads[j].0] > 0.0)
+                .filter_map(|j| x(j, k))
+                .sum();
+            model = model.with(constraint!(members >= 1.0));
+        }
+        if let Some(section) = p.measure.get(k).copied().flatten() {
+            let members: Expression = (0..n)
+                .filter(|&j| p.load_section[j] == section)
+                .filter_map(|j| x(j, k))
+                .sum();
+            model = model.with(constraint!(members >= 1.0));
+        }
     }
     for req in p.requirements {
         let mut total = Expression::from(0.0);

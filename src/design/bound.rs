@@ -249,3 +249,196 @@ fn shortfall(
         failure,
     }
 }
+
+/// The realisable bound of one row: the least shed of any table whose stages respond no faster
+/// than the plant's fastest allowed relay and shed whole loads in rank order — as a stated lower
+/// end, never below the ideal bound.
+///
+/// For each event time in turn (as for the ideal bound), the relief is placed at the earliest
+/// moment a stage can open a breaker: `min_delay_s + breaker_s` after the event when the event
+/// opens a breaker that may arm a stage, else the moment frequency in a falling section first
+/// crosses the highest allowed pickup, plus the measurement lag, the minimum delay and the breaker
+/// time; its least size is found as for the ideal bound. The total is then rounded up to whole
+/// loads in rank order (lower ranks in full, then the least subset of the next rank's loads that
+/// reaches it) when the falling sections form one island at the end of the case. What it does not
+/// know: that one table must serve every row, and that a stage's pickup and delay are on a grid.
+pub fn realisable(
+    plant: &Plant,
+    case: &Case,
+    op: usize,
+    cfg: &SimConfig,
+    lag_s: f64,
+    ideal_mw: f64,
+) -> f64 {
+    if ideal_mw <= 0.0 {
+        return 0.0;
+    }
+    let empty = Scheme {
+        name: String::new(),
+        measurement: Measurement::default(),
+        stages: Vec::new(),
+    };
+    let run = |c: &Case| sim::simulate(plant, c, op, &empty, cfg);
+    let holds = |c: &Case| verdict_of(plant, c, op, &run(c)) == Verdict::Holds;
+    let unshed = run(case);
+    let falling = falling_sections(plant, case, op, &unshed);
+    let point = &plant.operating_points[op];
+    let sheddable: Vec<(usize, f64)> = falling
+        .iter()
+        .map(|&s| {
+            let mw = plant
+                .loads
+                .iter()
+                .enumerate()
+                .filter(|(_, l)| l.section == s && !l.never_shed)
+                .map(|(i, _)| point.load_mw[i])
+                .sum::<f64>();
+            (s, mw)
+        })
+        .collect();
+    let total: f64 = sheddable.iter().map(|(_, mw)| mw).sum();
+    if total <= 0.0 {
+        return ideal_mw;
+    }
+    let limits = &plant.design;
+    let mut times: Vec<f64> = case.events.iter().map(|e| e.at_s).collect();
+    times.dedup();
+    if times.is_empty() {
+        times.push(crate::verify::matrix::disturbance_span(case).0);
+    }
+    let mut placed: Vec<(f64, f64)> = Vec::new();
+    let mut used = 0.0;
+    for (e, &t) in times.iter().enumerate() {
+        let upto = times.get(e + 1).copied();
+        let base = |extra: Option<(f64, f64)>| {
+            let mut c = truncated(case, upto);
+            for &(at, f) in placed.iter().chain(extra.iter()) {
+                relieve(&mut c, at, &sheddable, f, 0.0);
+            }
+            c
+        };
+        let without = base(None);
+        if holds(&without) {
+            continue;
+        }
+        let armed = case.events.iter().any(|ev| {
+            (ev.at_s - t).abs() < 1e-12
+                && matches!(ev.action, Action::Open(b) if limits.armed_by.contains(&b))
+        });
+        let at = if armed {
+            Some(t + limits.min_delay_s + limits.breaker_s)
+        } else {
+            first_below(&run(&without), &falling, t, limits.highest_pickup_hz)
+                .map(|c| c + lag_s + limits.min_delay_s + limits.breaker_s)
+        };
+        // A stage that never picks up cannot relieve this event: the ideal bound stands.
+        let Some(at) = at else {
+            return ideal_mw;
+        };
+        let room = 1.0 - used;
+        let trial = |fraction: f64| base(Some((at, fraction)));
+        let first = (1..=SCAN).find(|&j| holds(&trial(room * j as f64 / SCAN as f64)));
+        let Some(j) = first else {
+            return ideal_mw;
+        };
+        let (mut bad, mut good) = (
+            room * (j - 1) as f64 / SCAN as f64,
+            room * j as f64 / SCAN as f64,
+        );
+        while (good - bad) * total > RESOLUTION_MW {
+            let mid = 0.5 * (bad + good);
+            if holds(&trial(mid)) {
+                good = mid;
+            } else {
+                bad = mid;
+            }
+        }
+        placed.push((at, good));
+        used += good;
+    }
+    let delayed = used * total;
+    let one_island = {
+        let mut state = crate::topology::BreakerState::initial(
+            plant,
+            op,
+            case.start == crate::model::Start::Connected,
+        );
+        for ev in &case.events {
+            if let Action::Open(crate::model::BreakerRef::Tie(k)) = ev.action {
+                state.tie_closed[k] = false;
+            }
+        }
+        let islands = crate::topology::islands(plant, &state);
+        falling.iter().all(|&s| {
+            crate::topology::island_of(&islands, s)
+                == crate::topology::island_of(&islands, falling[0])
+        })
+    };
+    let whole = if one_island {
+        whole_loads(plant, op, &falling, delayed)
+    } else {
+        delayed
+    };
+    whole.max(ideal_mw)
+}
+
+/// The first time at or after `from` that frequency in any of `sections` is below `hz`.
+fn first_below(run: &sim::Run, sections: &[usize], from: f64, hz: f64) -> Option<f64> {
+    let trace = run.trace.as_ref()?;
+    trace
+        .t_s
+        .iter()
+        .enumerate()
+        .find(|&(k, &t)| t >= from && sections.iter().any(|&s| trace.section_hz[s][k] < hz))
+        .map(|(_, &t)| t)
+}
+
+/// The least MW of whole loads in rank order (in `sections`, switched on at `op`) that reaches
+/// `mw`: every lower rank in full, then the least subset of the next rank's loads (exactly when
+/// that rank has at most 16 loads there, else the remainder itself).
+fn whole_loads(plant: &Plant, op: usize, sections: &[usize], mw: f64) -> f64 {
+    let point = &plant.operating_points[op];
+    let mut loads: Vec<(u32, f64)> = plant
+        .loads
+        .iter()
+        .enumerate()
+        .filter(|(i, l)| !l.never_shed && sections.contains(&l.section) && point.load_mw[*i] > 0.0)
+        .map(|(i, l)| (l.rank, point.load_mw[i]))
+        .collect();
+    loads.sort_by(|a, b| a.0.cmp(&b.0));
+    let mut sum = 0.0;
+    let mut k = 0;
+    while k < loads.len() {
+        let rank = loads[k].0;
+        let tier: Vec<f64> = loads[k..]
+            .iter()
+            .take_while(|l| l.0 == rank)
+            .map(|l| l.1)
+            .collect();
+        let tier_total: f64 = tier.iter().sum();
+        let need = mw - sum;
+        if need <= 1e-9 {
+            return sum;
+        }
+        if tier_total < need - 1e-9 {
+            sum += tier_total;
+            k += tier.len();
+            continue;
+        }
+        let least = if tier.len() <= 16 {
+            (1u32..(1 << tier.len()))
+                .map(|mask| {
+                    (0..tier.len())
+                        .filter(|&j| mask & (1 << j) != 0)
+                        .map(|j| tier[j])
+                        .sum::<f64>()
+                })
+                .filter(|&s| s >= need - 1e-9)
+                .fold(f64::INFINITY, f64::min)
+        } else {
+            need
+        };
+        return sum + least;
+    }
+    sum.max(mw)
+}

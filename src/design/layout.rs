@@ -10,6 +10,10 @@ pub struct Setting {
     pub trigger: StageTrigger,
     pub delay_s: f64,
     pub breaker_s: f64,
+    /// The section a frequency stage measures at, chosen by the design (the relay measures at
+    /// its first listed load's section, so a load of this section is listed first); `None`:
+    /// wherever the stage's lowest-ranked load is.
+    pub section: Option<usize>,
 }
 
 /// Stages in operating order: armed stages first, then frequency stages by falling pickup.
@@ -18,6 +22,10 @@ pub struct Layout {
     pub stages: Vec<Setting>,
     /// Stage ids to keep (from an existing table); generated when empty.
     pub ids: Vec<String>,
+    /// From an existing table: per stage, the loads it lists that an earlier stage (in
+    /// operating order) also lists, kept as they are; empty for a designed layout, whose first
+    /// frequency stage lists the armed stages' loads instead.
+    pub extra: Vec<Vec<usize>>,
 }
 
 impl Layout {
@@ -107,6 +115,7 @@ pub fn build(
             trigger: StageTrigger::Breaker(b),
             delay_s,
             breaker_s,
+            section: None,
         })
         .collect();
     stages.extend(
@@ -119,17 +128,19 @@ pub fn build(
                 },
                 delay_s,
                 breaker_s,
+                section: None,
             }),
     );
     Layout {
         stages,
         ids: Vec::new(),
+        extra: Vec::new(),
     }
 }
 
 /// The layout of an existing table, in operating order, keeping its ids and breaker times; with
 /// the table's stage index for each layout position.
-pub fn of_scheme(scheme: &Scheme) -> (Layout, Vec<usize>) {
+pub fn of_scheme(plant: &Plant, scheme: &Scheme) -> (Layout, Vec<usize>) {
     let order = crate::verify::audit::operating_order(scheme);
     let stages = order
         .iter()
@@ -139,15 +150,36 @@ pub fn of_scheme(scheme: &Scheme) -> (Layout, Vec<usize>) {
                 trigger: s.trigger,
                 delay_s: s.delay_s,
                 breaker_s: s.breaker_s,
+                section: match s.trigger {
+                    StageTrigger::Frequency { .. } => {
+                        s.sheds.first().map(|&l| plant.loads[l].section)
+                    }
+                    StageTrigger::Breaker(_) => None,
+                },
             }
         })
         .collect();
     let ids = order.iter().map(|&k| scheme.stages[k].id.clone()).collect();
-    (Layout { stages, ids }, order)
+    let mut seen: Vec<usize> = Vec::new();
+    let extra = order
+        .iter()
+        .map(|&k| {
+            let again: Vec<usize> = scheme.stages[k]
+                .sheds
+                .iter()
+                .copied()
+                .filter(|l| seen.contains(l))
+                .collect();
+            seen.extend(scheme.stages[k].sheds.iter().copied());
+            again
+        })
+        .collect();
+    (Layout { stages, ids, extra }, order)
 }
 
 /// The table of a layout with each candidate load's stage position; loads are listed in
-/// priority order within a stage so that each stage measures at its lowest-ranked load's section.
+/// priority order within a stage, except that a stage with a chosen measuring section lists
+/// that section's lowest-ranked load first.
 pub fn scheme(
     plant: &Plant,
     name: &str,
@@ -158,7 +190,7 @@ pub fn scheme(
 ) -> Scheme {
     let mut armed = 0;
     let mut uf = 0;
-    let stages = layout
+    let stages: Vec<Stage> = layout
         .stages
         .iter()
         .enumerate()
@@ -182,25 +214,76 @@ pub fn scheme(
                     format!("uf-{uf}")
                 }
             };
+            let mut sheds: Vec<usize> = loads
+                .iter()
+                .zip(assignment)
+                .filter(|(_, a)| **a == Some(k))
+                .map(|((i, _), _)| *i)
+                .collect();
+            // The relay measures at its first listed load's section: list the chosen section's
+            // lowest-ranked load first.
+            if let Some(s) = st.section {
+                if let Some(pos) = sheds.iter().position(|&i| plant.loads[i].section == s) {
+                    let first = sheds.remove(pos);
+                    sheds.insert(0, first);
+                }
+            }
             Stage {
                 id: layout.ids.get(k).cloned().unwrap_or(generated),
                 trigger: st.trigger,
                 delay_s: st.delay_s,
                 breaker_s: st.breaker_s,
-                sheds: loads
-                    .iter()
-                    .zip(assignment)
-                    .filter(|(_, a)| **a == Some(k))
-                    .map(|((i, _), _)| *i)
-                    .collect(),
+                sheds,
             }
         })
         .collect();
+    let mut stages: Vec<Stage> = stages;
+    // Rank order holds in every event (docs/design.md): an event that opens no arming breaker
+    // walks the frequency stages from the first, so the first frequency stage also lists the
+    // armed stages' loads (a load opened once is not opened again).
+    if !layout.extra.is_empty() {
+        for (stage, extra) in stages.iter_mut().zip(&layout.extra) {
+            for &l in extra {
+                if !stage.sheds.contains(&l) {
+                    stage.sheds.push(l);
+                }
+            }
+        }
+    } else if let Some(f) = first_frequency(layout) {
+        let armed: Vec<usize> = (0..f).flat_map(|k| stages[k].sheds.clone()).collect();
+        for l in armed {
+            if !stages[f].sheds.contains(&l) {
+                stages[f].sheds.push(l);
+            }
+        }
+    }
     Scheme {
         name: name.to_string(),
         measurement,
         stages,
     }
+}
+
+/// Position of the first frequency stage (the armed stages come before it), if any.
+pub fn first_frequency(layout: &Layout) -> Option<usize> {
+    layout
+        .stages
+        .iter()
+        .position(|s| matches!(s.trigger, StageTrigger::Frequency { .. }))
+}
+
+/// The stage positions whose loads open when the stages `operated` operate: with the first
+/// frequency stage, the armed stages' loads too (it lists them).
+pub fn effective(layout: &Layout, operated: &[usize]) -> Vec<usize> {
+    let mut out = operated.to_vec();
+    if let Some(f) = first_frequency(layout) {
+        if operated.contains(&f) {
+            out.extend(0..f);
+        }
+    }
+    out.sort_unstable();
+    out.dedup();
+    out
 }
 
 #[cfg(test)]

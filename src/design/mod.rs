@@ -11,6 +11,7 @@
 //! layouts are tried in a fixed order, so the proposal does not depend on the thread count.
 
 pub mod assign;
+pub mod backstop;
 pub mod baseline;
 pub mod bound;
 pub mod evaluate;
@@ -18,7 +19,9 @@ pub mod layout;
 pub mod sizing;
 
 use crate::model::{Action, BreakerRef, CaseSet, Plant, Scheme, StageTrigger};
+use backstop::Backstop;
 use bound::{Bound, Shortfall};
+use evaluate as sizing_eval;
 use evaluate::{design_sim_config, Verdict};
 use layout::Layout;
 use rayon::prelude::*;
@@ -43,14 +46,33 @@ pub struct Proposal {
     /// Objective: MW at nominal frequency, weighted by rank and case weight, over all rows.
     pub objective: f64,
     pub rows: Vec<RowShed>,
+    /// Per operating point, the sheddable load against the worst studied shed.
+    pub headroom: Vec<Headroom>,
     /// The plain table's objective and total shed, when one holds every row.
     pub baseline: Option<BaselineSummary>,
     /// How the proposal relates to the `--from` table.
     pub from: Option<FromOutcome>,
+    /// With `--from` when the existing settings were kept: what a fresh design would cost.
+    pub fresh: Option<BaselineSummary>,
     /// Where the proposal came from.
     pub source: Source,
+    /// What became of the loads no studied case needs.
+    pub backstop: Backstop,
+    /// Sheddable loads (ids) that no stage of the proposal opens.
+    pub unassigned: Vec<String>,
     pub layouts_sized: usize,
     pub replays: usize,
+}
+
+/// Per operating point: how much sheddable load the table holds against the most any studied
+/// case sheds there — how much larger a disturbance it can meet before it runs out of load.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Headroom {
+    pub operating_point: String,
+    /// The loads of the table's stages switched on at this point, MW at nominal frequency.
+    pub sheddable_mw: f64,
+    /// The most any studied case sheds at this point (`None`: no case applies there).
+    pub worst_shed_mw: Option<f64>,
 }
 
 /// One matrix row: what the proposal sheds, the lower bound, and what the baseline sheds.
@@ -61,7 +83,13 @@ pub struct RowShed {
     pub weight: f64,
     /// MW opened, at nominal frequency.
     pub shed_mw: f64,
+    /// The ideal-instant bound.
     pub bound_mw: f64,
+    /// The realisable bound: relief no sooner than the fastest allowed relay, in whole loads in
+    /// rank order (a lower end; see `bound::realisable`).
+    pub realisable_mw: f64,
+    /// In words: whether the row is at its realisable bound, and if not, why.
+    pub why: String,
     pub baseline_mw: Option<f64>,
 }
 
@@ -81,6 +109,8 @@ pub enum Source {
     Baseline,
     /// The existing table, kept or with loads reassigned.
     Existing,
+    /// No case needs shedding: the backstop stage alone.
+    BackstopOnly,
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
@@ -100,6 +130,9 @@ pub enum DesignError {
     Unholdable(Vec<Shortfall>),
     /// No layout within the limits could be sized to hold every row.
     NoLayout(String),
+    /// No case needs shedding and the plant's design block turns the backstop off: there is no
+    /// table to propose.
+    NothingNeeded,
 }
 
 /// What design reports as it goes.
@@ -115,15 +148,40 @@ pub fn design(
     layout::check_grid(&plant.design).map_err(DesignError::NoLayout)?;
     let sim = design_sim_config(plant);
     let measurement = from.map(|s| s.measurement).unwrap_or_default();
-    let ctx = Context::new(plant, cases, sim, measurement, "proposed by nadir design");
+    // A table designed from an existing one keeps its name.
+    let name = from.map_or("proposed by nadir design", |s| s.name.as_str());
+    let ctx = Context::new(plant, cases, sim, measurement, name);
 
     progress("lower bounds");
     let bounds = bounds(&ctx)?;
 
+    if from.is_none() && backstop::nothing_needed(&ctx) {
+        // No case needs shedding: the backstop alone, labelled as such; never a token stage.
+        if !plant.design.backstop {
+            return Err(DesignError::NothingNeeded);
+        }
+        progress("backstop table");
+        if let Some(best) = backstop::alone(&ctx) {
+            return Ok(finish(
+                &ctx,
+                &bounds,
+                None,
+                best,
+                None,
+                None,
+                Source::BackstopOnly,
+                Backstop::NewStage,
+                0,
+                0,
+            ));
+        }
+    }
+
     progress("plain baseline table");
-    let baseline = baseline::plain(&ctx);
+    let mut baseline = baseline::plain(&ctx);
     let mut replays = baseline.as_ref().map_or(0, |b| b.runs);
-    let mut layouts_sized = 0;
+    // The baseline gets the same backstop, so that the two are compared like for like.
+    let baseline_backstop = baseline.as_mut().map(|b| backstop::add(&ctx, b));
 
     let mut chosen: Option<(Sized, Source)> = None;
     let mut from_outcome = None;
@@ -136,11 +194,31 @@ pub fn design(
             chosen = Some((s, Source::Existing));
         }
     }
-    if chosen.is_none() {
+    let mut backstop = Backstop::NotNeeded;
+    // With `--from`, a fresh design too, so that the cost of keeping the settings is known.
+    let mut fresh: Option<Sized> = None;
+    let layouts_sized;
+    {
+        progress(if chosen.is_some() {
+            "fresh design, for comparison"
+        } else {
+            "settings search"
+        });
         let (best, sized, n) = search(&ctx, progress);
         layouts_sized = sized;
         replays += n;
-        chosen = best.map(|b| (b, Source::Search));
+        let mut fresh_backstop = Backstop::NotNeeded;
+        let found = best.map(|mut b| {
+            drop_idle_last_stages(&ctx, &mut b);
+            fresh_backstop = backstop::add(&ctx, &mut b);
+            b
+        });
+        if chosen.is_none() {
+            chosen = found.map(|b| (b, Source::Search));
+            backstop = fresh_backstop;
+        } else {
+            fresh = found;
+        }
     }
     if let Some(b) = &baseline {
         let better = match &chosen {
@@ -149,15 +227,73 @@ pub fn design(
         };
         if better {
             chosen = Some((b.clone(), Source::Baseline));
+            backstop = baseline_backstop.unwrap_or(Backstop::NotNeeded);
         }
     }
-    let Some((mut best, source)) = chosen else {
+    let Some((best, source)) = chosen else {
         return Err(DesignError::NoLayout(why_no_layout(&ctx)));
     };
-    if source != Source::Existing {
-        drop_idle_last_stages(&ctx, &mut best);
-    }
-    let scheme = ctx.scheme(&best.layout, &best.assignment);
+    let exact = (from_outcome == Some(FromOutcome::Unchanged) && source == Source::Existing)
+        .then(|| from.cloned())
+        .flatten();
+    let mut proposal = finish(
+        &ctx,
+        &bounds,
+        exact,
+        best,
+        baseline,
+        from_outcome,
+        source,
+        backstop,
+        layouts_sized,
+        replays,
+    );
+    proposal.fresh = fresh.map(|f| BaselineSummary {
+        objective: f.objective,
+        stages: f.layout.stages.len(),
+        scheme: ctx.scheme(&f.layout, &f.assignment),
+    });
+    Ok(proposal)
+}
+
+/// The proposal of a finished table.
+#[allow(clippy::too_many_arguments)]
+fn finish(
+    ctx: &Context,
+    bounds: &[Bound],
+    exact: Option<Scheme>,
+    best: Sized,
+    baseline: Option<Sized>,
+    from: Option<FromOutcome>,
+    source: Source,
+    backstop: Backstop,
+    layouts_sized: usize,
+    replays: usize,
+) -> Proposal {
+    let (plant, cases) = (ctx.plant, ctx.cases);
+    // A kept table is the existing one as written; else the table of the layout.
+    let scheme = exact.unwrap_or_else(|| ctx.scheme(&best.layout, &best.assignment));
+    let realisable: Vec<f64> = ctx
+        .rows
+        .par_iter()
+        .zip(bounds)
+        .map(|(&(ci, op), b)| {
+            bound::realisable(
+                plant,
+                &cases.cases[ci],
+                op,
+                &ctx.sim,
+                ctx.measurement.frequency_lag_s,
+                b.mw,
+            )
+        })
+        .collect();
+    let shed: Vec<f64> = ctx
+        .rows
+        .iter()
+        .enumerate()
+        .map(|(r, &(_, op))| shed_mw(ctx, op, &best.evals[r].shed_loads))
+        .collect();
     let rows = ctx
         .rows
         .iter()
@@ -166,14 +302,50 @@ pub fn design(
             case: cases.cases[ci].id.clone(),
             operating_point: plant.operating_points[op].id.clone(),
             weight: cases.cases[ci].weight,
-            shed_mw: shed_mw(&ctx, op, &best.evals[r].shed_loads),
+            shed_mw: shed[r],
             bound_mw: bounds[r].mw,
+            realisable_mw: realisable[r],
+            why: why_not_at_bound(ctx, &scheme, &best.evals, &shed, &realisable, r),
             baseline_mw: baseline
                 .as_ref()
-                .map(|b| shed_mw(&ctx, op, &b.evals[r].shed_loads)),
+                .map(|b| shed_mw(ctx, op, &b.evals[r].shed_loads)),
         })
         .collect();
-    Ok(Proposal {
+    let unassigned = ctx
+        .loads
+        .iter()
+        .zip(&best.assignment)
+        .filter(|(_, a)| a.is_none())
+        .map(|(&(i, _), _)| plant.loads[i].id.clone())
+        .collect();
+    let headroom = plant
+        .operating_points
+        .iter()
+        .enumerate()
+        .map(|(op, point)| {
+            let sheddable: f64 = ctx
+                .loads
+                .iter()
+                .zip(&best.assignment)
+                .filter(|(_, a)| a.is_some())
+                .map(|(&(i, _), _)| ctx.mw[op][i])
+                .sum();
+            let worst = ctx
+                .rows
+                .iter()
+                .zip(&best.evals)
+                .filter(|((_, o), _)| *o == op)
+                .map(|(_, e)| shed_mw(ctx, op, &e.shed_loads))
+                .fold(None, |m: Option<f64>, v| Some(m.map_or(v, |m| m.max(v))));
+            Headroom {
+                operating_point: point.id.clone(),
+                sheddable_mw: sheddable,
+                worst_shed_mw: worst,
+            }
+        })
+        .collect();
+    Proposal {
+        headroom,
         scheme,
         objective: best.objective,
         rows,
@@ -182,11 +354,72 @@ pub fn design(
             stages: b.layout.stages.len(),
             scheme: ctx.scheme(&b.layout, &b.assignment),
         }),
-        from: from_outcome,
+        from,
+        fresh: None,
         source,
+        backstop,
+        unassigned,
         layouts_sized,
         replays: replays + best.runs,
-    })
+    }
+}
+
+/// Whether row `r` sheds no more than its realisable bound (within 0.05 MW or 2 %), and if it
+/// sheds more, why, in words: the stages it operates also serve rows that need them, or (when
+/// no other row shares them) the grid of pickups and delays acts later than the fastest relay.
+fn why_not_at_bound(
+    ctx: &Context,
+    scheme: &Scheme,
+    evals: &[sizing_eval::RowEval],
+    shed: &[f64],
+    realisable: &[f64],
+    r: usize,
+) -> String {
+    let slack = 0.05_f64.max(0.02 * realisable[r]);
+    if shed[r] <= realisable[r] + slack {
+        return if shed[r] <= 1e-9 {
+            "at its bound: sheds nothing".into()
+        } else {
+            "at its realisable bound".into()
+        };
+    }
+    let name = |k: usize| scheme.stages[k].id.clone();
+    let row_name = |q: usize| {
+        let (ci, op) = ctx.rows[q];
+        format!(
+            "{} at {}",
+            ctx.cases.cases[ci].id, ctx.plant.operating_points[op].id
+        )
+    };
+    // The row that most needs each stage this row operates: another row operating it whose
+    // realisable bound is the largest.
+    let mut reasons: Vec<String> = Vec::new();
+    for &k in &evals[r].operated {
+        let needer = (0..ctx.rows.len())
+            .filter(|&q| q != r && evals[q].operated.contains(&k) && realisable[q] > 1e-9)
+            .max_by(|&a, &b| realisable[a].total_cmp(&realisable[b]));
+        if let Some(q) = needer {
+            reasons.push(format!("{} is also needed by {}", name(k), row_name(q)));
+        }
+    }
+    let excess = shed[r] - realisable[r];
+    if realisable[r] <= 1e-9 {
+        if reasons.is_empty() {
+            format!("needs no shedding, yet sheds {excess:.2} MW: its stages act on a dip the table cannot tell from one that needs them")
+        } else {
+            format!(
+                "needs no shedding, yet sheds {excess:.2} MW: one table serves every row, and {}",
+                reasons.join("; ")
+            )
+        }
+    } else if reasons.is_empty() {
+        format!("{excess:.2} MW above it: the stages' pickups and delays are on the design grid and act later than the fastest relay the bound assumes")
+    } else {
+        format!(
+            "{excess:.2} MW above it: one table serves every row, and {}",
+            reasons.join("; ")
+        )
+    }
 }
 
 /// Remove frequency stages at the bottom that no row operates (above the limits' minimum count),
@@ -302,7 +535,7 @@ fn shed_mw(ctx: &Context, op: usize, loads: &[usize]) -> f64 {
 /// Keep the existing table if it holds; else keep its settings and move as few loads as
 /// possible. Returns the result, how it relates to the table, and the replays used.
 fn keep_existing(ctx: &Context, existing: &Scheme) -> (Option<Sized>, FromOutcome, usize) {
-    let (layout, order) = layout::of_scheme(existing);
+    let (layout, order) = layout::of_scheme(ctx.plant, existing);
     let position = |load: usize| {
         existing
             .stages
@@ -317,16 +550,10 @@ fn keep_existing(ctx: &Context, existing: &Scheme) -> (Option<Sized>, FromOutcom
             .all(|&l| ctx.loads.iter().any(|&(i, _)| i == l))
     });
     if clean {
-        let scheme = ctx.scheme(&layout, &start);
-        let evals = ctx.evaluate_all(&scheme);
+        // The existing table itself, as written (its stages' order and load lists).
+        let evals = ctx.evaluate_all(existing);
         let runs = evals.len();
-        let audit_ok = crate::verify::audit::audit(
-            ctx.plant,
-            &scheme,
-            &crate::verify::audit::AuditRules::for_plant(ctx.plant),
-        )
-        .violations
-        .is_empty();
+        let audit_ok = ctx.rules_clean(existing);
         if audit_ok && evals.iter().all(|e| e.verdict == Verdict::Holds) {
             let objective = ctx.objective(&evals);
             let s = Sized {
@@ -488,41 +715,60 @@ pub fn starting_layouts(ctx: &Context) -> (Vec<Layout>, bool) {
     let pickups = layout::pickup_grid(limits);
     let delays = layout::delay_grid(limits);
     let gap = layout::spacing_steps(ctx.plant);
-    let mut armed_options: Vec<Vec<(BreakerRef, f64)>> = vec![Vec::new()];
-    for b in armable(ctx) {
-        armed_options.push(vec![(b, limits.min_delay_s)]);
+    // Armed stages, one per breaker: none, each breaker alone, and every breaker together (in
+    // an exhaustive search, every subset).
+    let breakers = armable(ctx);
+    let subsets = |n: usize| -> Vec<Vec<BreakerRef>> {
+        (0u32..(1 << n))
+            .map(|mask| {
+                (0..n)
+                    .filter(|&j| mask & (1 << j) != 0)
+                    .map(|j| breakers[j])
+                    .collect()
+            })
+            .collect()
+    };
+    let mut few: Vec<Vec<BreakerRef>> = vec![Vec::new()];
+    few.extend(breakers.iter().map(|&b| vec![b]));
+    if breakers.len() > 1 {
+        few.push(breakers.clone());
     }
-    let rocof_options: Vec<Option<f64>> = match limits.rocof_supervision_hz_per_s {
-        Some(r) => vec![None, Some(r)],
-        None => vec![None],
+    let rocof = limits.rocof_supervision_hz_per_s;
+    // df/dt supervision on any subset of the frequency stages (by mask), or on none.
+    let rocof_masks = |k: usize, all: bool| -> Vec<u32> {
+        match rocof {
+            None => vec![0],
+            Some(_) if all => (0u32..(1 << k.min(12))).collect(),
+            Some(_) => vec![0, 1],
+        }
     };
     let max_k = limits.max_stages.min(ctx.loads.len());
     let min_k = limits.min_stages.max(1).min(max_k);
 
-    // Exhaustive: every spaced choice of pickups, every delay for each.
+    // Exhaustive: every spaced choice of pickups, every delay and df/dt choice for each.
     let mut all: Vec<Vec<(f64, f64, Option<f64>)>> = Vec::new();
     let mut count = 0usize;
     for k in min_k..=max_k {
         count = count.saturating_add(
             spaced_choices(pickups.len(), k, gap)
-                .saturating_mul(delays.len().saturating_pow(k as u32)),
+                .saturating_mul(delays.len().saturating_pow(k as u32))
+                .saturating_mul(rocof_masks(k, true).len()),
         );
     }
-    count = count.saturating_mul(armed_options.len() * rocof_options.len());
-    let exhaustive = count <= EXHAUSTIVE_LAYOUTS;
+    let exhaustive =
+        breakers.len() < 16 && count.saturating_mul(1 << breakers.len()) <= EXHAUSTIVE_LAYOUTS;
+    let with_rocof = |j: usize, mask: u32| rocof.filter(|_| mask & (1 << j) != 0);
     if exhaustive {
         for k in min_k..=max_k {
             for choice in choose_spaced(pickups.len(), k, gap) {
                 for ds in delay_combinations(delays.len(), k) {
-                    for &rocof in &rocof_options {
+                    for mask in rocof_masks(k, true) {
                         all.push(
                             choice
                                 .iter()
                                 .zip(&ds)
                                 .enumerate()
-                                .map(|(j, (&p, &d))| {
-                                    (pickups[p], delays[d], if j == 0 { rocof } else { None })
-                                })
+                                .map(|(j, (&p, &d))| (pickups[p], delays[d], with_rocof(j, mask)))
                                 .collect(),
                         );
                     }
@@ -545,24 +791,30 @@ pub fn starting_layouts(ctx: &Context) -> (Vec<Layout>, bool) {
                 }
             }
             for choice in choices {
-                for &rocof in &rocof_options {
+                for mask in rocof_masks(k, false) {
                     all.push(
                         choice
                             .iter()
                             .enumerate()
-                            .map(|(j, &p)| {
-                                (pickups[p], delays[0], if j == 0 { rocof } else { None })
-                            })
+                            .map(|(j, &p)| (pickups[p], delays[0], with_rocof(j, mask)))
                             .collect(),
                     );
                 }
             }
         }
     }
+    // Armed options of the heuristic: none, each breaker alone, every breaker together.
+    let armed_options = if exhaustive {
+        subsets(breakers.len())
+    } else {
+        few
+    };
     let mut out = Vec::new();
     for armed in &armed_options {
+        let armed: Vec<(BreakerRef, f64)> =
+            armed.iter().map(|&b| (b, limits.min_delay_s)).collect();
         for f in &all {
-            out.push(layout::build(limits, armed, f));
+            out.push(layout::build(limits, &armed, f));
         }
     }
     (out, exhaustive)
@@ -622,6 +874,16 @@ fn neighbours(ctx: &Context, layout: &Layout) -> Vec<Layout> {
                 };
                 out.push(l);
             }
+            // Where the stage measures, when the plant has more than one section.
+            if ctx.plant.sections.len() > 1 {
+                for sec in 0..ctx.plant.sections.len() {
+                    if st.section != Some(sec) {
+                        let mut l = layout.clone();
+                        l.stages[k].section = Some(sec);
+                        out.push(l);
+                    }
+                }
+            }
         }
         // Every other delay: a long delay can ride through a slow dip that a short one cannot,
         // which no single step shows.
@@ -671,6 +933,7 @@ fn neighbours(ctx: &Context, layout: &Layout) -> Vec<Layout> {
                             },
                             delay_s: delays[0],
                             breaker_s: limits.breaker_s,
+                            section: None,
                         });
                         out.push(l);
                     }
@@ -678,25 +941,40 @@ fn neighbours(ctx: &Context, layout: &Layout) -> Vec<Layout> {
             }
         }
     }
-    let armed_now = layout.stages.len() - frequency.len();
-    if armed_now > 0 && !frequency.is_empty() {
+    // Each breaker that may arm a stage: its stage removed when there is one, added when there
+    // is none (one stage per breaker; armed stages stay in the fixed order of `armable`).
+    let breakers = armable(ctx);
+    for &b in &breakers {
         let mut l = layout.clone();
-        l.stages
-            .retain(|s| matches!(s.trigger, StageTrigger::Frequency { .. }));
-        out.push(l);
-    } else if armed_now == 0 {
-        for b in armable(ctx) {
-            let mut l = layout.clone();
+        if let Some(k) = l
+            .stages
+            .iter()
+            .position(|s| s.trigger == StageTrigger::Breaker(b))
+        {
+            l.stages.remove(k);
+        } else {
+            let at = l
+                .stages
+                .iter()
+                .take_while(|s| match s.trigger {
+                    StageTrigger::Breaker(o) => {
+                        breakers.iter().position(|&x| x == o)
+                            < breakers.iter().position(|&x| x == b)
+                    }
+                    StageTrigger::Frequency { .. } => false,
+                })
+                .count();
             l.stages.insert(
-                0,
+                at,
                 layout::Setting {
                     trigger: StageTrigger::Breaker(b),
                     delay_s: limits.min_delay_s,
                     breaker_s: limits.breaker_s,
+                    section: None,
                 },
             );
-            out.push(l);
         }
+        out.push(l);
     }
     out.retain(|l| spaced(l, &pickups, gap) && l.frequency_stages() >= 1);
     out.dedup();

@@ -24,6 +24,8 @@ pub struct Context<'a> {
     pub rows: Vec<(usize, usize)>,
     /// Sheddable loads in priority order (rank, then file order): (load index, rank).
     pub loads: Vec<(usize, u32)>,
+    /// Section of each candidate load (`loads` order).
+    pub load_section: Vec<usize>,
     /// `mw[op][load]`: demand of each load at each operating point.
     pub mw: Vec<Vec<f64>>,
     pub sim: SimConfig,
@@ -52,11 +54,13 @@ impl<'a> Context<'a> {
             .map(|(i, l)| (i, l.rank))
             .collect();
         loads.sort_by_key(|&(i, rank)| (rank, i));
+        let load_section = loads.iter().map(|&(i, _)| plant.loads[i].section).collect();
         Context {
             plant,
             cases,
             rows: crate::verify::matrix::pairs(cases),
             loads,
+            load_section,
             mw,
             sim,
             measurement,
@@ -74,6 +78,38 @@ impl<'a> Context<'a> {
             &self.loads,
             assignment,
         )
+    }
+
+    /// Whether every stage of `layout` opens some load switched on at every operating point, and
+    /// holds a load of the section it is to measure at: the rules the assignment model keeps,
+    /// checked for tables built outside it (the first guess, trimmed tables).
+    pub fn well_formed(&self, layout: &Layout, assignment: &[Option<usize>]) -> bool {
+        layout.stages.iter().enumerate().all(|(k, st)| {
+            let mine: Vec<usize> = (0..self.loads.len())
+                .filter(|&j| assignment[j] == Some(k))
+                .collect();
+            let live = self
+                .mw
+                .iter()
+                .all(|mw| mine.iter().any(|&j| mw[self.loads[j].0] > 0.0));
+            let measured = st
+                .section
+                .is_none_or(|s| mine.iter().any(|&j| self.load_section[j] == s));
+            live && measured
+        })
+    }
+
+    /// Whether `scheme` breaks none of the plant's rules, rank order judged in every event of
+    /// the cases (the audit's own check).
+    pub fn rules_clean(&self, scheme: &Scheme) -> bool {
+        crate::verify::audit::audit_cases(
+            self.plant,
+            scheme,
+            Some(self.cases),
+            &crate::verify::audit::AuditRules::for_plant(self.plant),
+        )
+        .violations
+        .is_empty()
     }
 
     /// Replay every row.
@@ -200,6 +236,9 @@ pub enum NotSized {
     Infeasible,
     /// The loop came back to an assignment it had tried.
     Stuck,
+    /// The table holds every row but breaks one of the plant's rules (the audit's, with the
+    /// cases' events): several armed stages whose rank order no single assignment can keep.
+    Rules,
     Solver(String),
 }
 
@@ -239,7 +278,10 @@ pub fn size(
         let failing: Vec<usize> = (0..evals.len())
             .filter(|&r| evals[r].verdict != Verdict::Holds)
             .collect();
-        if failing.is_empty() {
+        if failing.is_empty() && ctx.well_formed(layout, &assignment) {
+            if !ctx.rules_clean(&scheme) {
+                return Err(NotSized::Rules);
+            }
             let objective = ctx.objective(&evals);
             let sized = Sized {
                 layout: layout.clone(),
@@ -266,11 +308,14 @@ pub fn size(
                 add(&mut requirements, req);
             }
         }
-        let cost = costs(ctx, stages, &evals);
+        let cost = costs(ctx, layout, stages, &evals);
+        let measure: Vec<Option<usize>> = layout.stages.iter().map(|s| s.section).collect();
         let problem = Problem {
             loads: &ctx.loads,
             mw: &ctx.mw,
             stages,
+            load_section: &ctx.load_section,
+            measure: &measure,
             requirements: &requirements,
             cost: &cost,
             start: &keep,
@@ -327,7 +372,10 @@ pub fn trim(ctx: &Context, mut best: Sized) -> Sized {
                 let (evals, n) = ctx.evaluate_memo(&ctx.scheme(&best.layout, &a), memo);
                 runs += n;
                 let ok = evals.iter().all(|e| e.verdict == Verdict::Holds);
-                if ok {
+                if ok
+                    && ctx.well_formed(&best.layout, &a)
+                    && ctx.rules_clean(&ctx.scheme(&best.layout, &a))
+                {
                     let objective = ctx.objective(&evals);
                     if tried.as_ref().is_none_or(|(_, _, o)| objective < *o - 1e-9) {
                         tried = Some((a, evals, objective));
@@ -391,7 +439,10 @@ pub fn trim(ctx: &Context, mut best: Sized) -> Sized {
                 }
                 let (evals, r) = ctx.evaluate_memo(&ctx.scheme(&best.layout, &a), memo);
                 best.runs += r;
-                if evals.iter().all(|e| e.verdict == Verdict::Holds) {
+                if evals.iter().all(|e| e.verdict == Verdict::Holds)
+                    && ctx.well_formed(&best.layout, &a)
+                    && ctx.rules_clean(&ctx.scheme(&best.layout, &a))
+                {
                     let objective = ctx.objective(&evals);
                     let bar = found.as_ref().map_or(best.objective, |f| f.2);
                     if objective < bar - 1e-9 {
@@ -427,7 +478,7 @@ fn add(reqs: &mut Vec<Requirement>, new: Requirement) {
 
 /// Objective coefficient of each candidate load in each stage, from which stages operated in
 /// each row at the last replay; a small cost on every assigned MW keeps unneeded loads unshed.
-fn costs(ctx: &Context, stages: usize, evals: &[RowEval]) -> Vec<Vec<f64>> {
+fn costs(ctx: &Context, layout: &Layout, stages: usize, evals: &[RowEval]) -> Vec<Vec<f64>> {
     let first = 0;
     ctx.loads
         .iter()
@@ -436,7 +487,7 @@ fn costs(ctx: &Context, stages: usize, evals: &[RowEval]) -> Vec<Vec<f64>> {
             let mut c = vec![1e-3 * rw * ctx.mw[first][i].max(1e-3); stages];
             for (&(ci, op), e) in ctx.rows.iter().zip(evals) {
                 let w = ctx.cases.cases[ci].weight;
-                for &k in &e.operated {
+                for k in layout::effective(layout, &e.operated) {
                     c[k] += w * rw * ctx.mw[op][i];
                 }
             }
@@ -463,47 +514,76 @@ fn requirement(
     let mut runs = 0;
     // Bisect on the side of the failure only: "no longer short" is monotone in the loads added
     // even where adding many would overshoot, and the overshoot is the next round's business.
-    let mut no_longer = |trial: &[Option<usize>], side: Verdict| {
+    let mut judge = |trial: &[Option<usize>]| {
         runs += 1;
         let scheme = ctx.scheme(layout, trial);
-        evaluate(ctx.plant, case, op, &scheme, &ctx.sim).verdict != side
+        evaluate(ctx.plant, case, op, &scheme, &ctx.sim).verdict
     };
+    let covered = layout::effective(layout, &eval.operated);
     let opened = |trial: &[Option<usize>]| -> f64 {
         ctx.loads
             .iter()
             .zip(trial)
-            .filter(|(_, a)| a.is_some_and(|k| eval.operated.contains(&k)))
+            .filter(|(_, a)| a.is_some_and(|k| covered.contains(&k)))
             .map(|((i, _), _)| ctx.mw[op][*i])
             .sum()
     };
     match eval.verdict {
         Verdict::Holds => (None, 0),
         Verdict::Short => {
-            // The next loads in priority order that the row did not shed.
-            let later: Vec<usize> = (0..ctx.loads.len())
-                .filter(|&j| {
-                    assignment[j].is_none_or(|k| k > deepest) && ctx.mw[op][ctx.loads[j].0] > 0.0
-                })
-                .collect();
-            if later.is_empty() {
-                return (None, 0);
-            }
-            let moved = |m: usize| {
-                let mut a = assignment.to_vec();
-                for &j in &later[..m] {
-                    a[j] = Some(deepest);
+            // The next loads in priority order that the row did not shed, moved into its
+            // deepest operated stage until it is no longer short. When that overshoots (the
+            // stage acts too late, so enough of it sheds too much), the same into the operated
+            // stage before it, and so on to the first; if no stage holds the row, the deepest's.
+            let mut fallback = None;
+            for &stage in eval.operated.iter().rev() {
+                let later: Vec<usize> = (0..ctx.loads.len())
+                    .filter(|&j| {
+                        assignment[j].is_none_or(|k| k > stage) && ctx.mw[op][ctx.loads[j].0] > 0.0
+                    })
+                    .collect();
+                if later.is_empty() {
+                    continue;
                 }
-                a
-            };
-            let m = least(later.len(), |m| no_longer(&moved(m), Verdict::Short));
-            let trial = moved(m.unwrap_or(later.len()));
-            let req = Requirement {
-                op,
-                stages: eval.operated.clone(),
-                mw: opened(&trial),
-                at_least: true,
-            };
-            (Some(req), runs)
+                let moved = |m: usize| {
+                    let mut a = assignment.to_vec();
+                    for &j in &later[..m] {
+                        a[j] = Some(stage);
+                    }
+                    a
+                };
+                let found = least(later.len(), |m| judge(&moved(m)) != Verdict::Short);
+                let trial = moved(found.unwrap_or(later.len()));
+                let upto: Vec<usize> = layout::effective(
+                    layout,
+                    &eval
+                        .operated
+                        .iter()
+                        .copied()
+                        .filter(|&k| k <= stage)
+                        .collect::<Vec<_>>(),
+                );
+                let mw: f64 = ctx
+                    .loads
+                    .iter()
+                    .zip(&trial)
+                    .filter(|(_, a)| a.is_some_and(|k| upto.contains(&k)))
+                    .map(|((i, _), _)| ctx.mw[op][*i])
+                    .sum();
+                let req = Requirement {
+                    op,
+                    stages: upto,
+                    mw,
+                    at_least: true,
+                };
+                if found.is_some() && judge(&trial) == Verdict::Holds {
+                    return (Some(req), runs);
+                }
+                if fallback.is_none() {
+                    fallback = Some(req);
+                }
+            }
+            (fallback, runs)
         }
         Verdict::TooMuch => {
             let mine: Vec<usize> = (0..ctx.loads.len())
@@ -521,11 +601,11 @@ fn requirement(
                 }
                 a
             };
-            let m = least(mine.len() - 1, |m| no_longer(&moved(m), Verdict::TooMuch));
+            let m = least(mine.len() - 1, |m| judge(&moved(m)) != Verdict::TooMuch);
             let trial = moved(m.unwrap_or(mine.len() - 1));
             let req = Requirement {
                 op,
-                stages: eval.operated.clone(),
+                stages: layout::effective(layout, &eval.operated),
                 mw: opened(&trial),
                 at_least: false,
             };

@@ -422,7 +422,7 @@ pub struct RawDesign {
     /// Load breaker opening time of every proposed stage, s (default 0.08).
     #[serde(default)]
     pub breaker_s: Option<f64>,
-    /// Breakers whose opening may arm a stage: the utility breaker, a tie or a generator, by id; `[]` for none (default: the utility breaker when the plant has one).
+    /// Breakers whose opening may arm a stage: the utility breaker, a tie or a generator, by id; `[]` for none (default: every breaker — the utility's, every tie, every generator).
     #[serde(default)]
     pub armed_by: Option<Vec<String>>,
     /// df/dt threshold with which the design may supervise a stage, Hz/s (default: no df/dt-supervised stage).
@@ -431,6 +431,9 @@ pub struct RawDesign {
     /// Objective weight per MW shed of a rank, as `rank: weight` (default: a rank not listed weighs its own number).
     #[serde(default)]
     pub rank_weights: BTreeMap<u32, f64>,
+    /// Assign every sheddable load that no studied case needs to a backstop at the lowest pickup (default true).
+    #[serde(default)]
+    pub backstop: Option<bool>,
 }
 
 /// How many under-frequency stages a proposal may have.

@@ -29,11 +29,15 @@ pub struct DesignLimits {
     /// Objective weight per MW shed of a rank, as (rank, weight); a rank not listed weighs its
     /// own number (rank 1 weighs 1, rank 7 weighs 7).
     pub rank_weights: Vec<(u32, f64)>,
+    /// Every sheddable load no studied case needs shed is still assigned, to a backstop at the
+    /// lowest pickup (beyond-design events get the whole sheddable load, in rank order).
+    pub backstop: bool,
 }
 
 impl DesignLimits {
     /// Defaults scaled from nominal frequency (docs/files.md gives each one's basis); the
-    /// utility breaker may arm a stage when the plant has one.
+    /// utility breaker may arm a stage when the plant has one (reading a plant file widens this
+    /// to every breaker — ties and generators too — when its design block leaves `armed_by` out).
     pub fn defaults(nominal_hz: f64, has_utility: bool) -> DesignLimits {
         DesignLimits {
             min_stages: 1,
@@ -52,6 +56,7 @@ impl DesignLimits {
             },
             rocof_supervision_hz_per_s: None,
             rank_weights: Vec::new(),
+            backstop: true,
         }
     }
 

@@ -74,6 +74,9 @@ pub(super) fn limits(
         );
         lim.rocof_supervision_hz_per_s = Some(v);
     }
+    if let Some(b) = raw.backstop {
+        lim.backstop = b;
+    }
     for (&rank, &weight) in &raw.rank_weights {
         let wp = p.key("rank_weights").key(&rank.to_string());
         if rank == 0 {
@@ -148,6 +151,18 @@ pub(super) fn armed_by(
         }
     }
     Some(out)
+}
+
+/// The default of `armed_by`: every breaker whose opening a case can cause — the utility
+/// breaker when the plant has one, every tie, and every generator breaker (a trip).
+pub(super) fn every_breaker(plant: &Plant) -> Vec<BreakerRef> {
+    let mut out = Vec::new();
+    if plant.utility.is_some() {
+        out.push(BreakerRef::Utility);
+    }
+    out.extend((0..plant.ties.len()).map(BreakerRef::Tie));
+    out.extend((0..plant.generators.len()).map(BreakerRef::Generator));
+    out
 }
 
 // ---------------------------------------------------------------- parts of the block

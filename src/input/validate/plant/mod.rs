@@ -354,9 +354,8 @@ pub fn plant(r: &mut Reader, map: &Mapping) -> Option<Plant> {
         criteria,
         design,
     };
-    if let Some(armed_by) = design::armed_by(r, design_raw.as_ref(), &plant) {
-        plant.design.armed_by = armed_by;
-    }
+    plant.design.armed_by = design::armed_by(r, design_raw.as_ref(), &plant)
+        .unwrap_or_else(|| design::every_breaker(&plant));
     check_islands(r, &plant, explicit_ops);
     if r.diagnostics.is_empty() {
         balance(r, &mut plant, &imports, explicit_ops);
