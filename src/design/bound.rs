@@ -8,7 +8,7 @@
 //! measured the same way: how much more relief, beyond every sheddable load, it would need.
 
 use super::evaluate::{verdict_of, Verdict};
-use crate::model::{Action, Case, CaseEvent, Measurement, Plant, Scheme};
+use crate::model::{Action, Case, CaseEvent, Measurement, OperatingPoint, Plant, Scheme};
 use crate::sim::{self, SimConfig};
 use crate::verify::criteria::judge;
 use crate::verify::matrix::observe;
@@ -72,19 +72,7 @@ pub fn bound(plant: &Plant, case: &Case, op: usize, cfg: &SimConfig) -> Result<B
     }
     let falling = falling_sections(plant, case, op, &run(case));
     let point = &plant.operating_points[op];
-    let sheddable: Vec<(usize, f64)> = falling
-        .iter()
-        .map(|&s| {
-            let mw = plant
-                .loads
-                .iter()
-                .enumerate()
-                .filter(|(_, l)| l.section == s && !l.never_shed)
-                .map(|(i, _)| point.load_mw[i])
-                .sum::<f64>();
-            (s, mw)
-        })
-        .collect();
+    let sheddable = sheddable_by_section(plant, point, &falling);
     let total: f64 = sheddable.iter().map(|(_, mw)| mw).sum();
     let mut times: Vec<f64> = case.events.iter().map(|e| e.at_s).collect();
     times.dedup();
@@ -283,19 +271,7 @@ pub fn realisable(
     let unshed = run(case);
     let falling = falling_sections(plant, case, op, &unshed);
     let point = &plant.operating_points[op];
-    let sheddable: Vec<(usize, f64)> = falling
-        .iter()
-        .map(|&s| {
-            let mw = plant
-                .loads
-                .iter()
-                .enumerate()
-                .filter(|(_, l)| l.section == s && !l.never_shed)
-                .map(|(i, _)| point.load_mw[i])
-                .sum::<f64>();
-            (s, mw)
-        })
-        .collect();
+    let sheddable = sheddable_by_section(plant, point, &falling);
     let total: f64 = sheddable.iter().map(|(_, mw)| mw).sum();
     if total <= 0.0 {
         return ideal_mw;
@@ -441,4 +417,25 @@ fn whole_loads(plant: &Plant, op: usize, sections: &[usize], mw: f64) -> f64 {
         return sum + least;
     }
     sum.max(mw)
+}
+
+/// Each falling section with the MW of its sheddable (not never-shed) loads at the operating point.
+fn sheddable_by_section(
+    plant: &Plant,
+    point: &OperatingPoint,
+    falling: &[usize],
+) -> Vec<(usize, f64)> {
+    falling
+        .iter()
+        .map(|&s| {
+            let mw = plant
+                .loads
+                .iter()
+                .enumerate()
+                .filter(|(_, l)| l.section == s && !l.never_shed)
+                .map(|(i, _)| point.load_mw[i])
+                .sum::<f64>();
+            (s, mw)
+        })
+        .collect()
 }
