@@ -16,4 +16,7 @@ pub use plant::{
     Criteria, FrequencyTrip, Generator, Governor, Load, OffFrequencyLimit, OperatingPoint, Plant,
     PrimeMover, Section, Tie, UndervoltageTrip, Utility, INSTANT_LAG_S, MIN_JUDGED_S,
 };
-pub use scheme::{BreakerRef, Measurement, Scheme, Stage, StageTrigger};
+pub use scheme::{
+    Allowance, BreakerRef, Candidate, GroupSettings, Measurement, Scheme, SettingGroup, Sizing, Stage,
+    StageTrigger,
+};
