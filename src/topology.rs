@@ -256,4 +256,42 @@ mod tests {
         assert_eq!(isl[1].sections, vec![2]);
         assert_eq!(island_of(&isl, 2), 1);
     }
+
+    #[test]
+    fn a_tie_flow_goes_to_the_side_short_of_power() {
+        // a–b–c in a line, no utility; net demand a: −3 MW (surplus), b: +1, c: +2. Opening
+        // bc: side c takes 2 MW from a+b (Kirchhoff's current law at the cut: what c lacks flows
+        // in through the one tie); opening ab: a gives 3 MW to b+c.
+        let p = three_sections();
+        let before = BreakerState {
+            utility_closed: false,
+            tie_closed: vec![true, true],
+        };
+        let net = [-3.0, 1.0, 2.0];
+        let cut = flow_before_opening(&p, &before, BreakerRef::Tie(1), &net, &[]).unwrap();
+        assert_eq!(
+            cut,
+            Cut {
+                flow_mw: 2.0,
+                sections: vec![2]
+            }
+        );
+        let cut = flow_before_opening(&p, &before, BreakerRef::Tie(0), &net, &[]).unwrap();
+        assert_eq!(
+            cut,
+            Cut {
+                flow_mw: 3.0,
+                sections: vec![1, 2]
+            }
+        );
+        // An open tie carries nothing and arms nothing.
+        let open = BreakerState {
+            utility_closed: false,
+            tie_closed: vec![true, false],
+        };
+        assert_eq!(
+            flow_before_opening(&p, &open, BreakerRef::Tie(1), &net, &[]),
+            None
+        );
+    }
 }

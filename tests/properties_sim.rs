@@ -491,6 +491,9 @@ fn build_scheme(p: &Plant, stages: &[StageSpec], allow_rocof: bool) -> Scheme {
                 }
             }
             Stage {
+                sizing: nadir::model::Sizing::All,
+                in_service: true,
+                groups: Vec::new(),
                 id: format!("st{i}"),
                 trigger: if s.armed {
                     StageTrigger::Breaker(BreakerRef::Utility)
@@ -691,6 +694,9 @@ proptest! {
         );
         let mut more = base.clone();
         more.stages.push(Stage {
+            sizing: nadir::model::Sizing::All,
+            in_service: true,
+            groups: Vec::new(),
             id: "extra".into(),
             trigger: StageTrigger::Breaker(BreakerRef::Utility),
             delay_s: 0.1,

@@ -40,8 +40,13 @@ pub fn scheme_yaml(plant: &Plant, scheme: &Scheme, header: &[String]) -> String 
                 .operating_points
                 .iter()
                 .map(|&op| {
-                    scalar(plant.operating_points.get(op).map_or("?", |o| o.id.as_str()))
-                        .into_owned()
+                    scalar(
+                        plant
+                            .operating_points
+                            .get(op)
+                            .map_or("?", |o| o.id.as_str()),
+                    )
+                    .into_owned()
                 })
                 .collect();
             let _ = writeln!(
@@ -178,7 +183,11 @@ fn stage_lines(plant: &Plant, stage: &Stage, groups: &[String]) -> Vec<String> {
         if let Sizing::Flow(a) = g.sizing {
             let _ = write!(entry, ", {}", allowance(a));
         }
-        entry.push_str(if k + 1 < stage.groups.len() { " }," } else { " }" });
+        entry.push_str(if k + 1 < stage.groups.len() {
+            " },"
+        } else {
+            " }"
+        });
         lines.push(entry);
     }
     lines.push("      ] }".to_string());

@@ -17,6 +17,6 @@ pub use plant::{
     PrimeMover, Section, Tie, UndervoltageTrip, Utility, INSTANT_LAG_S, MIN_JUDGED_S,
 };
 pub use scheme::{
-    Allowance, BreakerRef, Candidate, GroupSettings, Measurement, Scheme, SettingGroup, Sizing, Stage,
-    StageTrigger,
+    Allowance, BreakerRef, Candidate, GroupSettings, Measurement, Scheme, SettingGroup, Sizing,
+    Stage, StageTrigger,
 };

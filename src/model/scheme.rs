@@ -5,7 +5,6 @@
 
 use super::plant::Plant;
 
-
 /// A breaker the plant has: the utility breaker, a bus tie, or a generator's own breaker.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 pub enum BreakerRef {
@@ -176,7 +175,9 @@ impl Scheme {
             .enumerate()
             .map(|(g, grp)| (Some(g), grp.operating_points.clone()))
             .collect();
-        let rest: Vec<usize> = (0..n_points).filter(|&op| self.group_at(op).is_none()).collect();
+        let rest: Vec<usize> = (0..n_points)
+            .filter(|&op| self.group_at(op).is_none())
+            .collect();
         if !rest.is_empty() {
             out.push((None, rest));
         }
@@ -253,7 +254,11 @@ impl Stage {
             .iter()
             .filter(|c| c.mw > 0.0)
             .map(|c| {
-                let listed = self.sheds.iter().position(|&l| l == c.load).unwrap_or(usize::MAX);
+                let listed = self
+                    .sheds
+                    .iter()
+                    .position(|&l| l == c.load)
+                    .unwrap_or(usize::MAX);
                 (plant.loads[c.load].rank, listed, *c)
             })
             .collect();

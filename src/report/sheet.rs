@@ -93,7 +93,14 @@ pub fn sheet(plant: &Plant, scheme: &Scheme) -> Sheet {
     let mut rows = Vec::new();
     for st in &scheme.stages {
         if !grouped {
-            stage_rows(plant, scheme, st, String::new(), &(0..n).collect::<Vec<_>>(), &mut rows);
+            stage_rows(
+                plant,
+                scheme,
+                st,
+                String::new(),
+                &(0..n).collect::<Vec<_>>(),
+                &mut rows,
+            );
             continue;
         }
         for (group, at) in &by_group {
@@ -416,7 +423,9 @@ pub fn html_table(sheet: &Sheet) -> String {
     let a = usize::from(sheet.sized);
     let opens_at = 8 + g + a;
     let numeric = |k: usize| {
-        k == 2 + g || (4 + g + a..opens_at).contains(&k) || (opens_at + 1..opens_at + 1 + points).contains(&k)
+        k == 2 + g
+            || (4 + g + a..opens_at).contains(&k)
+            || (opens_at + 1..opens_at + 1 + points).contains(&k)
     };
     for row in &sheet.rows {
         s.push_str("<tr>");

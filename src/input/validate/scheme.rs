@@ -293,7 +293,15 @@ fn sizing(
         );
         return None;
     }
-    let allowance = allowance(r, p, stage, flow, allowance_mw, allowance_pct, "sizing: flow")?;
+    let allowance = allowance(
+        r,
+        p,
+        stage,
+        flow,
+        allowance_mw,
+        allowance_pct,
+        "sizing: flow",
+    )?;
     Some(if flow {
         Sizing::Flow(allowance.unwrap_or(Allowance::Mw(0.0)))
     } else {
@@ -473,7 +481,13 @@ fn stage_groups(
                 None
             }
             None => {
-                unknown_id(r, &gp.key("group"), "setting group", &e.group, &group_ids.known());
+                unknown_id(
+                    r,
+                    &gp.key("group"),
+                    "setting group",
+                    &e.group,
+                    &group_ids.known(),
+                );
                 None
             }
         }) else {
@@ -585,8 +599,8 @@ fn out_of_service_everywhere(
         groups: groups.to_vec(),
     };
     for (i, stage) in stages.iter().enumerate() {
-        let somewhere =
-            (0..plant.operating_points.len()).any(|op| stage.in_group(probe.group_at(op)).is_some());
+        let somewhere = (0..plant.operating_points.len())
+            .any(|op| stage.in_group(probe.group_at(op)).is_some());
         if !somewhere {
             let p = FieldPath::root().key("stages").index(i);
             let path = if r.is_written(&p.key("in_service")) {

@@ -183,7 +183,11 @@ pub fn audit_cases(
                 .map(|&op| plant.operating_points[op].id.as_str())
                 .collect();
             let label = match group {
-                Some(g) => format!("setting group {} ({})", scheme.groups[g].id, names.join(", ")),
+                Some(g) => format!(
+                    "setting group {} ({})",
+                    scheme.groups[g].id,
+                    names.join(", ")
+                ),
                 None => format!("the stages' own settings ({})", names.join(", ")),
             };
             for f in found.iter_mut().chain(noted.iter_mut()) {
@@ -483,6 +487,9 @@ mod tests {
 
     fn stage(id: &str, pickup_hz: f64, delay_s: f64, sheds: Vec<usize>) -> Stage {
         Stage {
+            sizing: crate::model::Sizing::All,
+            in_service: true,
+            groups: Vec::new(),
             id: id.into(),
             trigger: StageTrigger::Frequency {
                 pickup_hz,
@@ -496,6 +503,7 @@ mod tests {
 
     fn scheme(stages: Vec<Stage>) -> Scheme {
         Scheme {
+            groups: Vec::new(),
             name: "t".into(),
             measurement: Measurement::default(),
             stages,
