@@ -293,6 +293,7 @@ fn build_plant(s: &PlantSpec, r: Restrict) -> Plant {
                     isochronous: s.iso.map(|k| k % s.gens.len()) == Some(i)
                         && !matches!(g.pm, PrimeMover::Fixed),
                     prime_mover: pm,
+                    pressure_control: None,
                 },
                 trips,
                 undervoltage_trips: vec![],
@@ -491,6 +492,9 @@ fn build_scheme(p: &Plant, stages: &[StageSpec], allow_rocof: bool) -> Scheme {
                 }
             }
             Stage {
+                sizing: nadir::model::Sizing::All,
+                in_service: true,
+                groups: Vec::new(),
                 id: format!("st{i}"),
                 trigger: if s.armed {
                     StageTrigger::Breaker(BreakerRef::Utility)
@@ -691,6 +695,9 @@ proptest! {
         );
         let mut more = base.clone();
         more.stages.push(Stage {
+            sizing: nadir::model::Sizing::All,
+            in_service: true,
+            groups: Vec::new(),
             id: "extra".into(),
             trigger: StageTrigger::Breaker(BreakerRef::Utility),
             delay_s: 0.1,

@@ -24,6 +24,7 @@ pub fn gen(
             deadband_hz: 0.0,
             isochronous: false,
             prime_mover: pm,
+            pressure_control: None,
         },
         trips: vec![],
         undervoltage_trips: vec![],
@@ -98,6 +99,7 @@ pub fn case(start: Start, duration_s: f64, events: Vec<(f64, Action)>) -> Case {
 
 pub fn scheme(stages: Vec<Stage>, frequency_lag_s: f64) -> Scheme {
     Scheme {
+        groups: Vec::new(),
         name: "s".into(),
         measurement: Measurement {
             frequency_lag_s,

@@ -37,6 +37,15 @@ use step::tight_step;
 const RECHECK_S: f64 = 0.25;
 
 pub fn run(plant: &Plant, case: &Case, op: usize, scheme: &Scheme, cfg: &SimConfig) -> Run {
+    // The relays hold the settings of the group in force at this point; stages out of service
+    // there are left out.
+    let held;
+    let scheme = if scheme.groups.is_empty() && scheme.stages.iter().all(|s| s.in_service) {
+        scheme
+    } else {
+        held = scheme.at_point(op);
+        &held
+    };
     let mut e = Engine::new(plant, case, op, scheme, cfg);
     e.execute();
     e.finish()
@@ -73,6 +82,8 @@ struct Engine<'a> {
     records: Vec<IslandRecord>,
     frozen: Vec<bool>,
     stages: Vec<StageRelay>,
+    /// By stage: the loads a flow-sized stage chose when its breaker opened.
+    picked: Vec<Option<Vec<usize>>>,
     gen_elems: Vec<Vec<Element>>,
     iface: Vec<Element>,
     queue: Queue,
@@ -92,6 +103,8 @@ struct Engine<'a> {
     tight_step_s: f64,
     first_failure: Option<StopReason>,
     fault: Option<StopReason>,
+    /// By machine: a pressure-controlled machine's transfer is scheduled or done.
+    transfer_set: Vec<bool>,
 }
 
 impl<'a> Engine<'a> {
@@ -113,7 +126,8 @@ impl<'a> Engine<'a> {
             .iter()
             .enumerate()
             .map(|(g, gen)| {
-                let governor = Governor::new(gen, p_ref[g], f0);
+                let dispatch = op.output_mw.get(g).copied().unwrap_or(0.0);
+                let governor = Governor::new(gen, p_ref[g], dispatch, f0);
                 let m = Machine {
                     section: gen.section,
                     stored_mws: gen.inertia_s * gen.rating_mva,
@@ -204,6 +218,7 @@ impl<'a> Engine<'a> {
             island_record: vec![],
             records: vec![],
             frozen: vec![false; n_sec],
+            picked: vec![None; scheme.stages.len()],
             stages,
             gen_elems,
             iface,
@@ -221,8 +236,10 @@ impl<'a> Engine<'a> {
             tight_step_s: tight_step(plant, scheme, cfg.max_step_s.max(1e-4)),
             first_failure: None,
             fault: None,
+            transfer_set: vec![false; plant.generators.len()],
         };
         e.adopt_islands(islands);
+        e.start_in_speed_control();
         let u0 = e.utility_pu(0.0);
         for s in 0..n_sec {
             let dw = if e.islands[e.cond.island_of_section[s]].on_utility {
