@@ -34,7 +34,7 @@ fn nadir_agrees_with_scipy_reference() {
 /// command and `breaker_s`). This fails while the engine re-evaluates armed stages as frequency
 /// stages: `StageRelay::update` (src/relay/stage.rs, the `PickedUp if !cond` arm) resets any
 /// picked-up stage whose frequency condition is false, and an armed stage's condition is always
-/// false, so `evaluate_relays` (src/sim/engine.rs) resets it at the instant it is armed and its
+/// false, so `evaluate_relays` (src/sim/engine/relays.rs) resets it at the instant it is armed and its
 /// loads never open.
 #[test]
 fn armed_stages_agree_with_scipy_reference() {

@@ -31,7 +31,7 @@ fn all_runs(plant: &Plant, cases: &CaseSet, scheme: &Scheme, cfg: &SimConfig) ->
 
 #[test]
 fn islanded_start_shares_the_import_by_droop_gain_like_screening() {
-    // Rule of src/screening.rs (module doc): the import is taken up by the governed machines in
+    // Rule of src/screening/mod.rs (module doc): the import is taken up by the governed machines in
     // proportion to S/R within their headroom. Closed form at turndown: import 3.07 MW,
     // K = 16/0.04, 8/0.05, 2.5/0.04 MW/pu (no unit reaches its limit).
     let (plant, cases, _) = demo();
@@ -105,7 +105,7 @@ fn islanded_start_shares_the_import_by_droop_gain_like_screening() {
 #[test]
 fn bus_split_each_part_settles_at_its_own_droop_and_damping_balance() {
     // Kundur 1994 ch. 11: steady state per island Δf = −ΔP_i/(D_i + Σ S/R) (with each unit's
-    // dead band offsetting its response), as evaluated by src/screening.rs for each part.
+    // dead band offsetting its response), as evaluated by src/screening/mod.rs for each part.
     let (plant, cases, scheme) = demo();
     let c = case_index(&cases, "bus-split-islanded");
     let case = &cases.cases[c];

@@ -1,0 +1,252 @@
+//! Discrete changes of a run: the one `match` over [`Event`], breakers opening, a stage's loads
+//! opening, and voltage dips with the undervoltage drop-outs they start.
+
+use super::{Dip, Engine};
+use crate::model::{Action, BreakerRef};
+use crate::relay::stage::StageAction;
+use crate::sim::event::Event;
+use crate::sim::{Cause, EventKind};
+
+impl Engine<'_> {
+    /// Every discrete change of a run passes through this match.
+    pub(super) fn handle(&mut self, at_s: f64, ev: Event) {
+        match ev {
+            Event::CaseAction(i) => match self.case.events[i].action {
+                Action::Open(br) => self.open_breaker(br, Cause::Case),
+                Action::LoadStep { section, mw } => {
+                    self.cond.step_mw[section] += mw;
+                    let section = self.plant.sections[section].id.clone();
+                    self.log(EventKind::LoadStep { section, mw });
+                }
+                Action::VoltageDip {
+                    section,
+                    remaining_pu,
+                    duration_s,
+                } => self.start_dip(section, remaining_pu, duration_s),
+            },
+            Event::DipEnd(d) => {
+                self.dips[d].active = false;
+                let s = self.dips[d].section;
+                self.update_voltage(s);
+                let section = self.plant.sections[s].id.clone();
+                self.log(EventKind::VoltageRestored { section });
+            }
+            Event::UtilityProfile => {}
+            Event::StageDelay { stage, timer_s } => {
+                if let Some(StageAction::Commanded { opens_s }) =
+                    self.stages[stage].delay_expired(at_s, timer_s)
+                {
+                    let id = self.scheme.stages[stage].id.clone();
+                    self.log(EventKind::StageTripCommand { stage: id });
+                    self.queue.push(
+                        opens_s,
+                        Event::StageBreaker {
+                            stage,
+                            timer_s: opens_s,
+                        },
+                    );
+                }
+            }
+            Event::StageBreaker { stage, timer_s } => {
+                if self.stages[stage].breaker_done(timer_s) {
+                    self.open_stage_loads(stage);
+                }
+            }
+            Event::GeneratorElement {
+                generator,
+                element,
+                timer_s,
+            } => {
+                if self.cond.machine_on[generator]
+                    && self.gen_elems[generator][element]
+                        .expired(timer_s)
+                        .is_some()
+                {
+                    let what = self.gen_elems[generator][element].describe();
+                    self.open_breaker(
+                        BreakerRef::Generator(generator),
+                        Cause::Protection { element: what },
+                    );
+                }
+            }
+            Event::InterfaceElement { element, timer_s } => {
+                if self.breakers.utility_closed && self.iface[element].expired(timer_s).is_some() {
+                    let what = format!("interface {}", self.iface[element].describe());
+                    self.open_breaker(BreakerRef::Utility, Cause::Protection { element: what });
+                }
+            }
+            Event::LoadUndervoltage { load } => {
+                if self.cond.load_on[load] {
+                    self.cond.load_on[load] = false;
+                    let mw = self.eq.loads[load].p0_mw;
+                    let isl = self.cond.island_of_section[self.eq.loads[load].section];
+                    let r = self.island_record[isl];
+                    self.records[r].dropped_mw += mw;
+                    self.dropped_mw += mw;
+                    let id = self.plant.loads[load].id.clone();
+                    self.log(EventKind::LoadDroppedOut { load: id, mw });
+                }
+            }
+            Event::GeneratorUndervoltage { generator, dip } => {
+                if self.cond.machine_on[generator] {
+                    let v = self.dips[dip].remaining_pu;
+                    self.open_breaker(
+                        BreakerRef::Generator(generator),
+                        Cause::Protection {
+                            element: format!("undervoltage ride-through ({v} pu)"),
+                        },
+                    );
+                }
+            }
+            Event::Crossing => self.evaluate_relays(),
+        }
+    }
+
+    pub(super) fn open_breaker(&mut self, br: BreakerRef, cause: Cause) {
+        match br {
+            BreakerRef::Utility => {
+                if !self.breakers.utility_closed {
+                    return;
+                }
+                self.breakers.utility_closed = false;
+                let breaker = self
+                    .plant
+                    .utility
+                    .as_ref()
+                    .map_or_else(|| "utility".to_string(), |u| u.breaker_id.clone());
+                self.log(EventKind::BreakerOpened { breaker, cause });
+                self.retopologize();
+            }
+            BreakerRef::Tie(i) => {
+                if !self.breakers.tie_closed.get(i).copied().unwrap_or(false) {
+                    return;
+                }
+                self.breakers.tie_closed[i] = false;
+                let breaker = self.plant.ties[i].id.clone();
+                self.log(EventKind::BreakerOpened { breaker, cause });
+                self.retopologize();
+            }
+            BreakerRef::Generator(g) => {
+                if !self.cond.machine_on[g] {
+                    return;
+                }
+                self.cond.machine_on[g] = false;
+                let generator = self.plant.generators[g].id.clone();
+                let (element, cascade) = match &cause {
+                    Cause::Case => ("case action".to_string(), false),
+                    Cause::Protection { element } => (element.clone(), true),
+                };
+                self.log(EventKind::BreakerOpened {
+                    breaker: generator.clone(),
+                    cause,
+                });
+                self.log(EventKind::GeneratorTripped {
+                    generator,
+                    element,
+                    cascade,
+                });
+                self.check_blackout();
+            }
+        }
+        for i in 0..self.stages.len() {
+            if let Some(StageAction::PickedUp { expires_s }) =
+                self.stages[i].breaker_opened(self.t, br)
+            {
+                let stage = self.scheme.stages[i].id.clone();
+                self.log(EventKind::StagePickup { stage });
+                self.queue.push(
+                    expires_s,
+                    Event::StageDelay {
+                        stage: i,
+                        timer_s: expires_s,
+                    },
+                );
+            }
+        }
+    }
+
+    pub(super) fn open_stage_loads(&mut self, stage: usize) {
+        let mut ids = Vec::new();
+        let mut mw = 0.0;
+        for &l in &self.scheme.stages[stage].sheds {
+            if !self.cond.load_on[l] {
+                continue;
+            }
+            self.cond.load_on[l] = false;
+            let p = self.eq.loads[l].p0_mw;
+            mw += p;
+            let isl = self.cond.island_of_section[self.eq.loads[l].section];
+            let r = self.island_record[isl];
+            self.records[r].shed_mw += p;
+            ids.push(self.plant.loads[l].id.clone());
+        }
+        self.shed_mw += mw;
+        let id = self.scheme.stages[stage].id.clone();
+        self.log(EventKind::LoadsOpened {
+            stage: id,
+            loads: ids,
+            mw,
+        });
+    }
+
+    pub(super) fn start_dip(&mut self, section: usize, remaining_pu: f64, duration_s: f64) {
+        let d = self.dips.len();
+        self.dips.push(Dip {
+            section,
+            remaining_pu,
+            active: true,
+        });
+        self.update_voltage(section);
+        self.queue
+            .push(self.t + duration_s.max(0.0), Event::DipEnd(d));
+        let id = self.plant.sections[section].id.clone();
+        self.log(EventKind::VoltageDip {
+            section: id,
+            remaining_pu,
+            duration_s,
+        });
+        for (l, ld) in self.plant.loads.iter().enumerate() {
+            if let (true, Some(uv)) = (
+                ld.section == section && self.cond.load_on[l],
+                ld.undervoltage,
+            ) {
+                if uv.below_pu > remaining_pu && duration_s > uv.after_s {
+                    self.queue.push(
+                        self.t + uv.after_s.max(0.0),
+                        Event::LoadUndervoltage { load: l },
+                    );
+                }
+            }
+        }
+        for (g, gen) in self.plant.generators.iter().enumerate() {
+            if gen.section != section || !self.cond.machine_on[g] {
+                continue;
+            }
+            let soonest = gen
+                .undervoltage_trips
+                .iter()
+                .filter(|uv| uv.below_pu > remaining_pu && duration_s > uv.after_s)
+                .map(|uv| uv.after_s.max(0.0))
+                .reduce(f64::min);
+            if let Some(after) = soonest {
+                self.queue.push(
+                    self.t + after,
+                    Event::GeneratorUndervoltage {
+                        generator: g,
+                        dip: d,
+                    },
+                );
+            }
+        }
+    }
+
+    pub(super) fn update_voltage(&mut self, section: usize) {
+        let v = self
+            .dips
+            .iter()
+            .filter(|d| d.active && d.section == section)
+            .map(|d| d.remaining_pu.max(0.0))
+            .fold(1.0, f64::min);
+        self.cond.v_sq[section] = v * v;
+    }
+}
