@@ -49,6 +49,15 @@ for heading, cmd in BLOCKS.items():
     fence = text.index("```text\n", start) + len("```text\n")
     end = text.index("\n```", fence)
     text = text[:fence] + out + text[end:]
+# The second demo: the cane mill's exporting grid loss, its command line kept above the output.
+P2, C2, S2 = "examples/canemill/plant.yaml", "examples/canemill/cases.yaml", "schemes/canemill.yaml"
+cmd = [N, "replay", P2, S2, "--cases", C2, "--case", "grid-loss", "--at", "crushing"]
+out = subprocess.run(cmd, capture_output=True, text=True).stdout.rstrip("\n")
+start = text.index("### A second demo")
+fence = text.index("```text\n", start) + len("```text\n")
+end = text.index("\n```", fence)
+line = "$ nadir replay " + " ".join(cmd[2:])
+text = text[:fence] + line + "\n" + out + text[end:]
 open("README.md", "w", encoding="utf-8").write(text)
 # The second demo plot the README links: both islands after the bus split.
 subprocess.run([N, "replay", P, S, "--cases", C, "--case", "bus-split-islanded",

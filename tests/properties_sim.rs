@@ -293,6 +293,7 @@ fn build_plant(s: &PlantSpec, r: Restrict) -> Plant {
                     isochronous: s.iso.map(|k| k % s.gens.len()) == Some(i)
                         && !matches!(g.pm, PrimeMover::Fixed),
                     prime_mover: pm,
+                    pressure_control: None,
                 },
                 trips,
                 undervoltage_trips: vec![],

@@ -77,6 +77,7 @@ fn one_bus(hz: f64, machines: &[Machine], load_mw: f64, k: f64, import_mw: Optio
                     governor_s: 0.2,
                     turbine_s: 0.5,
                 },
+                pressure_control: None,
             },
             trips: vec![],
             undervoltage_trips: vec![],

@@ -336,6 +336,9 @@ pub fn describe(what: &EventKind) -> String {
         EventKind::Blackout { island } => {
             format!("island {} BLACKOUT: no generator left", island + 1)
         }
+        EventKind::SpeedControl { generator } => {
+            format!("{generator} transfers from steam-pressure control to speed control")
+        }
     }
 }
 

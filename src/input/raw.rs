@@ -260,6 +260,24 @@ pub struct RawGovernor {
     /// Engine load-acceptance ramp limit, MW/s.
     #[serde(default)]
     pub ramp_mw_per_s: Option<f64>,
+    /// Steam machines: process-steam pressure control while on the utility, speed control after
+    /// the island loses it.
+    #[serde(default)]
+    pub pressure_control: Option<RawPressureControl>,
+}
+
+/// Process-steam pressure control of a steam machine: constant output while its island is on the
+/// utility; speed control (droop or isochronous, as set above) `transfer_s` after the island loses
+/// the utility, with at most `extra_mw` more than the dispatch, rising at most `extra_mw_per_s`.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawPressureControl {
+    /// Time from the island losing the utility to speed control, s (0 to 60).
+    pub transfer_s: f64,
+    /// Extra output the steam headers can give above the operating point's dispatch, MW (0: none).
+    pub extra_mw: f64,
+    /// Fastest rise of that extra output, MW/s.
+    pub extra_mw_per_s: f64,
 }
 
 /// A plant load.

@@ -14,6 +14,7 @@ pub use case::{disturbance_span, Action, Case, CaseEvent, CaseSet, Start};
 pub use design::{axis_points as design_axis_points, DesignLimits, GRID_POINTS_CEILING};
 pub use plant::{
     Criteria, FrequencyTrip, Generator, Governor, Load, OffFrequencyLimit, OperatingPoint, Plant,
-    PrimeMover, Section, Tie, UndervoltageTrip, Utility, INSTANT_LAG_S, MIN_JUDGED_S,
+    PressureControl, PrimeMover, Section, Tie, UndervoltageTrip, Utility, INSTANT_LAG_S,
+    MIN_JUDGED_S,
 };
 pub use scheme::{BreakerRef, Measurement, Scheme, Stage, StageTrigger};

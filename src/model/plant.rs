@@ -114,6 +114,22 @@ pub struct Governor {
     /// Integral (isochronous) speed control; at most one such machine per island.
     pub isochronous: bool,
     pub prime_mover: PrimeMover,
+    /// Process-steam pressure control while the island is on the utility (steam machines only).
+    pub pressure_control: Option<PressureControl>,
+}
+
+/// A steam turbine held on process-steam pressure control while its island is on the utility:
+/// constant output, no frequency response. When its island loses the utility (the utility
+/// breaker or a tie opening) it transfers to speed control (the governor's droop or isochronous
+/// setting) `transfer_s` later; from then the steam headers give at most `extra_mw` above the
+/// operating point's dispatch, rising from the transfer at no more than `extra_mw_per_s`. A
+/// machine whose island is off the utility when a case starts is in speed control from t = 0,
+/// with the headers' whole `extra_mw` available. docs/models.md states the model.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PressureControl {
+    pub transfer_s: f64,
+    pub extra_mw: f64,
+    pub extra_mw_per_s: f64,
 }
 
 /// The prime-mover and governor model with its own parameters. Equations and sources are in
@@ -240,6 +256,18 @@ impl Criteria {
             min_spacing_hz: 0.1,
             min_spacing_s: 0.1,
             normal_low_hz: 0.99 * nominal_hz,
+        }
+    }
+}
+
+impl Generator {
+    /// Highest output the machine can reach from the operating point's dispatch `dispatch_mw`:
+    /// `max_mw`, and for a pressure-controlled machine no more than the dispatch plus the steam
+    /// headers' `extra_mw`. The one rule for screening's headroom and the simulator's limit.
+    pub fn upper_mw(&self, dispatch_mw: f64) -> f64 {
+        match self.governor.pressure_control {
+            Some(pc) => self.max_mw.min(dispatch_mw + pc.extra_mw).max(dispatch_mw),
+            None => self.max_mw,
         }
     }
 }

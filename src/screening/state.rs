@@ -18,6 +18,9 @@ pub(super) struct State {
     /// Constant-power steps by section.
     pub(super) step_mw: Vec<f64>,
     pub(super) import_mw: f64,
+    /// By generator: the highest output from the operating point's dispatch
+    /// (`Generator::upper_mw`, the rule the simulator's limit follows).
+    pub(super) upper_mw: Vec<f64>,
 }
 
 impl State {
@@ -40,6 +43,12 @@ impl State {
             } else {
                 0.0
             },
+            upper_mw: plant
+                .generators
+                .iter()
+                .zip(&op.output_mw)
+                .map(|(g, p)| g.upper_mw(*p))
+                .collect(),
         }
     }
 
@@ -211,7 +220,7 @@ impl State {
                     crate::model::base::droop_gain_mw_per_pu(gen.rating_mva, gen.governor.droop_pct)
                 },
                 deadband_pu: gen.governor.deadband_hz / plant.nominal_hz,
-                raise_mw: (gen.max_mw - self.output_mw[g]).max(0.0),
+                raise_mw: (self.upper_mw[g] - self.output_mw[g]).max(0.0),
                 lower_mw: (self.output_mw[g] - gen.min_mw).max(0.0),
                 isochronous: gen.governor.isochronous,
             })

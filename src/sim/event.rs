@@ -37,6 +37,10 @@ pub enum Event {
         generator: usize,
         dip: usize,
     },
+    /// A pressure-controlled steam machine's transfer to speed control falls due.
+    PressureTransfer {
+        generator: usize,
+    },
     /// A located guard crossing: re-evaluate every relay and the collapse floor.
     Crossing,
 }

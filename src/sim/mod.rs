@@ -276,6 +276,11 @@ pub enum EventKind {
     Blackout {
         island: usize,
     },
+    /// A pressure-controlled steam machine transferred to speed control (its island lost the
+    /// utility `transfer_s` before).
+    SpeedControl {
+        generator: String,
+    },
 }
 
 #[derive(Debug, Clone, PartialEq, Serialize)]

@@ -24,6 +24,7 @@ pub fn gen(
             deadband_hz: 0.0,
             isochronous: false,
             prime_mover: pm,
+            pressure_control: None,
         },
         trips: vec![],
         undervoltage_trips: vec![],

@@ -535,6 +535,12 @@ pub fn to_json(x: &CrossCase) -> Value {
                 !gen.governor.isochronous,
                 "isochronous is outside the reference"
             );
+            // Process-steam pressure control is outside it too (docs/models.md §4); its closed
+            // forms are checked in tests/steam_pressure.rs.
+            assert!(
+                gen.governor.pressure_control.is_none(),
+                "pressure control is outside the reference"
+            );
             let trips: Vec<Value> = gen
                 .trips
                 .iter()

@@ -67,12 +67,13 @@ mod tests {
                     turbine_s: 0.3,
                     load_limit_mw: 8.0,
                 },
+                pressure_control: None,
             },
             trips: vec![],
             undervoltage_trips: vec![],
             off_frequency_limits: vec![],
         };
-        let g = Governor::new(&gen, 7.0, 50.0);
+        let g = Governor::new(&gen, 7.0, 7.0, 50.0);
         let Model::GasTurbine(m) = g.model else {
             panic!("model")
         };

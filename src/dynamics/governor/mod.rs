@@ -14,6 +14,12 @@
 //!   (its derivative is zeroed when it sits at a limit and is pushed further, and its output is
 //!   clamped to the limits).
 //!
+//! Process-steam pressure control ([`Pressure`], docs/models.md "Pressure-controlled steam
+//! turbines", common practice, no published model): before the transfer the command is held at
+//! `P_ref` (no speed error, no integral); after it the speed path above acts, with the upper limit
+//! `min(max, P_dispatch + a)`, where the headers' available extra `a` rises from 0 at
+//! `extra_mw_per_s` to `extra_mw` (`da/dt = rate` while `a < extra`, one more state, the last).
+//!
 //! Adding a model is one file with the [`PrimeMoverDynamics`] impl and one arm in [`Model`].
 
 pub mod engine;
@@ -152,11 +158,27 @@ pub struct Governor {
     pub p_ref_mw: f64,
     pub limits: Limits,
     pub isochronous: bool,
+    /// Process-steam pressure control, for a machine that has it.
+    pub pressure: Option<Pressure>,
+}
+
+/// A pressure-controlled steam machine's header limit and its state of control.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Pressure {
+    /// Transferred to speed control (set by the simulator for each segment); before, the command
+    /// is held at `P_ref`.
+    pub speed_control: bool,
+    /// The operating point's dispatch the headers' extra is counted from, MW.
+    pub dispatch_mw: f64,
+    pub extra_mw: f64,
+    pub extra_mw_per_s: f64,
 }
 
 impl Governor {
     /// The governor of a generator dispatched at `p_ref_mw`.
-    pub fn new(gen: &Generator, p_ref_mw: f64, nominal_hz: f64) -> Governor {
+    /// `dispatch_mw` is the operating point's dispatch (the headers' extra of a pressure-controlled
+    /// machine is counted from it); `p_ref_mw` may differ when a case starts islanded.
+    pub fn new(gen: &Generator, p_ref_mw: f64, dispatch_mw: f64, nominal_hz: f64) -> Governor {
         let model = Model::from_prime_mover(
             &gen.governor.prime_mover,
             gen.rating_mva,
@@ -169,7 +191,7 @@ impl Governor {
         };
         let mut limits = Limits {
             min_mw: gen.min_mw.min(p_ref_mw),
-            max_mw: gen.max_mw.max(p_ref_mw),
+            max_mw: gen.upper_mw(dispatch_mw).max(p_ref_mw),
         };
         if let Model::GasTurbine(g) = model {
             limits.max_mw = limits.max_mw.min(g.load_limit_mw.max(p_ref_mw));
@@ -181,12 +203,50 @@ impl Governor {
             p_ref_mw,
             limits,
             isochronous: gen.governor.isochronous && model.is_governed(),
+            pressure: gen
+                .governor
+                .pressure_control
+                .filter(|_| model.is_governed())
+                .map(|pc| Pressure {
+                    speed_control: false,
+                    dispatch_mw,
+                    extra_mw: pc.extra_mw,
+                    extra_mw_per_s: pc.extra_mw_per_s,
+                }),
         }
     }
 
-    /// Total states: the model's plus one isochronous integral (the last one) when isochronous.
+    /// Total states: the model's, then one isochronous integral when isochronous, then the
+    /// headers' available extra when pressure controlled.
     pub fn n_states(&self) -> usize {
-        self.model.inner().n_states() + usize::from(self.isochronous)
+        self.model.inner().n_states()
+            + usize::from(self.isochronous)
+            + usize::from(self.pressure.is_some())
+    }
+
+    /// Whether the machine answers speed now: always, except a pressure-controlled machine
+    /// before its transfer.
+    pub fn in_speed_control(&self) -> bool {
+        self.pressure.is_none_or(|p| p.speed_control)
+    }
+
+    /// The limits in force at state `x`: a transferred pressure-controlled machine's upper limit
+    /// is the dispatch plus what the headers give so far.
+    fn limits_at(&self, x: &[f64]) -> Limits {
+        match self.pressure {
+            Some(p) if p.speed_control => {
+                let a = x[x.len() - 1].clamp(0.0, p.extra_mw);
+                Limits {
+                    min_mw: self.limits.min_mw,
+                    max_mw: self
+                        .limits
+                        .max_mw
+                        .min(p.dispatch_mw + a)
+                        .max(self.limits.min_mw),
+                }
+            }
+            _ => self.limits,
+        }
     }
 
     /// Speed error seen through the dead band, pu.
@@ -194,19 +254,22 @@ impl Governor {
         deadband(delta_omega_pu, self.deadband_pu)
     }
 
-    fn command(&self, delta_omega_pu: f64, x: &[f64]) -> f64 {
+    fn command(&self, delta_omega_pu: f64, x: &[f64], lim: &Limits) -> f64 {
+        if !self.in_speed_control() {
+            return self.p_ref_mw;
+        }
         let z = if self.isochronous {
-            self.integral(x)
+            self.integral(x, lim)
         } else {
             0.0
         };
         self.p_ref_mw + z - self.gain_mw_per_pu * self.speed_error_pu(delta_omega_pu)
     }
 
-    fn integral(&self, x: &[f64]) -> f64 {
-        let z = x[x.len() - 1];
-        z.max(self.limits.min_mw - self.p_ref_mw)
-            .min(self.limits.max_mw - self.p_ref_mw)
+    fn integral(&self, x: &[f64], lim: &Limits) -> f64 {
+        let z = x[self.model.inner().n_states()];
+        z.max(lim.min_mw - self.p_ref_mw)
+            .min(lim.max_mw - self.p_ref_mw)
     }
 
     fn model_states<'a>(&self, x: &'a [f64]) -> &'a [f64] {
@@ -214,37 +277,57 @@ impl Governor {
     }
 
     /// Steady state at a constant speed deviation with a zero integral.
+    /// A pressure-controlled machine starts in pressure control with no header extra taken,
+    /// or, when `speed_control` (its island is off the utility at t = 0), in speed control with
+    /// the headers' whole extra available.
     pub fn init(&self, delta_omega_pu: f64, x: &mut [f64]) {
         x.iter_mut().for_each(|v| *v = 0.0);
-        let c = self.p_ref_mw - self.gain_mw_per_pu * self.speed_error_pu(delta_omega_pu);
+        if let Some(p) = self.pressure {
+            if p.speed_control {
+                x[x.len() - 1] = p.extra_mw;
+            }
+        }
+        let lim = self.limits_at(x);
+        let c = if self.in_speed_control() {
+            self.p_ref_mw - self.gain_mw_per_pu * self.speed_error_pu(delta_omega_pu)
+        } else {
+            self.p_ref_mw
+        };
         let n = self.model.inner().n_states();
-        self.model.inner().init(c, &self.limits, &mut x[..n]);
+        self.model.inner().init(c, &lim, &mut x[..n]);
     }
 
     pub fn derivatives(&self, delta_omega_pu: f64, x: &[f64], dx: &mut [f64]) {
-        let c = self.command(delta_omega_pu, x);
+        let lim = self.limits_at(x);
+        let c = self.command(delta_omega_pu, x, &lim);
         let n = self.model.inner().n_states();
         self.model
             .inner()
-            .derivatives(c, &self.limits, &x[..n], &mut dx[..n]);
+            .derivatives(c, &lim, &x[..n], &mut dx[..n]);
         if self.isochronous {
             let z = x[n];
-            let d =
-                -self.gain_mw_per_pu * self.speed_error_pu(delta_omega_pu) / ISOCHRONOUS_RESET_S;
-            dx[n] = non_windup(
-                z,
-                d,
-                self.limits.min_mw - self.p_ref_mw,
-                self.limits.max_mw - self.p_ref_mw,
-            );
+            let d = if self.in_speed_control() {
+                -self.gain_mw_per_pu * self.speed_error_pu(delta_omega_pu) / ISOCHRONOUS_RESET_S
+            } else {
+                0.0
+            };
+            dx[n] = non_windup(z, d, lim.min_mw - self.p_ref_mw, lim.max_mw - self.p_ref_mw);
+        }
+        if let Some(p) = self.pressure {
+            let k = x.len() - 1;
+            let rate = if p.speed_control {
+                p.extra_mw_per_s
+            } else {
+                0.0
+            };
+            dx[k] = non_windup(x[k], rate, 0.0, p.extra_mw);
         }
     }
 
     pub fn power_mw(&self, delta_omega_pu: f64, x: &[f64]) -> f64 {
-        let c = self.command(delta_omega_pu, x);
-        self.model
-            .inner()
-            .power_mw(c, &self.limits, self.model_states(x))
+        let lim = self.limits_at(x);
+        let c = self.command(delta_omega_pu, x, &lim);
+        self.model.inner().power_mw(c, &lim, self.model_states(x))
     }
 }
 

@@ -98,6 +98,17 @@ impl Engine<'_> {
                     );
                 }
             }
+            Event::PressureTransfer { generator } => {
+                let isl = self.cond.island_of_section[self.plant.generators[generator].section];
+                let pressure = &mut self.eq.machines[generator].governor.pressure;
+                if let Some(p) = pressure.as_mut().filter(|p| !p.speed_control) {
+                    if self.cond.machine_on[generator] && !self.islands[isl].on_utility {
+                        p.speed_control = true;
+                        let generator = self.plant.generators[generator].id.clone();
+                        self.log(EventKind::SpeedControl { generator });
+                    }
+                }
+            }
             Event::Crossing => self.evaluate_relays(),
         }
     }

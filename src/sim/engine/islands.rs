@@ -2,6 +2,7 @@
 //! blacked-out islands, and each island's mode (on the utility, free, frozen).
 
 use super::{Engine, IslandRecord};
+use crate::sim::event::Event;
 use crate::sim::rhs::IslandMode;
 use crate::sim::{EventKind, IslandEnd, StopReason};
 use crate::topology::{self, Island};
@@ -47,6 +48,41 @@ impl Engine<'_> {
         let new = topology::islands(self.plant, &self.breakers);
         self.adopt_islands(new);
         self.check_blackout();
+        self.schedule_transfers();
+    }
+
+    /// Pressure-controlled machines whose island is off the utility at t = 0 are in speed
+    /// control from the start (the plant has been running islanded).
+    pub(super) fn start_in_speed_control(&mut self) {
+        for g in 0..self.eq.machines.len() {
+            let isl = self.cond.island_of_section[self.eq.machines[g].section];
+            if self.islands[isl].on_utility {
+                continue;
+            }
+            if let Some(p) = self.eq.machines[g].governor.pressure.as_mut() {
+                p.speed_control = true;
+                self.transfer_set[g] = true;
+            }
+        }
+    }
+
+    /// A pressure-controlled machine whose island has just lost the utility transfers to speed
+    /// control `transfer_s` later (one transfer per machine).
+    fn schedule_transfers(&mut self) {
+        for (g, gen) in self.plant.generators.iter().enumerate() {
+            let Some(pc) = gen.governor.pressure_control else {
+                continue;
+            };
+            let isl = self.cond.island_of_section[gen.section];
+            if self.transfer_set[g] || !self.cond.machine_on[g] || self.islands[isl].on_utility {
+                continue;
+            }
+            self.transfer_set[g] = true;
+            self.queue.push(
+                self.t + pc.transfer_s.max(0.0),
+                Event::PressureTransfer { generator: g },
+            );
+        }
     }
 
     /// Take a new island list: unchanged islands keep their record; changed ones get new records.

@@ -92,6 +92,8 @@ struct Engine<'a> {
     tight_step_s: f64,
     first_failure: Option<StopReason>,
     fault: Option<StopReason>,
+    /// By machine: a pressure-controlled machine's transfer is scheduled or done.
+    transfer_set: Vec<bool>,
 }
 
 impl<'a> Engine<'a> {
@@ -113,7 +115,8 @@ impl<'a> Engine<'a> {
             .iter()
             .enumerate()
             .map(|(g, gen)| {
-                let governor = Governor::new(gen, p_ref[g], f0);
+                let dispatch = op.output_mw.get(g).copied().unwrap_or(0.0);
+                let governor = Governor::new(gen, p_ref[g], dispatch, f0);
                 let m = Machine {
                     section: gen.section,
                     stored_mws: gen.inertia_s * gen.rating_mva,
@@ -221,8 +224,10 @@ impl<'a> Engine<'a> {
             tight_step_s: tight_step(plant, scheme, cfg.max_step_s.max(1e-4)),
             first_failure: None,
             fault: None,
+            transfer_set: vec![false; plant.generators.len()],
         };
         e.adopt_islands(islands);
+        e.start_in_speed_control();
         let u0 = e.utility_pu(0.0);
         for s in 0..n_sec {
             let dw = if e.islands[e.cond.island_of_section[s]].on_utility {

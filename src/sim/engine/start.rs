@@ -84,14 +84,17 @@ pub(super) fn initial_dispatch(
 
 /// Share an imbalance (positive: more load than dispatch) over the governed machines `gens`:
 /// isochronous ones first in index order, then droop ones in proportion to S/R, all within
-/// [min_mw, max_mw]; returns what could not be carried.
+/// [min_mw, `Generator::upper_mw` of the dispatch]; returns what could not be carried.
 fn share_imbalance(plant: &Plant, gens: &[usize], p_ref: &mut [f64], mut imbalance: f64) -> f64 {
     let governed =
         |g: &usize| plant.generators[*g].governor.prime_mover != crate::model::PrimeMover::Fixed;
+    let upper: Vec<f64> = (0..p_ref.len())
+        .map(|g| plant.generators[g].upper_mw(p_ref[g]))
+        .collect();
     let room = |g: usize, p: f64, up: bool| {
         let gen = &plant.generators[g];
         if up {
-            (gen.max_mw - p).max(0.0)
+            (upper[g] - p).max(0.0)
         } else {
             (p - gen.min_mw).max(0.0)
         }

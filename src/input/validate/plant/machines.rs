@@ -368,10 +368,75 @@ fn governor(r: &mut Reader, p: &FieldPath, g: &RawGenerator, max_mw: f64) -> Gov
         }
         RawPrimeMover::Fixed => PrimeMover::Fixed,
     };
+    let pressure_control = gov
+        .pressure_control
+        .as_ref()
+        .and_then(|pc| pressure_control(r, &p.key("pressure_control"), g, pc, model));
     Governor {
         droop_pct,
         deadband_hz,
         isochronous,
         prime_mover,
+        pressure_control,
     }
+}
+
+/// Process-steam pressure control: steam machines only; a transfer time like any relay delay;
+/// header extra and its rise not negative, and a rise when there is extra to give.
+fn pressure_control(
+    r: &mut Reader,
+    p: &FieldPath,
+    g: &RawGenerator,
+    pc: &RawPressureControl,
+    model: &str,
+) -> Option<PressureControl> {
+    if !matches!(
+        g.governor.model,
+        RawPrimeMover::Steam | RawPrimeMover::SteamReheat
+    ) {
+        r.error_at_key(
+            p,
+            format!(
+                "pressure_control is for steam machines; generator `{}` has model {model}",
+                g.id
+            ),
+            "remove pressure_control, or give the machine model steam or steam-reheat".to_string(),
+        );
+        return None;
+    }
+    let transfer_ok = delay(r, &p.key("transfer_s"), pc.transfer_s);
+    let extra_ok = num(
+        r,
+        &p.key("extra_mw"),
+        pc.extra_mw,
+        Lo::AtLeast(0.0),
+        Hi::Any,
+        " MW",
+    );
+    let rate_ok = num(
+        r,
+        &p.key("extra_mw_per_s"),
+        pc.extra_mw_per_s,
+        Lo::AtLeast(0.0),
+        Hi::Any,
+        " MW/s",
+    );
+    if extra_ok && rate_ok && pc.extra_mw > 0.0 && pc.extra_mw_per_s == 0.0 {
+        r.error(
+            &p.key("extra_mw_per_s"),
+            format!(
+                "extra_mw_per_s is 0, so the headers' extra_mw {} MW would never come",
+                mw(pc.extra_mw)
+            ),
+            "give the fastest rise the steam headers allow in MW/s, or write extra_mw: 0 for a \
+             machine that cannot raise its output"
+                .to_string(),
+        );
+        return None;
+    }
+    (transfer_ok && extra_ok && rate_ok).then_some(PressureControl {
+        transfer_s: pc.transfer_s,
+        extra_mw: pc.extra_mw,
+        extra_mw_per_s: pc.extra_mw_per_s,
+    })
 }
