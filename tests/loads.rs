@@ -405,13 +405,20 @@ fn the_verbs_round_trip_and_never_write_over_an_input() {
 }
 
 #[test]
-fn the_demo_list_imports_to_the_demo_plant() {
+fn each_demo_list_imports_to_its_demo_plant() {
     let root = Path::new(env!("CARGO_MANIFEST_DIR"));
-    let list = std::fs::read_to_string(root.join("examples/biorefinery/loads.csv")).unwrap();
-    let text = demo_text();
-    let got = import(&text, &list).unwrap();
-    assert_eq!(got.plant.value, parse_plant(&text, "plant.yaml").unwrap());
-    assert!(got.typed > 30, "{}", got.typed);
+    for (demo, typed) in [("biorefinery", 34), ("canemill", 15)] {
+        let dir = root.join("examples").join(demo);
+        let list = std::fs::read_to_string(dir.join("loads.csv")).unwrap();
+        let text = std::fs::read_to_string(dir.join("plant.yaml")).unwrap();
+        let got = import(&text, &list).unwrap();
+        assert_eq!(
+            got.plant.value,
+            parse_plant(&text, "plant.yaml").unwrap(),
+            "{demo}"
+        );
+        assert_eq!(got.typed, typed, "{demo}");
+    }
 }
 
 #[test]
