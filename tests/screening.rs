@@ -131,6 +131,7 @@ fn one_case(start: Start, action: Action) -> CaseSet {
             applies_to: vec![0],
             duration_s: 30.0,
             weight: 1.0,
+            shedding_intended: false,
             events: vec![CaseEvent { at_s: 0.0, action }],
             utility_profile: vec![],
         }],

@@ -280,6 +280,9 @@ fn loads_in_words(plant: &nadir::model::Plant, sheds: &[usize]) -> String {
     }
 }
 
+/// Beside a case whose shedding is intended, in design's table (verify's says it in words).
+const INTENDED_MARK: &str = "(intended)";
+
 fn shed_table(p: &Proposal) -> String {
     let mut b = Builder::default();
     b.push_record([
@@ -302,13 +305,24 @@ fn shed_table(p: &Proposal) -> String {
         }
     };
     let (mut shed, mut bound, mut real, mut base) = (0.0, 0.0, 0.0, 0.0);
+    let (mut intended_shed, mut intended_base) = (0.0, 0.0);
     for r in &p.rows {
-        shed += r.weight * r.shed_mw;
-        bound += r.weight * r.bound_mw;
-        real += r.weight * r.realisable_mw;
-        base += r.weight * r.baseline_mw.unwrap_or(0.0);
+        // A case whose shedding is intended counts in no total but its own.
+        if r.intended {
+            intended_shed += r.weight * r.shed_mw;
+            intended_base += r.weight * r.baseline_mw.unwrap_or(0.0);
+        } else {
+            shed += r.weight * r.shed_mw;
+            bound += r.weight * r.bound_mw;
+            real += r.weight * r.realisable_mw;
+            base += r.weight * r.baseline_mw.unwrap_or(0.0);
+        }
         b.push_record([
-            r.case.clone(),
+            if r.intended {
+                format!("{} {INTENDED_MARK}", r.case)
+            } else {
+                r.case.clone()
+            },
             r.operating_point.clone(),
             fmt(r.weight, 2),
             fmt(r.shed_mw, 2),
@@ -322,7 +336,7 @@ fn shed_table(p: &Proposal) -> String {
     }
     let baseline_line = match &p.baseline {
         Some(bl) => format!(
-            "Plain baseline ({} equal steps, rank order): {:.2} MW weighted by case, objective {:.2}; the proposal's objective is {:.2} ({:+.1} %).",
+            "Plain baseline ({} equal steps, rank order): {:.2} MW weighted by case in unwanted-shedding cases, objective {:.2}; the proposal's objective is {:.2} ({:+.1} %).",
             bl.stages,
             base,
             bl.objective,
@@ -349,11 +363,22 @@ fn shed_table(p: &Proposal) -> String {
             r.case, r.operating_point, r.why
         ));
     }
+    let intended_line = if p.rows.iter().any(|r| r.intended) {
+        format!(
+            "Rows marked {INTENDED_MARK}: the case declares shedding its intended response; their shed, {intended_shed:.2} MW weighted by case{}, counts in no total, bound or objective.\n",
+            match &p.baseline {
+                Some(_) => format!(" (plain baseline {intended_base:.2} MW)"),
+                None => String::new(),
+            }
+        )
+    } else {
+        String::new()
+    };
     format!(
-        "Shed per case (MW at nominal frequency) against two lower bounds: the ideal bound (relief at the very instant of each event, in any amount) and the realisable bound (relief no sooner than the fastest allowed relay — minimum delay, breaker time, measurement lag — in whole loads in rank order, each row on its own):\n{}\n\
-Total weighted by case: {:.2} MW shed; ideal bound {:.2} MW ({}); realisable bound {:.2} MW ({}).\n\
+        "Shed per case (MW at nominal frequency) against two lower bounds: the ideal bound (relief at the very instant of each event, in any amount) and the realisable bound (relief no sooner than the fastest allowed relay — minimum delay, breaker time, measurement lag — in whole loads in rank order, each row on its own):\n{}\n{intended_line}\
+Total weighted by case, cases where shedding is unwanted: {:.2} MW shed; ideal bound {:.2} MW ({}); realisable bound {:.2} MW ({}).\n\
 Row by row:\n{why}{baseline_line}\n\
-Objective = Σ case weight × rank weight × MW shed.\n",
+Objective = Σ case weight × rank weight × MW shed, over cases where shedding is unwanted.\n",
         finish(b, 2..8),
         shed,
         bound,

@@ -165,6 +165,9 @@ pub fn render_table(m: &Matrix, plant: &Plant, scheme: &str, wide: bool) -> Stri
         narrow_table(m, &plant.criteria)
     };
     let mut out = format!("Verification of {scheme} on {}\n{table}\n", plant.name);
+    if m.rows.iter().any(|r| r.shedding_intended) {
+        out.push_str(&wrap_text(nadir::verify::matrix::INTENDED_LEGEND, "", "  "));
+    }
     if !wide {
         let failing: Vec<&Row> = m.rows.iter().filter(|r| !r.pass).collect();
         if !failing.is_empty() {
@@ -281,7 +284,7 @@ fn narrow_table(m: &Matrix, c: &Criteria) -> String {
         if last_case != Some(r.case_index) {
             last_case = Some(r.case_index);
             case_lines.push(b.count_records());
-            b.push_record([r.case.clone()]);
+            b.push_record([r.case_label()]);
         }
         let (dist, model) = margin_cells(r);
         let [nadir, _, peak, _, rocof, recovery] = figure_cells(r);
@@ -337,7 +340,7 @@ fn wide_table(m: &Matrix, c: &Criteria) -> String {
         let (dist, model) = margin_cells(r);
         let [nadir, at, peak, peak_at, rocof, recovery] = figure_cells(r);
         b.push_record([
-            r.case.clone(),
+            r.case_label(),
             r.operating_point.clone(),
             if r.pass { "pass".into() } else { "FAIL".into() },
             nadir,

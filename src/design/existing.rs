@@ -50,7 +50,7 @@ pub(super) fn keep_existing(
         .rows
         .iter()
         .map(|&(ci, op)| {
-            ctx.cases.cases[ci].weight
+            ctx.cases.cases[ci].cost_weight()
                 * ctx
                     .loads
                     .iter()

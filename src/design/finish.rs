@@ -56,6 +56,7 @@ pub(super) fn finish(
             case: cases.cases[ci].id.clone(),
             operating_point: plant.operating_points[op].id.clone(),
             weight: cases.cases[ci].weight,
+            intended: cases.cases[ci].shedding_intended,
             shed_mw: shed[r],
             bound_mw: bounds[r].mw,
             realisable_mw: realisable[r],
@@ -130,6 +131,9 @@ fn why_not_at_bound(
     realisable: &[f64],
     r: usize,
 ) -> String {
+    if ctx.cases.cases[ctx.rows[r].0].shedding_intended {
+        return "shedding intended: its shed is not counted as cost".into();
+    }
     let slack = 0.05_f64.max(0.02 * realisable[r]);
     if shed[r] <= realisable[r] + slack {
         return if shed[r] <= 1e-9 {

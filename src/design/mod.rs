@@ -77,6 +77,8 @@ pub struct RowShed {
     pub case: String,
     pub operating_point: String,
     pub weight: f64,
+    /// The case declares shedding the intended response: its shed and bounds count in no total.
+    pub intended: bool,
     /// MW opened, at nominal frequency.
     pub shed_mw: f64,
     /// The ideal-instant bound.

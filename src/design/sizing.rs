@@ -191,13 +191,13 @@ impl<'a> Context<'a> {
     }
 
     /// The design objective of replayed rows: MW opened at nominal frequency, weighted by rank
-    /// and by case.
+    /// and by case; the shed of a case whose shedding is intended costs nothing.
     pub fn objective(&self, evals: &[RowEval]) -> f64 {
         self.rows
             .iter()
             .zip(evals)
             .map(|(&(ci, op), e)| {
-                let w = self.cases.cases[ci].weight;
+                let w = self.cases.cases[ci].cost_weight();
                 e.shed_loads
                     .iter()
                     .map(|&i| w * self.rank_weight(i) * self.mw[op][i])
@@ -511,7 +511,7 @@ fn costs(ctx: &Context, layout: &Layout, stages: usize, evals: &[RowEval]) -> Ve
             let rw = ctx.rank_weight(i);
             let mut c = vec![1e-3 * rw * ctx.mw[first][i].max(1e-3); stages];
             for (&(ci, op), e) in ctx.rows.iter().zip(evals) {
-                let w = ctx.cases.cases[ci].weight;
+                let w = ctx.cases.cases[ci].cost_weight();
                 for k in layout::effective(layout, &e.operated) {
                     c[k] += w * rw * ctx.mw[op][i];
                 }

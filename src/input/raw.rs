@@ -517,6 +517,18 @@ pub enum RawStart {
     Islanded,
 }
 
+/// Whether a case's shedding is wanted.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Deserialize, JsonSchema)]
+#[serde(rename_all = "kebab-case")]
+pub enum RawShedding {
+    /// Shedding is a cost to keep small (default).
+    #[default]
+    Unwanted,
+    /// Shedding is the response asked for (e.g. the grid operator requires the plant's loads in
+    /// a grid-wide under-frequency event): design does not count it as cost.
+    Intended,
+}
+
 /// One disturbance scenario.
 #[derive(Debug, Clone, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
@@ -539,6 +551,9 @@ pub struct RawCase {
     /// Weight of this case's shed in the design objective (default 1).
     #[serde(default)]
     pub weight: Option<f64>,
+    /// Whether shedding is the response this case asks for: unwanted (default) or intended.
+    #[serde(default)]
+    pub shedding: RawShedding,
     /// Timed actions.
     pub events: Vec<RawEvent>,
     /// Utility frequency while connected, for a grid-wide event: points joined by straight lines.

@@ -21,6 +21,10 @@ pub struct Case {
     pub duration_s: f64,
     /// Weight of this case's shed in the design objective.
     pub weight: f64,
+    /// Shedding is the response this case asks for (e.g. a grid-wide under-frequency event for
+    /// which the grid operator requires the plant's loads): design counts none of its shed as
+    /// cost, nor its bounds. Default false: shedding is unwanted.
+    pub shedding_intended: bool,
     /// Sorted by time; ties keep file order.
     pub events: Vec<CaseEvent>,
     /// Utility frequency while connected, as (time, Hz) points joined by straight lines; empty
@@ -29,6 +33,15 @@ pub struct Case {
 }
 
 impl Case {
+    /// Weight of this case's shed in the design objective: 0 when shedding is intended.
+    pub fn cost_weight(&self) -> f64 {
+        if self.shedding_intended {
+            0.0
+        } else {
+            self.weight
+        }
+    }
+
     /// When the disturbance starts and when its last part happens: see [`disturbance_span`].
     pub fn disturbance_span(&self) -> (f64, f64) {
         disturbance_span(&self.events, &self.utility_profile)

@@ -515,6 +515,9 @@ fn matrix_section(h: &mut String, r: &ReportInputs) {
         m.rows.len(),
         m.rows.len() - failed
     );
+    if m.rows.iter().any(|x| x.shedding_intended) {
+        let _ = writeln!(h, "<p>{}</p>", esc(crate::verify::matrix::INTENDED_LEGEND));
+    }
     let _ = write!(h, "<table class=\"wide matrix\">\n<thead><tr><th>case</th><th>point</th><th>result</th><th>nadir Hz</th><th>at s</th><th>peak Hz</th><th>{}</th><th>recovery s</th><th>shed MW</th><th>UV MW</th><th>shed %</th><th>stages</th><th>cascades</th><th>disturbance ×</th><th>model error %</th><th>failed criterion</th></tr></thead>\n<tbody>\n", esc(&figures::rocof_heading(&r.plant.criteria)));
     for row in &m.rows {
         let (dist, model) = match &row.margins {
@@ -563,7 +566,7 @@ fn matrix_section(h: &mut String, r: &ReportInputs) {
             h,
             "<tr{}><td class=\"id\">{}</td><td class=\"id\">{}</td><td class=\"result\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td>{}</td><td>{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"msg\">{failures}</td></tr>",
             if row.pass { "" } else { " class=\"fail\"" },
-            esc(&row.case),
+            esc(&row.case_label()),
             esc(&row.operating_point),
             if row.pass { "pass" } else { "FAIL" },
             nadir,

@@ -88,6 +88,9 @@ pub struct CriterionOut {
 #[derive(Debug, Clone, Serialize, JsonSchema)]
 pub struct RunOut {
     pub case: String,
+    /// Present and true when the case declares shedding its intended response (absent: unwanted).
+    #[serde(default, skip_serializing_if = "std::ops::Not::not")]
+    pub shedding_intended: bool,
     pub operating_point: String,
     pub pass: bool,
     /// Why the run stopped early (collapse, over-speed, blackout, a numerical stop); null for a
@@ -477,6 +480,7 @@ pub fn run_out(r: &Row) -> RunOut {
     let opt = |v: Option<f64>| v.filter(|_| r.status.is_none());
     RunOut {
         case: r.case.clone(),
+        shedding_intended: r.shedding_intended,
         operating_point: r.operating_point.clone(),
         pass: r.pass,
         status: r.status.clone(),

@@ -33,6 +33,8 @@ impl Default for VerifyConfig {
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Row {
     pub case: String,
+    /// The case declares shedding its intended response (see `Case::shedding_intended`).
+    pub shedding_intended: bool,
     pub operating_point: String,
     pub case_index: usize,
     pub operating_point_index: usize,
@@ -58,6 +60,23 @@ pub struct Row {
     pub margins: Option<Margins>,
     /// Time each running generator spent in each abnormal frequency band.
     pub off_nominal: Vec<BandTime>,
+}
+
+/// Mark beside the id of a case whose shedding is intended, in every table of the matrix.
+pub const INTENDED_MARK: &str = "*";
+
+/// The legend of [`INTENDED_MARK`], printed under any table that uses it.
+pub const INTENDED_LEGEND: &str = "* shedding is the intended response of this case (the cases file says `shedding: intended`); design counts none of its shed as cost.";
+
+impl Row {
+    /// The case id, marked when the case's shedding is intended.
+    pub fn case_label(&self) -> String {
+        if self.shedding_intended {
+            format!("{} {INTENDED_MARK}", self.case)
+        } else {
+            self.case.clone()
+        }
+    }
 }
 
 /// The whole matrix.
@@ -153,6 +172,7 @@ pub fn verify_one(
     let load_mw: f64 = plant.operating_points[op].load_mw.iter().sum();
     Row {
         case: case.id.clone(),
+        shedding_intended: case.shedding_intended,
         operating_point: plant.operating_points[op].id.clone(),
         case_index,
         operating_point_index: op,

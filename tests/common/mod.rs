@@ -89,6 +89,7 @@ pub fn case(start: Start, duration_s: f64, events: Vec<(f64, Action)>) -> Case {
         applies_to: vec![0],
         duration_s,
         weight: 1.0,
+        shedding_intended: false,
         events: events
             .into_iter()
             .map(|(at_s, action)| CaseEvent { at_s, action })

@@ -380,6 +380,7 @@ fn case(r: &mut Reader, p: &FieldPath, c: &RawCase, plant: &Plant) -> Case {
         applies_to,
         duration_s,
         weight,
+        shedding_intended: c.shedding == RawShedding::Intended,
         events,
         utility_profile,
     }
