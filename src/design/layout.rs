@@ -261,6 +261,7 @@ pub fn scheme(
         name: name.to_string(),
         measurement,
         stages,
+        over_frequency: Vec::new(),
     }
 }
 

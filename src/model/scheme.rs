@@ -1,5 +1,6 @@
 //! The shedding scheme: stages with their trigger, intentional delay, breaker time and loads;
-//! the order stages operate in, and the section a frequency stage measures at.
+//! the order stages operate in, and the section a frequency stage measures at; and the
+//! over-frequency stages that trip or run back a named generator.
 
 use super::plant::Plant;
 
@@ -17,6 +18,37 @@ pub struct Scheme {
     pub name: String,
     pub measurement: Measurement,
     pub stages: Vec<Stage>,
+    /// Over-frequency stages, in the scheme file's order.
+    pub over_frequency: Vec<OverStage>,
+}
+
+/// An over-frequency stage: when the frequency measured at its generator's section stays above
+/// `pickup_hz` for `delay_s`, it issues its command, and `breaker_s` later the generator's
+/// breaker opens or its output reference is run back.
+#[derive(Debug, Clone, PartialEq)]
+pub struct OverStage {
+    pub id: String,
+    pub pickup_hz: f64,
+    pub delay_s: f64,
+    pub breaker_s: f64,
+    pub action: OverAction,
+}
+
+/// What an over-frequency stage does to its generator (by index).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum OverAction {
+    /// Opens the generator's breaker.
+    Trip { generator: usize },
+    /// Lowers the generator's output reference by `mw` (not below its `min_mw`).
+    RunBack { generator: usize, mw: f64 },
+}
+
+impl OverAction {
+    pub fn generator(&self) -> usize {
+        match *self {
+            OverAction::Trip { generator } | OverAction::RunBack { generator, .. } => generator,
+        }
+    }
 }
 
 /// How the relays measure. Generator and interface protection use the same measurement.

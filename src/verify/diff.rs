@@ -182,6 +182,7 @@ mod tests {
                 stage("uf-1", 49.0, vec![0, 1]),
                 stage("uf-2", 48.8, vec![2]),
             ],
+            over_frequency: Vec::new(),
         };
         let mut kept = stage("uf-1", 49.1, vec![0, 2]);
         kept.delay_s = 0.3;
@@ -189,6 +190,7 @@ mod tests {
             name: "new".into(),
             measurement: Measurement::default(),
             stages: vec![kept, stage("uf-3", 48.5, vec![1])],
+            over_frequency: Vec::new(),
         };
         let d = diff(&p, &old, &new);
         let kinds: Vec<(&str, &str)> = d.iter().map(|c| (c.stage.as_str(), c.what)).collect();
@@ -214,6 +216,7 @@ mod tests {
             name: "s".into(),
             measurement: Measurement::default(),
             stages: vec![stage("uf-1", 49.0, vec![0])],
+            over_frequency: Vec::new(),
         };
         assert!(diff(&p, &s, &s).is_empty());
     }
