@@ -2,8 +2,11 @@
 //!
 //! A pure function of the plant and the breaker states; it knows nothing of time or dynamics.
 //! A generator breaker does not change topology (the machine leaves its island, the bus stays).
+//! Also which way power flowed through a breaker just before it opened, and which sections lost
+//! it ([`flow_before_opening`]), from each section's net demand: the rule a flow-sized armed
+//! stage follows, in the simulator and in the audit alike.
 
-use crate::model::Plant;
+use crate::model::{BreakerRef, Plant};
 
 /// Which breakers are closed at a moment.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -91,6 +94,92 @@ pub fn island_of(islands: &[Island], section: usize) -> usize {
         .unwrap_or(0)
 }
 
+/// The flow through a breaker just before it opened, and the sections that lost it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Cut {
+    /// MW that flowed into `sections` through the breaker (never negative).
+    pub flow_mw: f64,
+    /// The sections that lost the flow, ascending: the plant's side of the utility breaker, a
+    /// generator's island, the receiving side of a tie.
+    pub sections: Vec<usize>,
+}
+
+/// Which way power flowed through `breaker` just before it opened, at breaker state `before`
+/// (the breaker still closed): `net_mw[s]` is section `s`'s demand less the output of its
+/// machines (with any power going into the stored energy of its island counted as demand), and
+/// `gen_mw[g]` each machine's electrical output (0 when not running).
+///
+/// - Utility breaker: the import of the island joined to the utility, `Σ net_mw` over it
+///   (negative when it exported); it went into that island's sections.
+/// - Generator breaker: the machine's output; it went into the machine's island.
+/// - Tie breaker: the flow into the side of the tie that receives it: for a side without the
+///   utility `Σ net_mw` over it, the other side giving what this one takes. A tie whose opening
+///   does not split its island (a closed ring) carries no flow this model can tell: 0 MW.
+///
+/// `None` when the breaker was already open (or the machine not running): it opens nothing.
+pub fn flow_before_opening(
+    plant: &Plant,
+    before: &BreakerState,
+    breaker: BreakerRef,
+    net_mw: &[f64],
+    gen_mw: &[f64],
+) -> Option<Cut> {
+    let now = islands(plant, before);
+    let sum = |sections: &[usize]| sections.iter().map(|&s| net_mw[s]).sum::<f64>();
+    match breaker {
+        BreakerRef::Utility => {
+            let island = now.iter().find(|i| i.on_utility)?;
+            Some(Cut {
+                flow_mw: sum(&island.sections),
+                sections: island.sections.clone(),
+            })
+        }
+        BreakerRef::Generator(g) => {
+            let out = *gen_mw.get(g)?;
+            let gen = plant.generators.get(g)?;
+            let island = &now[island_of(&now, gen.section)];
+            Some(Cut {
+                flow_mw: out,
+                sections: island.sections.clone(),
+            })
+        }
+        BreakerRef::Tie(t) => {
+            if !before.tie_closed.get(t).copied().unwrap_or(false) {
+                return None;
+            }
+            let mut after = before.clone();
+            after.tie_closed[t] = false;
+            let parts = islands(plant, &after);
+            let [a, b] = plant.ties[t].between;
+            let (ia, ib) = (island_of(&parts, a), island_of(&parts, b));
+            if ia == ib {
+                return Some(Cut {
+                    flow_mw: 0.0,
+                    sections: parts[ia].sections.clone(),
+                });
+            }
+            let (pa, pb) = (&parts[ia], &parts[ib]);
+            // Into side a: its own net demand, unless the utility is on that side.
+            let into_a = if pa.on_utility {
+                -sum(&pb.sections)
+            } else {
+                sum(&pa.sections)
+            };
+            Some(if into_a >= 0.0 {
+                Cut {
+                    flow_mw: into_a,
+                    sections: pa.sections.clone(),
+                }
+            } else {
+                Cut {
+                    flow_mw: -into_a,
+                    sections: pb.sections.clone(),
+                }
+            })
+        }
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -166,5 +255,43 @@ mod tests {
         assert_eq!(isl[0].sections, vec![0, 1]);
         assert_eq!(isl[1].sections, vec![2]);
         assert_eq!(island_of(&isl, 2), 1);
+    }
+
+    #[test]
+    fn a_tie_flow_goes_to_the_side_short_of_power() {
+        // a–b–c in a line, no utility; net demand a: −3 MW (surplus), b: +1, c: +2. Opening
+        // bc: side c takes 2 MW from a+b (Kirchhoff's current law at the cut: what c lacks flows
+        // in through the one tie); opening ab: a gives 3 MW to b+c.
+        let p = three_sections();
+        let before = BreakerState {
+            utility_closed: false,
+            tie_closed: vec![true, true],
+        };
+        let net = [-3.0, 1.0, 2.0];
+        let cut = flow_before_opening(&p, &before, BreakerRef::Tie(1), &net, &[]).unwrap();
+        assert_eq!(
+            cut,
+            Cut {
+                flow_mw: 2.0,
+                sections: vec![2]
+            }
+        );
+        let cut = flow_before_opening(&p, &before, BreakerRef::Tie(0), &net, &[]).unwrap();
+        assert_eq!(
+            cut,
+            Cut {
+                flow_mw: 3.0,
+                sections: vec![1, 2]
+            }
+        );
+        // An open tie carries nothing and arms nothing.
+        let open = BreakerState {
+            utility_closed: false,
+            tie_closed: vec![true, false],
+        };
+        assert_eq!(
+            flow_before_opening(&p, &open, BreakerRef::Tie(1), &net, &[]),
+            None
+        );
     }
 }

@@ -413,6 +413,9 @@ fn table(plant: &Plant, layout: &[Setting], loads: &[(usize, u32)], pos: &[usize
                 .collect();
             sheds.sort();
             Stage {
+                sizing: nadir::model::Sizing::All,
+                in_service: true,
+                groups: Vec::new(),
                 id: format!("s{}", k + 1),
                 trigger: s.trigger,
                 delay_s: s.delay_s,
@@ -436,6 +439,7 @@ fn table(plant: &Plant, layout: &[Setting], loads: &[(usize, u32)], pos: &[usize
         }
     }
     Scheme {
+        groups: Vec::new(),
         name: "exhaustive candidate".into(),
         measurement: Measurement::default(),
         stages,

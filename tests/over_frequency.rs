@@ -234,6 +234,9 @@ fn over_frequency_stages_are_written_back_and_read_equal() {
         delay_s: 0.2,
         breaker_s: 0.08,
         sheds: vec![0],
+        sizing: Sizing::All,
+        in_service: true,
+        groups: Vec::new(),
     }];
     let text = scheme_yaml(&plant, &scheme, &[]);
     let back = parse_scheme(&text, "s.yaml", &plant).expect(&text);

@@ -492,6 +492,9 @@ fn build_scheme(p: &Plant, stages: &[StageSpec], allow_rocof: bool) -> Scheme {
                 }
             }
             Stage {
+                sizing: nadir::model::Sizing::All,
+                in_service: true,
+                groups: Vec::new(),
                 id: format!("st{i}"),
                 trigger: if s.armed {
                     StageTrigger::Breaker(BreakerRef::Utility)
@@ -692,6 +695,9 @@ proptest! {
         );
         let mut more = base.clone();
         more.stages.push(Stage {
+            sizing: nadir::model::Sizing::All,
+            in_service: true,
+            groups: Vec::new(),
             id: "extra".into(),
             trigger: StageTrigger::Breaker(BreakerRef::Utility),
             delay_s: 0.1,

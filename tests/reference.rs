@@ -280,6 +280,9 @@ fn stage_opens_loads_at_computed_instant() {
     );
     p.generators[0].governor.droop_pct = 0.0;
     let stage = Stage {
+        sizing: nadir::model::Sizing::All,
+        in_service: true,
+        groups: Vec::new(),
         id: "uf1".into(),
         trigger: StageTrigger::Frequency {
             pickup_hz: 59.0,
@@ -342,6 +345,9 @@ fn no_disturbance_is_quiet_and_repeatable() {
         3.0,
     );
     let stage = Stage {
+        sizing: nadir::model::Sizing::All,
+        in_service: true,
+        groups: Vec::new(),
         id: "uf1".into(),
         trigger: StageTrigger::Frequency {
             pickup_hz: 49.0,

@@ -75,6 +75,9 @@ fn uf_stage(
     sheds: Vec<usize>,
 ) -> Stage {
     Stage {
+        sizing: nadir::model::Sizing::All,
+        in_service: true,
+        groups: Vec::new(),
         id: id.into(),
         trigger: StageTrigger::Frequency {
             pickup_hz,

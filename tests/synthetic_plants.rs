@@ -15,6 +15,7 @@ use synthetic::{generate, Generated, Spec};
 
 fn no_shedding() -> Scheme {
     Scheme {
+        groups: Vec::new(),
         name: "no shedding".into(),
         measurement: Measurement::default(),
         stages: vec![],
@@ -25,9 +26,13 @@ fn no_shedding() -> Scheme {
 /// Every sheddable load in one under-frequency stage.
 fn shed_everything(plant: &Plant) -> Scheme {
     Scheme {
+        groups: Vec::new(),
         name: "shed everything".into(),
         measurement: Measurement::default(),
         stages: vec![Stage {
+            sizing: nadir::model::Sizing::All,
+            in_service: true,
+            groups: Vec::new(),
             id: "all".into(),
             trigger: StageTrigger::Frequency {
                 pickup_hz: 49.0,

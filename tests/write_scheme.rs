@@ -92,9 +92,13 @@ fn a_long_shed_list_is_wrapped_and_still_reads_back() {
         .collect();
     let plant = common::plant(50.0, vec![], loads, 10.0);
     let scheme = Scheme {
+        groups: Vec::new(),
         name: "long".into(),
         measurement: Measurement::default(),
         stages: vec![Stage {
+            sizing: nadir::model::Sizing::All,
+            in_service: true,
+            groups: Vec::new(),
             id: "uf-1".into(),
             trigger: StageTrigger::Frequency {
                 pickup_hz: 49.0,
@@ -119,9 +123,13 @@ fn a_long_shed_list_is_wrapped_and_still_reads_back() {
 fn a_reference_outside_the_plant_is_refused_on_reading_not_a_panic() {
     let plant = common::plant(50.0, vec![], vec![common::load("a", 1.0, 0.0)], 1.0);
     let scheme = Scheme {
+        groups: Vec::new(),
         name: "broken".into(),
         measurement: Measurement::default(),
         stages: vec![Stage {
+            sizing: nadir::model::Sizing::All,
+            in_service: true,
+            groups: Vec::new(),
             id: "s".into(),
             trigger: StageTrigger::Breaker(BreakerRef::Generator(3)),
             delay_s: 0.1,
@@ -328,6 +336,9 @@ fn plant_and_scheme() -> impl Strategy<Value = (Plant, Scheme, Vec<String>)> {
                 .filter_map(|((_, trigger, delay_s, breaker_s, count), id)| {
                     let sheds: Vec<usize> = next.by_ref().take(count).collect();
                     (!sheds.is_empty()).then_some(Stage {
+                        sizing: nadir::model::Sizing::All,
+                        in_service: true,
+                        groups: Vec::new(),
                         id,
                         trigger,
                         delay_s,
@@ -337,6 +348,7 @@ fn plant_and_scheme() -> impl Strategy<Value = (Plant, Scheme, Vec<String>)> {
                 })
                 .collect();
             let scheme = Scheme {
+                groups: Vec::new(),
                 name,
                 measurement: Measurement {
                     frequency_lag_s: lag,

@@ -54,6 +54,9 @@ pub fn run(args: DesignArgs) -> anyhow::Result<Outcome> {
         Some(p) => Some(load::scheme(p, &plant)?),
         None => None,
     };
+    if let (Some(old), Some(path)) = (&existing, &args.from) {
+        refuse_unsupported(old, path)?;
+    }
 
     let spinner = spinner();
     let progress = |what: &str| spinner.set_message(what.to_string());
@@ -423,4 +426,45 @@ fn capitalise(s: &str) -> String {
         Some(f) => f.to_uppercase().collect::<String>() + c.as_str(),
         None => String::new(),
     }
+}
+
+/// `--from` starts from one set of settings with fixed load lists: a table with setting groups,
+/// a stage out of service, or a stage sized from the pre-event flow is refused (exit 2) rather
+/// than redesigned as if it were something else.
+fn refuse_unsupported(old: &nadir::model::Scheme, path: &std::path::Path) -> anyhow::Result<()> {
+    let mut what = Vec::new();
+    if !old.groups.is_empty() {
+        what.push("setting groups".to_string());
+    }
+    let sized: Vec<&str> = old
+        .stages
+        .iter()
+        .filter(|s| matches!(s.sizing, nadir::model::Sizing::Flow(_)))
+        .map(|s| s.id.as_str())
+        .collect();
+    if !sized.is_empty() {
+        what.push(format!(
+            "stages sized from the pre-event flow ({})",
+            sized.join(", ")
+        ));
+    }
+    let out: Vec<&str> = old
+        .stages
+        .iter()
+        .filter(|s| !s.in_service)
+        .map(|s| s.id.as_str())
+        .collect();
+    if !out.is_empty() {
+        what.push(format!("stages out of service ({})", out.join(", ")));
+    }
+    if what.is_empty() {
+        return Ok(());
+    }
+    anyhow::bail!(
+        "{}: design --from does not start from a table with {}; \
+run `nadir verify` and `nadir audit` on it as it is, or give --from a copy with one set of settings and \
+fixed load lists",
+        path.display(),
+        what.join(" or ")
+    )
 }

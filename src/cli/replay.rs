@@ -295,6 +295,27 @@ pub fn describe(what: &EventKind) -> String {
         EventKind::StagePickup { stage } => format!("stage {stage} picks up"),
         EventKind::StageReset { stage } => format!("stage {stage} resets"),
         EventKind::StageTripCommand { stage } => format!("stage {stage} trip command"),
+        EventKind::StageSized {
+            stage,
+            flow_mw,
+            allowance_mw,
+            loads,
+        } => {
+            let what = if loads.is_empty() {
+                "will open nothing".to_string()
+            } else {
+                format!("will open {}", loads.join(", "))
+            };
+            let flow = if *flow_mw < 0.0 {
+                format!("{} MW flowing out (exported)", fmt(-flow_mw, 2))
+            } else {
+                format!("{} MW flowing in", fmt(*flow_mw, 2))
+            };
+            format!(
+                "stage {stage} sized from {flow} just before the breaker opened, less {} MW allowance: {what}",
+                fmt(*allowance_mw, 2)
+            )
+        }
         EventKind::LoadsOpened { stage, loads, mw } => {
             format!(
                 "stage {stage} opens {} ({} MW)",

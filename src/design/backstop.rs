@@ -28,6 +28,7 @@ pub enum Backstop {
 /// Whether every row holds with no table at all (margins included): nothing needs shedding.
 pub fn nothing_needed(ctx: &Context) -> bool {
     let empty = Scheme {
+        groups: Vec::new(),
         name: String::new(),
         measurement: Measurement::default(),
         stages: Vec::new(),

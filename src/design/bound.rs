@@ -61,6 +61,7 @@ impl Shortfall {
 /// Bound of `case` at operating point `op`.
 pub fn bound(plant: &Plant, case: &Case, op: usize, cfg: &SimConfig) -> Result<Bound, Shortfall> {
     let empty = Scheme {
+        groups: Vec::new(),
         name: String::new(),
         measurement: Measurement::default(),
         stages: Vec::new(),
@@ -263,6 +264,7 @@ pub fn realisable(
         return 0.0;
     }
     let empty = Scheme {
+        groups: Vec::new(),
         name: String::new(),
         measurement: Measurement::default(),
         stages: Vec::new(),

@@ -229,6 +229,9 @@ pub fn scheme(
                 }
             }
             Stage {
+                sizing: crate::model::Sizing::All,
+                in_service: true,
+                groups: Vec::new(),
                 id: layout.ids.get(k).cloned().unwrap_or(generated),
                 trigger: st.trigger,
                 delay_s: st.delay_s,
@@ -258,6 +261,7 @@ pub fn scheme(
         }
     }
     Scheme {
+        groups: Vec::new(),
         name: name.to_string(),
         measurement,
         stages,

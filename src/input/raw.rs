@@ -615,6 +615,11 @@ pub struct SchemeFile {
     /// Over-frequency stages that trip or run back a named generator (default none).
     #[serde(default)]
     pub over_frequency: Vec<RawOverStage>,
+    /// Setting groups: each names the operating points at which the relays use it; a stage's
+    /// `groups` entries give its settings there. A point in no group uses the settings written on
+    /// each stage.
+    #[serde(default)]
+    pub setting_groups: Vec<RawSettingGroup>,
 }
 
 /// An over-frequency stage: above `above_hz` for `delay_s`, it `trips` a generator or `runs_back`
@@ -650,6 +655,43 @@ pub struct RawRunBack {
     pub mw: f64,
 }
 
+/// A setting group: its id and the operating points it is in force at.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawSettingGroup {
+    /// Group id, as stages name it in their `groups` entries.
+    pub id: String,
+    /// Operating point ids (of the plant file) at which the relays use this group; each point in
+    /// at most one group.
+    pub operating_points: Vec<String>,
+}
+
+/// A stage's settings in one setting group; a field left out keeps the stage's own value.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawGroupSettings {
+    /// The setting group's id (from `setting_groups`).
+    pub group: String,
+    /// Whether the stage is in service in this group.
+    #[serde(default)]
+    pub in_service: Option<bool>,
+    /// Under-frequency pickup in this group, Hz (frequency stages).
+    #[serde(default)]
+    pub pickup_hz: Option<f64>,
+    /// df/dt supervision in this group, Hz/s (frequency stages).
+    #[serde(default)]
+    pub min_rocof_hz_per_s: Option<f64>,
+    /// Intentional delay in this group, s.
+    #[serde(default)]
+    pub delay_s: Option<f64>,
+    /// Allowance of a flow-sized stage in this group, MW.
+    #[serde(default)]
+    pub allowance_mw: Option<f64>,
+    /// Allowance of a flow-sized stage in this group, percent of the spinning reserve.
+    #[serde(default)]
+    pub allowance_reserve_pct: Option<f64>,
+}
+
 /// Relay measurement.
 #[derive(Debug, Clone, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
@@ -682,6 +724,35 @@ pub struct RawStage {
     /// Load breaker opening time, s (default 0.08).
     #[serde(default)]
     pub breaker_s: Option<f64>,
-    /// Load ids this stage opens.
+    /// Load ids this stage opens; with `sizing: flow`, the loads it may open, in rank order.
     pub sheds: Vec<String>,
+    /// What an armed stage opens: `all` its loads (default), or `flow`: in rank order, the fewest
+    /// of its loads whose MW covers the flow through the `armed_by` breaker just before it opened
+    /// (import for the utility breaker, output for a generator, the flow into the side of the
+    /// stage's loads for a tie), less the allowance; nothing when the flow was the other way.
+    #[serde(default)]
+    pub sizing: Option<RawSizing>,
+    /// Allowance of a `sizing: flow` stage, MW: the part of the flow left to the machines.
+    #[serde(default)]
+    pub allowance_mw: Option<f64>,
+    /// Allowance of a `sizing: flow` stage as a percent of the spinning reserve (maximum less
+    /// output of the running machines) of the island that lost the flow.
+    #[serde(default)]
+    pub allowance_reserve_pct: Option<f64>,
+    /// In service at the operating points in no setting group (default true).
+    #[serde(default)]
+    pub in_service: Option<bool>,
+    /// This stage's settings in setting groups, one entry per group that changes them.
+    #[serde(default)]
+    pub groups: Vec<RawGroupSettings>,
+}
+
+/// What an armed stage opens.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, JsonSchema)]
+#[serde(rename_all = "kebab-case")]
+pub enum RawSizing {
+    /// Every listed load.
+    All,
+    /// The rank-order run of listed loads that covers the pre-event flow less the allowance.
+    Flow,
 }

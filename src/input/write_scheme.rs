@@ -9,7 +9,7 @@
 //! scheme that names a load or breaker its plant does not have is written with a placeholder the
 //! reader refuses with a diagnostic.
 
-use crate::model::{BreakerRef, OverAction, Plant, Scheme, Stage, StageTrigger};
+use crate::model::{Allowance, BreakerRef, OverAction, Plant, Scheme, Sizing, Stage, StageTrigger};
 use std::borrow::Cow;
 use std::fmt::Write as _;
 
@@ -33,6 +33,31 @@ pub fn scheme_yaml(plant: &Plant, scheme: &Scheme, header: &[String]) -> String 
     let _ = writeln!(out, "  frequency_lag_s: {}", number(m.frequency_lag_s));
     let _ = writeln!(out, "  rocof_window_s: {}", number(m.rocof_window_s));
     out.push('\n');
+    if !scheme.groups.is_empty() {
+        out.push_str("setting_groups:\n");
+        for g in &scheme.groups {
+            let points: Vec<String> = g
+                .operating_points
+                .iter()
+                .map(|&op| {
+                    scalar(
+                        plant
+                            .operating_points
+                            .get(op)
+                            .map_or("?", |o| o.id.as_str()),
+                    )
+                    .into_owned()
+                })
+                .collect();
+            let _ = writeln!(
+                out,
+                "  - {{ id: {}, operating_points: [{}] }}",
+                scalar(&g.id),
+                points.join(", ")
+            );
+        }
+        out.push('\n');
+    }
     if let Some(point) = plant.operating_points.first() {
         push_comment(
             &mut out,
@@ -43,10 +68,11 @@ pub fn scheme_yaml(plant: &Plant, scheme: &Scheme, header: &[String]) -> String 
         );
     }
     out.push_str("stages:\n");
+    let group_ids: Vec<String> = scheme.groups.iter().map(|g| g.id.clone()).collect();
     let stages: Vec<(Vec<String>, String)> = scheme
         .stages
         .iter()
-        .map(|s| (stage_lines(plant, s), shed_summary(plant, s)))
+        .map(|s| (stage_lines(plant, s, &group_ids), shed_summary(plant, s)))
         .collect();
     // Comments start in one column, as in the demo tables, unless a line is too long for it.
     let column = stages
@@ -103,7 +129,7 @@ const LINE_WIDTH: usize = 100;
 const COMMENT_COLUMN_MAX: usize = 88;
 
 /// The stage as a flow mapping: triggers and times on the first line, loads on the next ones.
-fn stage_lines(plant: &Plant, stage: &Stage) -> Vec<String> {
+fn stage_lines(plant: &Plant, stage: &Stage, groups: &[String]) -> Vec<String> {
     let mut head = format!("  - {{ id: {}", scalar(&stage.id));
     match stage.trigger {
         StageTrigger::Frequency {
@@ -125,6 +151,12 @@ fn stage_lines(plant: &Plant, stage: &Stage) -> Vec<String> {
         number(stage.delay_s),
         number(stage.breaker_s)
     );
+    if let Sizing::Flow(a) = stage.sizing {
+        let _ = write!(head, " sizing: flow, {},", allowance(a));
+    }
+    if !stage.in_service {
+        head.push_str(" in_service: false,");
+    }
     let mut lines = vec![head];
     let items: Vec<String> = stage
         .sheds
@@ -148,9 +180,60 @@ fn stage_lines(plant: &Plant, stage: &Stage) -> Vec<String> {
         line.push_str(sep);
         fresh = false;
     }
-    line.push_str("] }");
+    if stage.groups.is_empty() {
+        line.push_str("] }");
+        lines.push(line);
+        return lines;
+    }
+    line.push_str("],");
     lines.push(line);
+    lines.push("      groups: [".to_string());
+    for (k, g) in stage.groups.iter().enumerate() {
+        let name = scheme_group(g.group, groups);
+        let mut entry = format!(
+            "        {{ group: {}, in_service: {}",
+            scalar(&name),
+            g.in_service
+        );
+        if let StageTrigger::Frequency {
+            pickup_hz,
+            min_rocof_hz_per_s,
+        } = g.trigger
+        {
+            let _ = write!(entry, ", pickup_hz: {}", number(pickup_hz));
+            if let Some(r) = min_rocof_hz_per_s {
+                let _ = write!(entry, ", min_rocof_hz_per_s: {}", number(r));
+            }
+        }
+        let _ = write!(entry, ", delay_s: {}", number(g.delay_s));
+        if let Sizing::Flow(a) = g.sizing {
+            let _ = write!(entry, ", {}", allowance(a));
+        }
+        entry.push_str(if k + 1 < stage.groups.len() {
+            " },"
+        } else {
+            " }"
+        });
+        lines.push(entry);
+    }
+    lines.push("      ] }".to_string());
     lines
+}
+
+/// A flow-sized stage's allowance as its field.
+fn allowance(a: Allowance) -> String {
+    match a {
+        Allowance::Mw(mw) => format!("allowance_mw: {}", number(mw)),
+        Allowance::ReservePct(pct) => format!("allowance_reserve_pct: {}", number(pct)),
+    }
+}
+
+/// A setting group's id, or a placeholder the reader refuses.
+fn scheme_group(group: usize, groups: &[String]) -> String {
+    groups
+        .get(group)
+        .cloned()
+        .unwrap_or_else(|| format!("<setting group {group}>"))
 }
 
 /// Ranks and MW the stage sheds at the plant's first operating point, e.g. `ranks 1–3, 1.65 MW`.

@@ -17,4 +17,7 @@ pub use plant::{
     PressureControl, PrimeMover, Section, Tie, UndervoltageTrip, Utility, INSTANT_LAG_S,
     MIN_JUDGED_S,
 };
-pub use scheme::{BreakerRef, Measurement, OverAction, OverStage, Scheme, Stage, StageTrigger};
+pub use scheme::{
+    Allowance, BreakerRef, Candidate, GroupSettings, Measurement, OverAction, OverStage, Scheme,
+    SettingGroup, Sizing, Stage, StageTrigger,
+};

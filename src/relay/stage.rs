@@ -175,6 +175,9 @@ mod tests {
     fn stage() -> StageRelay {
         StageRelay::new(
             &Stage {
+                sizing: crate::model::Sizing::All,
+                in_service: true,
+                groups: Vec::new(),
                 id: "s".into(),
                 trigger: StageTrigger::Frequency {
                     pickup_hz: 49.0,
@@ -219,6 +222,9 @@ mod tests {
     fn armed_stage_is_not_reset_by_the_measurement() {
         let mut s = StageRelay::new(
             &Stage {
+                sizing: crate::model::Sizing::All,
+                in_service: true,
+                groups: Vec::new(),
                 id: "armed".into(),
                 trigger: StageTrigger::Breaker(BreakerRef::Utility),
                 delay_s: 0.25,

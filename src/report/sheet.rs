@@ -4,11 +4,17 @@
 //! they trip or run back — with the loads each stage opens (or the generator it acts on), the MW
 //! that is at each operating point, and blank columns for the as-left value and initials.
 //!
+//! A breaker-armed stage sized from the pre-event flow gets an `allowance` column (its setting)
+//! and says in its logic how it picks its loads, which it lists in rank order. With setting
+//! groups, every stage has one set of rows per group (and one for the points in no group), with
+//! a `setting group` column; a stage out of service in a group has one row saying so, and the MW
+//! columns are filled at the group's own points only.
+//!
 //! Written as CSV for spreadsheets, Markdown, a printable HTML page, and as a table inside the
 //! report. Setting values are written in Rust's shortest round-trip form (the value read from the
 //! scheme file, `49.2`, not `49.20000000000000284`), so the CSV reads back to the same scheme.
 
-use crate::model::{BreakerRef, OverAction, Plant, Scheme, StageTrigger};
+use crate::model::{Allowance, BreakerRef, OverAction, Plant, Scheme, Sizing, Stage, StageTrigger};
 use std::fmt::Write;
 
 /// What a row sets.
@@ -36,6 +42,11 @@ impl Element {
 #[derive(Debug, Clone, PartialEq)]
 pub struct Row {
     pub stage: String,
+    /// The setting group these settings belong to, with its points ("island (island-a,
+    /// island-b)"); empty when the scheme has no setting groups.
+    pub group: String,
+    /// A flow-sized stage's allowance as set ("2.0 MW", "50.0 % of spinning reserve").
+    pub allowance: Option<String>,
     pub element: Element,
     pub pickup_hz: Option<f64>,
     /// The breaker whose opening starts a breaker-armed stage.
@@ -47,8 +58,9 @@ pub struct Row {
     pub breaker_s: Option<f64>,
     /// Load ids the stage opens (empty on a supervision row: the stage's row lists them).
     pub opens: Vec<String>,
-    /// MW of those loads at each operating point (in the plant's order).
-    pub mw: Vec<f64>,
+    /// MW of those loads at each operating point (in the plant's order); `None` at points
+    /// where another setting group is in force.
+    pub mw: Vec<Option<f64>>,
     /// How the element works with the others, in words.
     pub logic: String,
 }
@@ -63,91 +75,66 @@ pub struct Sheet {
     /// The frequency measurement's lag, seconds (a relay setting for every stage).
     pub frequency_lag_s: f64,
     pub rows: Vec<Row>,
+    /// The scheme has setting groups: the `setting group` column is shown.
+    pub grouped: bool,
+    /// Some stage is sized from the pre-event flow: the `allowance` column is shown.
+    pub sized: bool,
 }
 
-/// The sheet of `scheme` on `plant`, stages in the scheme file's order.
+/// The sheet of `scheme` on `plant`, stages in the scheme file's order; with setting groups,
+/// each stage's rows for every group in the file's order of groups, then for the points in no
+/// group.
 pub fn sheet(plant: &Plant, scheme: &Scheme) -> Sheet {
     let points: Vec<String> = plant
         .operating_points
         .iter()
         .map(|p| p.id.clone())
         .collect();
+    let n = plant.operating_points.len();
+    let grouped = !scheme.groups.is_empty();
+    let by_group = scheme.points_by_group(n);
     let mut rows = Vec::new();
     for st in &scheme.stages {
-        let opens: Vec<String> = st
-            .sheds
-            .iter()
-            .map(|&l| plant.loads[l].id.clone())
-            .collect();
-        let mw: Vec<f64> = plant
-            .operating_points
-            .iter()
-            .map(|op| st.sheds.iter().map(|&l| op.load_mw[l]).sum())
-            .collect();
-        match st.trigger {
-            StageTrigger::Frequency {
-                pickup_hz,
-                min_rocof_hz_per_s,
-            } => {
-                rows.push(Row {
+        if !grouped {
+            stage_rows(
+                plant,
+                scheme,
+                st,
+                String::new(),
+                &(0..n).collect::<Vec<_>>(),
+                &mut rows,
+            );
+            continue;
+        }
+        for (group, at) in &by_group {
+            let ids: Vec<&str> = at
+                .iter()
+                .map(|&op| plant.operating_points[op].id.as_str())
+                .collect();
+            let label = match group {
+                Some(g) => format!("{} ({})", scheme.groups[*g].id, ids.join(", ")),
+                None => format!("no group ({})", ids.join(", ")),
+            };
+            match st.in_group(*group) {
+                Some(held) => stage_rows(plant, scheme, &held, label, at, &mut rows),
+                None => rows.push(Row {
                     stage: st.id.clone(),
-                    element: Element::UnderFrequency,
-                    pickup_hz: Some(pickup_hz),
-                    armed_by: None,
-                    delay_s: Some(st.delay_s),
-                    dfdt_fall_hz_per_s: None,
-                    dfdt_window_s: None,
-                    breaker_s: Some(st.breaker_s),
-                    opens,
-                    mw,
-                    logic: match min_rocof_hz_per_s {
-                        Some(_) => format!(
-                            "trips when below {} Hz for {} s while the df/dt element is picked up",
-                            setting(pickup_hz),
-                            setting(st.delay_s)
-                        ),
-                        None => format!(
-                            "trips when below {} Hz for {} s",
-                            setting(pickup_hz),
-                            setting(st.delay_s)
-                        ),
+                    group: label,
+                    element: match st.trigger {
+                        StageTrigger::Frequency { .. } => Element::UnderFrequency,
+                        StageTrigger::Breaker(_) => Element::BreakerArmed,
                     },
-                });
-                if let Some(rate) = min_rocof_hz_per_s {
-                    rows.push(Row {
-                        stage: st.id.clone(),
-                        element: Element::DfDtSupervision,
-                        pickup_hz: None,
-                        armed_by: None,
-                        delay_s: None,
-                        dfdt_fall_hz_per_s: Some(rate),
-                        dfdt_window_s: Some(scheme.measurement.rocof_window_s),
-                        breaker_s: None,
-                        opens: Vec::new(),
-                        mw: Vec::new(),
-                        logic: format!(
-                            "picked up while df/dt ≤ −{} Hz/s over {} s; AND with the under-frequency element",
-                            setting(rate),
-                            setting(scheme.measurement.rocof_window_s)
-                        ),
-                    });
-                }
-            }
-            StageTrigger::Breaker(b) => {
-                let name = breaker_name(plant, b);
-                rows.push(Row {
-                    stage: st.id.clone(),
-                    element: Element::BreakerArmed,
+                    allowance: None,
                     pickup_hz: None,
-                    armed_by: Some(name.clone()),
-                    delay_s: Some(st.delay_s),
+                    armed_by: None,
+                    delay_s: None,
                     dfdt_fall_hz_per_s: None,
                     dfdt_window_s: None,
-                    breaker_s: Some(st.breaker_s),
-                    opens,
-                    mw,
-                    logic: format!("trips {} s after breaker {name} opens", setting(st.delay_s)),
-                });
+                    breaker_s: None,
+                    opens: Vec::new(),
+                    mw: Vec::new(),
+                    logic: "out of service in this setting group".to_string(),
+                }),
             }
         }
     }
@@ -160,7 +147,7 @@ pub fn sheet(plant: &Plant, scheme: &Scheme) -> Sheet {
                 plant
                     .operating_points
                     .iter()
-                    .map(|op| if op.online[g] { op.output_mw[g] } else { 0.0 })
+                    .map(|op| Some(if op.online[g] { op.output_mw[g] } else { 0.0 }))
                     .collect(),
                 format!("trips generator {}", gen.id),
             ),
@@ -169,13 +156,15 @@ pub fn sheet(plant: &Plant, scheme: &Scheme) -> Sheet {
                 plant
                     .operating_points
                     .iter()
-                    .map(|op| if op.online[g] { mw } else { 0.0 })
+                    .map(|op| Some(if op.online[g] { mw } else { 0.0 }))
                     .collect(),
                 format!("runs generator {} back by {} MW", gen.id, setting(mw)),
             ),
         };
         rows.push(Row {
             stage: o.id.clone(),
+            group: String::new(),
+            allowance: None,
             element: Element::OverFrequency,
             pickup_hz: Some(o.pickup_hz),
             armed_by: None,
@@ -198,6 +187,132 @@ pub fn sheet(plant: &Plant, scheme: &Scheme) -> Sheet {
         points,
         frequency_lag_s: scheme.measurement.frequency_lag_s,
         rows,
+        grouped,
+        sized: scheme.stages.iter().any(|s| {
+            matches!(s.sizing, Sizing::Flow(_))
+                || s.groups.iter().any(|g| matches!(g.sizing, Sizing::Flow(_)))
+        }),
+    }
+}
+
+/// The rows of one stage with the settings `st` holds, MW filled at the operating points `at`.
+fn stage_rows(
+    plant: &Plant,
+    scheme: &Scheme,
+    st: &Stage,
+    group: String,
+    at: &[usize],
+    rows: &mut Vec<Row>,
+) {
+    // A flow-sized stage lists its loads in the order it takes them: by rank, then as listed.
+    let mut listed = st.sheds.clone();
+    if matches!(st.sizing, Sizing::Flow(_)) {
+        listed.sort_by_key(|&l| plant.loads[l].rank);
+    }
+    let opens: Vec<String> = listed.iter().map(|&l| plant.loads[l].id.clone()).collect();
+    let mw: Vec<Option<f64>> = plant
+        .operating_points
+        .iter()
+        .enumerate()
+        .map(|(k, op)| {
+            at.contains(&k)
+                .then(|| st.sheds.iter().map(|&l| op.load_mw[l]).sum())
+        })
+        .collect();
+    match st.trigger {
+        StageTrigger::Frequency {
+            pickup_hz,
+            min_rocof_hz_per_s,
+        } => {
+            rows.push(Row {
+                stage: st.id.clone(),
+                group: group.clone(),
+                element: Element::UnderFrequency,
+                allowance: None,
+                pickup_hz: Some(pickup_hz),
+                armed_by: None,
+                delay_s: Some(st.delay_s),
+                dfdt_fall_hz_per_s: None,
+                dfdt_window_s: None,
+                breaker_s: Some(st.breaker_s),
+                opens,
+                mw,
+                logic: match min_rocof_hz_per_s {
+                    Some(_) => format!(
+                        "trips when below {} Hz for {} s while the df/dt element is picked up",
+                        setting(pickup_hz),
+                        setting(st.delay_s)
+                    ),
+                    None => format!(
+                        "trips when below {} Hz for {} s",
+                        setting(pickup_hz),
+                        setting(st.delay_s)
+                    ),
+                },
+            });
+            if let Some(rate) = min_rocof_hz_per_s {
+                rows.push(Row {
+                    stage: st.id.clone(),
+                    group,
+                    element: Element::DfDtSupervision,
+                    allowance: None,
+                    pickup_hz: None,
+                    armed_by: None,
+                    delay_s: None,
+                    dfdt_fall_hz_per_s: Some(rate),
+                    dfdt_window_s: Some(scheme.measurement.rocof_window_s),
+                    breaker_s: None,
+                    opens: Vec::new(),
+                    mw: Vec::new(),
+                    logic: format!(
+                        "picked up while df/dt ≤ −{} Hz/s over {} s; AND with the under-frequency element",
+                        setting(rate),
+                        setting(scheme.measurement.rocof_window_s)
+                    ),
+                });
+            }
+        }
+        StageTrigger::Breaker(b) => {
+            let name = breaker_name(plant, b);
+            let trips = format!("trips {} s after breaker {name} opens", setting(st.delay_s));
+            let (allowance, logic) = match st.sizing {
+                Sizing::All => (None, trips),
+                Sizing::Flow(a) => {
+                    let flow = match b {
+                        BreakerRef::Utility => "the import",
+                        BreakerRef::Generator(_) => "the machine's output",
+                        BreakerRef::Tie(_) => "the flow into its loads' side",
+                    };
+                    let less = match a {
+                        Allowance::Mw(mw) => format!("{} MW", setting(mw)),
+                        Allowance::ReservePct(pct) => {
+                            format!("{} % of the spinning reserve", setting(pct))
+                        }
+                    };
+                    (
+                        Some(less.clone()),
+                        format!(
+                            "{trips}, opening in the order listed the fewest loads whose MW covers {flow} through {name} just before it opened, less {less}; opens nothing when that flow was the other way"
+                        ),
+                    )
+                }
+            };
+            rows.push(Row {
+                stage: st.id.clone(),
+                group,
+                element: Element::BreakerArmed,
+                allowance,
+                pickup_hz: None,
+                armed_by: Some(name.clone()),
+                delay_s: Some(st.delay_s),
+                dfdt_fall_hz_per_s: None,
+                dfdt_window_s: None,
+                breaker_s: Some(st.breaker_s),
+                opens,
+                mw,
+                logic,
+            });
+        }
     }
 }
 
@@ -215,43 +330,61 @@ pub fn breaker_name(plant: &Plant, b: BreakerRef) -> String {
 
 /// Column titles, in order (the MW columns are `MW at POINT`).
 pub fn header(sheet: &Sheet) -> Vec<String> {
-    let mut h: Vec<String> = [
-        "stage",
-        "element",
-        "pickup Hz",
-        "armed by breaker",
-        "delay s",
-        "df/dt fall at least Hz/s",
-        "df/dt window s",
-        "breaker s",
-        "opens (loads)",
-    ]
-    .iter()
-    .map(|s| s.to_string())
-    .collect();
+    let mut h: Vec<String> = vec!["stage".to_string()];
+    if sheet.grouped {
+        h.push("setting group".to_string());
+    }
+    h.extend(["element", "pickup Hz", "armed by breaker"].map(String::from));
+    if sheet.sized {
+        h.push("allowance".to_string());
+    }
+    h.extend(
+        [
+            "delay s",
+            "df/dt fall at least Hz/s",
+            "df/dt window s",
+            "breaker s",
+            "opens (loads)",
+        ]
+        .map(String::from),
+    );
     h.extend(sheet.points.iter().map(|p| format!("MW at {p}")));
     h.extend(["logic", "as-left value", "initials"].map(String::from));
     h
 }
 
-/// The cells of a row, as in [`header`] (settings in shortest round-trip form, MW to 0.01).
-pub fn cells(row: &Row, points: usize) -> Vec<String> {
+/// The cells of a row, as in [`header`] (settings in shortest round-trip form, MW to 0.01; no
+/// MW at a point where another setting group is in force).
+pub fn cells(sheet: &Sheet, row: &Row) -> Vec<String> {
+    let points = sheet.points.len();
     let opt = |v: Option<f64>| v.map(setting).unwrap_or_default();
-    let mut c = vec![
-        row.stage.clone(),
+    let mut c = vec![row.stage.clone()];
+    if sheet.grouped {
+        c.push(row.group.clone());
+    }
+    c.extend([
         row.element.words().to_string(),
         opt(row.pickup_hz),
         row.armed_by.clone().unwrap_or_default(),
+    ]);
+    if sheet.sized {
+        c.push(row.allowance.clone().unwrap_or_default());
+    }
+    c.extend([
         opt(row.delay_s),
         opt(row.dfdt_fall_hz_per_s),
         opt(row.dfdt_window_s),
         opt(row.breaker_s),
         row.opens.join("; "),
-    ];
+    ]);
     if row.mw.is_empty() {
         c.extend(std::iter::repeat_n(String::new(), points));
     } else {
-        c.extend(row.mw.iter().map(|v| format!("{v:.2}")));
+        c.extend(
+            row.mw
+                .iter()
+                .map(|v| v.map(|v| format!("{v:.2}")).unwrap_or_default()),
+        );
     }
     c.extend([row.logic.clone(), String::new(), String::new()]);
     c
@@ -274,7 +407,7 @@ pub fn csv(sheet: &Sheet) -> String {
     let mut w = csv::Writer::from_writer(Vec::new());
     let _ = w.write_record(header(sheet).iter().map(|c| guard(c)));
     for row in &sheet.rows {
-        let _ = w.write_record(cells(row, sheet.points.len()).iter().map(|c| guard(c)));
+        let _ = w.write_record(cells(sheet, row).iter().map(|c| guard(c)));
     }
     String::from_utf8(w.into_inner().unwrap_or_default()).unwrap_or_default()
 }
@@ -303,7 +436,7 @@ pub fn markdown(sheet: &Sheet) -> String {
     );
     let _ = writeln!(s, "|{}", "---|".repeat(h.len()));
     for row in &sheet.rows {
-        let c = cells(row, sheet.points.len());
+        let c = cells(sheet, row);
         let _ = writeln!(
             s,
             "| {} |",
@@ -331,18 +464,26 @@ pub fn html_table(sheet: &Sheet) -> String {
     }
     s.push_str("</tr></thead>\n<tbody>\n");
     let points = sheet.points.len();
-    let numeric = |k: usize| matches!(k, 2 | 4..=7) || (9..9 + points).contains(&k);
+    // Column positions shift by the optional group and allowance columns.
+    let g = usize::from(sheet.grouped);
+    let a = usize::from(sheet.sized);
+    let opens_at = 8 + g + a;
+    let numeric = |k: usize| {
+        k == 2 + g
+            || (4 + g + a..opens_at).contains(&k)
+            || (opens_at + 1..opens_at + 1 + points).contains(&k)
+    };
     for row in &sheet.rows {
         s.push_str("<tr>");
-        for (k, c) in cells(row, points).iter().enumerate() {
+        for (k, c) in cells(sheet, row).iter().enumerate() {
             let class = if numeric(k) {
                 " class=\"n\""
-            } else if k > 9 + points {
+            } else if k > opens_at + 1 + points {
                 " class=\"blank\""
             } else {
                 ""
             };
-            let text = if k == 8 {
+            let text = if k == opens_at {
                 row.opens
                     .iter()
                     .map(|o| esc(o))

@@ -148,21 +148,32 @@ pub fn screen_scheme(plant: &Plant, scheme: &Scheme) -> SchemeFigures {
     let mut cumulative = vec![0.0; ops.len()];
     // A load in several stages (an armed stage and its under-frequency backup) is opened once:
     // the cumulative figure counts it at the first stage in operating order that lists it.
-    let mut counted = vec![false; plant.loads.len()];
+    let mut counted = vec![vec![false; plant.loads.len()]; ops.len()];
     let stages = scheme
         .operating_order()
         .into_iter()
         .map(|i| {
             let stage = &scheme.stages[i];
+            // Nothing at a point where the setting group in force takes the stage out of service.
+            let serves: Vec<bool> = (0..ops.len())
+                .map(|k| stage.in_group(scheme.group_at(k)).is_some())
+                .collect();
             let mw: Vec<f64> = ops
                 .iter()
-                .map(|op| stage.sheds.iter().filter_map(|&l| op.load_mw.get(l)).sum())
+                .zip(&serves)
+                .map(|(op, &on)| {
+                    if on {
+                        stage.sheds.iter().filter_map(|&l| op.load_mw.get(l)).sum()
+                    } else {
+                        0.0
+                    }
+                })
                 .collect();
             for &l in &stage.sheds {
-                if let Some(seen) = counted.get_mut(l).filter(|seen| !**seen) {
-                    *seen = true;
-                    for (c, op) in cumulative.iter_mut().zip(ops) {
-                        *c += op.load_mw.get(l).copied().unwrap_or(0.0);
+                for (k, op) in ops.iter().enumerate() {
+                    if serves[k] && !counted[k][l] {
+                        counted[k][l] = true;
+                        cumulative[k] += op.load_mw.get(l).copied().unwrap_or(0.0);
                     }
                 }
             }

@@ -242,6 +242,15 @@ pub enum EventKind {
     StageTripCommand {
         stage: String,
     },
+    /// A stage sized from the pre-event flow took the flow through its breaker just before it
+    /// opened (MW into the side that lost it; negative when the plant exported or the machine
+    /// motored) and chose its loads (none when the flow less the allowance was not positive).
+    StageSized {
+        stage: String,
+        flow_mw: f64,
+        allowance_mw: f64,
+        loads: Vec<String>,
+    },
     LoadsOpened {
         stage: String,
         loads: Vec<String>,

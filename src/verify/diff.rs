@@ -161,6 +161,9 @@ mod tests {
 
     fn stage(id: &str, pickup_hz: f64, sheds: Vec<usize>) -> Stage {
         Stage {
+            sizing: crate::model::Sizing::All,
+            in_service: true,
+            groups: Vec::new(),
             id: id.into(),
             trigger: StageTrigger::Frequency {
                 pickup_hz,
@@ -176,6 +179,7 @@ mod tests {
     fn reports_each_kind_of_change() {
         let p = plant();
         let old = Scheme {
+            groups: Vec::new(),
             name: "old".into(),
             measurement: Measurement::default(),
             stages: vec![
@@ -187,6 +191,7 @@ mod tests {
         let mut kept = stage("uf-1", 49.1, vec![0, 2]);
         kept.delay_s = 0.3;
         let new = Scheme {
+            groups: Vec::new(),
             name: "new".into(),
             measurement: Measurement::default(),
             stages: vec![kept, stage("uf-3", 48.5, vec![1])],
@@ -213,6 +218,7 @@ mod tests {
     fn identical_tables_have_no_difference() {
         let p = plant();
         let s = Scheme {
+            groups: Vec::new(),
             name: "s".into(),
             measurement: Measurement::default(),
             stages: vec![stage("uf-1", 49.0, vec![0])],

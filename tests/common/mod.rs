@@ -99,6 +99,7 @@ pub fn case(start: Start, duration_s: f64, events: Vec<(f64, Action)>) -> Case {
 
 pub fn scheme(stages: Vec<Stage>, frequency_lag_s: f64) -> Scheme {
     Scheme {
+        groups: Vec::new(),
         name: "s".into(),
         measurement: Measurement {
             frequency_lag_s,

@@ -53,6 +53,9 @@ fn engine(ramp: f64) -> PrimeMover {
 
 fn uf(id: &str, pickup_hz: f64, delay_s: f64, sheds: Vec<usize>) -> Stage {
     Stage {
+        sizing: nadir::model::Sizing::All,
+        in_service: true,
+        groups: Vec::new(),
         id: id.into(),
         trigger: StageTrigger::Frequency {
             pickup_hz,
@@ -268,6 +271,9 @@ pub fn cases() -> Vec<CrossCase> {
     {
         let mut s = scheme_a(50.0);
         s.stages.push(Stage {
+            sizing: nadir::model::Sizing::All,
+            in_service: true,
+            groups: Vec::new(),
             id: "armed".into(),
             trigger: StageTrigger::Breaker(BreakerRef::Utility),
             delay_s: 0.2,
@@ -417,6 +423,9 @@ pub fn cases() -> Vec<CrossCase> {
     {
         let mut s = scheme_b();
         s.stages.push(Stage {
+            sizing: nadir::model::Sizing::All,
+            in_service: true,
+            groups: Vec::new(),
             id: "tie-armed".into(),
             trigger: StageTrigger::Breaker(BreakerRef::Tie(0)),
             delay_s: 0.1,

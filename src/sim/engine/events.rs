@@ -1,11 +1,15 @@
 //! Discrete changes of a run: the one `match` over [`Event`], breakers opening, a stage's loads
-//! opening, and voltage dips with the undervoltage drop-outs they start.
+//! opening (a stage sized from the pre-event flow chooses its loads as its breaker opens), and
+//! voltage dips with the undervoltage drop-outs they start.
 
 use super::{Dip, Engine};
-use crate::model::{Action, BreakerRef, OverAction};
-use crate::relay::stage::StageAction;
+use crate::dynamics::load;
+use crate::model::{Action, BreakerRef, Candidate, OverAction, Sizing, StageTrigger};
+use crate::relay::stage::{StageAction, StageState};
 use crate::sim::event::Event;
+use crate::sim::rhs::{machine_power_mw, speed_index, SegmentEquations};
 use crate::sim::{Cause, EventKind};
+use crate::topology::flow_before_opening;
 
 impl Engine<'_> {
     /// Every discrete change of a run passes through this match.
@@ -146,6 +150,8 @@ impl Engine<'_> {
     }
 
     pub(super) fn open_breaker(&mut self, br: BreakerRef, cause: Cause) {
+        // Flow-sized stages take the flow of the moment before the breaker opens.
+        let picks = self.flow_picks(br);
         match br {
             BreakerRef::Utility => {
                 if !self.breakers.utility_closed {
@@ -197,7 +203,21 @@ impl Engine<'_> {
                 self.stages[i].breaker_opened(self.t, br)
             {
                 let stage = self.scheme.stages[i].id.clone();
-                self.log(EventKind::StagePickup { stage });
+                self.log(EventKind::StagePickup {
+                    stage: stage.clone(),
+                });
+                if let Some((_, loads, flow_mw, allowance_mw)) = picks.iter().find(|p| p.0 == i) {
+                    self.log(EventKind::StageSized {
+                        stage,
+                        flow_mw: *flow_mw,
+                        allowance_mw: *allowance_mw,
+                        loads: loads
+                            .iter()
+                            .map(|&l| self.plant.loads[l].id.clone())
+                            .collect(),
+                    });
+                    self.picked[i] = Some(loads.clone());
+                }
                 self.queue.push(
                     expires_s,
                     Event::StageDelay {
@@ -209,10 +229,102 @@ impl Engine<'_> {
         }
     }
 
+    /// For each flow-sized stage armed by `br` and still idle: the loads it opens, the flow and
+    /// the allowance, from the state of this moment (the breaker still closed). The flow comes
+    /// from each section's net demand (loads at their present frequency and voltage, load steps,
+    /// less the machines' mechanical power, plus the power going into the stored energy of its
+    /// island), as [`flow_before_opening`] takes it; the allowance from the spinning reserve
+    /// (maximum less present mechanical power) of the running machines that stay in the island
+    /// that lost the flow.
+    fn flow_picks(&self, br: BreakerRef) -> Vec<(usize, Vec<usize>, f64, f64)> {
+        let sized: Vec<usize> = (0..self.scheme.stages.len())
+            .filter(|&i| {
+                let st = &self.scheme.stages[i];
+                st.trigger == StageTrigger::Breaker(br)
+                    && matches!(st.sizing, Sizing::Flow(_))
+                    && self.stages[i].state == StageState::Idle
+            })
+            .collect();
+        if sized.is_empty() {
+            return Vec::new();
+        }
+        let mut dy = vec![0.0; self.y.len()];
+        SegmentEquations::new(&self.eq, &self.cond).derivatives(&self.y, &mut dy);
+        let n_sec = self.eq.n_sections;
+        let mut net = self.cond.step_mw.clone();
+        net.resize(n_sec, 0.0);
+        for (l, ld) in self.eq.loads.iter().enumerate() {
+            if self.cond.load_on[l] {
+                let s = ld.section;
+                let dw = self.y[speed_index(s)];
+                net[s] += load::power_mw(ld.p0_mw, ld.freq_exp, dw, self.cond.v_sq[s]);
+                net[s] += 2.0 * ld.stored_mws * dy[speed_index(s)];
+            }
+        }
+        let mut pm = vec![0.0; self.eq.machines.len()];
+        let mut electrical = vec![0.0; self.eq.machines.len()];
+        for (g, m) in self.eq.machines.iter().enumerate() {
+            if !self.cond.machine_on[g] {
+                continue;
+            }
+            pm[g] = machine_power_mw(&self.eq, &self.cond, g, &self.y);
+            let into_store = 2.0 * m.stored_mws * dy[speed_index(m.section)];
+            electrical[g] = pm[g] - into_store;
+            net[m.section] -= electrical[g];
+        }
+        let Some(cut) = flow_before_opening(self.plant, &self.breakers, br, &net, &electrical)
+        else {
+            return Vec::new();
+        };
+        let reserve: f64 = self
+            .plant
+            .generators
+            .iter()
+            .enumerate()
+            .filter(|&(g, gen)| {
+                self.cond.machine_on[g]
+                    && br != BreakerRef::Generator(g)
+                    && cut.sections.binary_search(&gen.section).is_ok()
+            })
+            .map(|(g, gen)| (gen.max_mw - pm[g]).max(0.0))
+            .sum();
+        sized
+            .into_iter()
+            .map(|i| {
+                let st = &self.scheme.stages[i];
+                let candidates: Vec<Candidate> = st
+                    .sheds
+                    .iter()
+                    .filter(|&&l| {
+                        self.cond.load_on[l]
+                            && cut
+                                .sections
+                                .binary_search(&self.eq.loads[l].section)
+                                .is_ok()
+                    })
+                    .map(|&l| Candidate {
+                        load: l,
+                        mw: self.eq.loads[l].p0_mw,
+                    })
+                    .collect();
+                let allowance_mw = match st.sizing {
+                    Sizing::Flow(a) => a.mw(reserve),
+                    Sizing::All => 0.0,
+                };
+                let loads = st.flow_pick(self.plant, &candidates, cut.flow_mw, allowance_mw);
+                (i, loads, cut.flow_mw, allowance_mw)
+            })
+            .collect()
+    }
+
     pub(super) fn open_stage_loads(&mut self, stage: usize) {
         let mut ids = Vec::new();
         let mut mw = 0.0;
-        for &l in &self.scheme.stages[stage].sheds {
+        let listed = match &self.picked[stage] {
+            Some(loads) => loads.clone(),
+            None => self.scheme.stages[stage].sheds.clone(),
+        };
+        for &l in &listed {
             if !self.cond.load_on[l] {
                 continue;
             }

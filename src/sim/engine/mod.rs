@@ -37,6 +37,15 @@ use step::tight_step;
 const RECHECK_S: f64 = 0.25;
 
 pub fn run(plant: &Plant, case: &Case, op: usize, scheme: &Scheme, cfg: &SimConfig) -> Run {
+    // The relays hold the settings of the group in force at this point; stages out of service
+    // there are left out.
+    let held;
+    let scheme = if scheme.groups.is_empty() && scheme.stages.iter().all(|s| s.in_service) {
+        scheme
+    } else {
+        held = scheme.at_point(op);
+        &held
+    };
     let mut e = Engine::new(plant, case, op, scheme, cfg);
     e.execute();
     e.finish()
@@ -73,6 +82,8 @@ struct Engine<'a> {
     records: Vec<IslandRecord>,
     frozen: Vec<bool>,
     stages: Vec<StageRelay>,
+    /// By stage: the loads a flow-sized stage chose when its breaker opened.
+    picked: Vec<Option<Vec<usize>>>,
     gen_elems: Vec<Vec<Element>>,
     iface: Vec<Element>,
     queue: Queue,
@@ -209,6 +220,7 @@ impl<'a> Engine<'a> {
             island_record: vec![],
             records: vec![],
             frozen: vec![false; n_sec],
+            picked: vec![None; scheme.stages.len()],
             stages,
             gen_elems,
             iface,

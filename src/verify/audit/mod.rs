@@ -9,7 +9,10 @@
 
 pub mod rank;
 
-use crate::model::{BreakerRef, CaseSet, FrequencyTrip, OverAction, Plant, Scheme, StageTrigger};
+use crate::model::{
+    Allowance, BreakerRef, CaseSet, FrequencyTrip, OverAction, Plant, Scheme, Sizing, Stage,
+    StageTrigger,
+};
 use serde::Serialize;
 
 /// The rules a table is held to. Defaults are common practice, no source; the plant sets its own.
@@ -81,7 +84,8 @@ pub struct Finding {
     /// A short stable name. Violations: `rank-order`, `unassigned-lower-rank`, `never-shed`,
     /// `spacing`, `above-normal-band`, `over-frequency-above-max`, `over-frequency-after-protection`.
     /// Notes: `empty-at-point`, `several-stages`, `measured-elsewhere`, `df/dt-supervised`,
-    /// `over-frequency`.
+    /// `flow-sized` (what a stage sized from the pre-event flow opens), `never-armed` (an armed
+    /// stage no case exercises), `over-frequency` (what an over-frequency stage does).
     pub rule: &'static str,
     /// The finding in words, naming stages, loads, events and values.
     pub message: String,
@@ -119,12 +123,19 @@ pub fn audit_cases(
     let order_idx = scheme.operating_order();
     let n_ops = plant.operating_points.len();
     let mut cumulative = vec![0.0; n_ops];
-    let mut counted = vec![false; plant.loads.len()];
+    // Whether each load (by point) is counted already.
+    let mut counted = vec![vec![false; plant.loads.len()]; n_ops];
     let mut order = Vec::new();
     for &si in &order_idx {
         let stage = &scheme.stages[si];
+        let serves: Vec<bool> = (0..n_ops)
+            .map(|op| stage.in_group(scheme.group_at(op)).is_some())
+            .collect();
         let mw: Vec<f64> = (0..n_ops)
             .map(|op| {
+                if !serves[op] {
+                    return 0.0;
+                }
                 stage
                     .sheds
                     .iter()
@@ -133,8 +144,9 @@ pub fn audit_cases(
             })
             .collect();
         for &l in &stage.sheds {
-            if !std::mem::replace(&mut counted[l], true) {
-                for (op, c) in cumulative.iter_mut().enumerate() {
+            for (op, c) in cumulative.iter_mut().enumerate() {
+                if serves[op] && !counted[op][l] {
+                    counted[op][l] = true;
                     *c += plant.operating_points[op].load_mw[l];
                 }
             }
@@ -142,7 +154,7 @@ pub fn audit_cases(
         order.push(OrderedStage {
             stage: si,
             id: stage.id.clone(),
-            trigger: describe_trigger(plant, &stage.trigger),
+            trigger: describe_stage(plant, scheme, stage),
             delay_s: stage.delay_s,
             breaker_s: stage.breaker_s,
             loads: stage
@@ -154,14 +166,46 @@ pub fn audit_cases(
             cumulative_mw: cumulative.clone(),
         });
     }
-    let (mut violations, elsewhere, judged_in) = rank::rank_order(plant, scheme, cases);
-    never_shed(plant, scheme, &mut violations);
-    spacing(scheme, &order_idx, rules, &mut violations);
-    normal_band(scheme, rules, &mut violations);
+    let mut violations = Vec::new();
     let mut notes = Vec::new();
+    let mut judged_in = String::new();
+    // Each setting group judged with its own settings at its own points; without groups, the
+    // one table at every point.
+    for (group, points) in scheme.points_by_group(n_ops) {
+        if points.is_empty() {
+            continue;
+        }
+        let held = scheme.at_point(points[0]);
+        let (mut found, mut noted, basis) = rank::rank_order(plant, &held, cases, &points);
+        let mut own = Vec::new();
+        spacing(&held, &held.operating_order(), rules, &mut own);
+        normal_band(&held, rules, &mut own);
+        found.extend(own);
+        if !scheme.groups.is_empty() {
+            let names: Vec<&str> = points
+                .iter()
+                .map(|&op| plant.operating_points[op].id.as_str())
+                .collect();
+            let label = match group {
+                Some(g) => format!(
+                    "setting group {} ({})",
+                    scheme.groups[g].id,
+                    names.join(", ")
+                ),
+                None => format!("the stages' own settings ({})", names.join(", ")),
+            };
+            for f in found.iter_mut().chain(noted.iter_mut()) {
+                f.message = format!("in {label}: {}", f.message);
+            }
+        }
+        violations.extend(found);
+        notes.extend(noted);
+        judged_in = basis;
+    }
+    never_shed(plant, scheme, &mut violations);
     several_stages(plant, scheme, &order_idx, &mut notes);
     empty_at_points(plant, scheme, &order_idx, &mut notes);
-    notes.extend(elsewhere);
+    unarmed(plant, scheme, cases, &order_idx, &mut notes);
     over_frequency(plant, scheme, &mut violations, &mut notes);
     Audit {
         operating_points: plant
@@ -199,6 +243,53 @@ pub fn describe_trigger(plant: &Plant, trigger: &StageTrigger) -> String {
     }
 }
 
+/// A stage's trigger, sizing and setting groups in words: "49.00 Hz", "utility opens, sized to
+/// the import less 2.00 MW", "49.00 Hz; in group island (island-a): 49.20 Hz, 0.10 s; in group
+/// tied (normal): out of service".
+pub fn describe_stage(plant: &Plant, scheme: &Scheme, stage: &Stage) -> String {
+    let mut out = describe_trigger(plant, &stage.trigger) + &describe_sizing(stage.sizing);
+    if !stage.in_service {
+        out.push_str(", out of service");
+    }
+    for g in &stage.groups {
+        let Some(group) = scheme.groups.get(g.group) else {
+            continue;
+        };
+        let points: Vec<&str> = group
+            .operating_points
+            .iter()
+            .filter_map(|&op| plant.operating_points.get(op).map(|o| o.id.as_str()))
+            .collect();
+        let settings = if g.in_service {
+            format!(
+                "{}{}, {:.2} s",
+                describe_trigger(plant, &g.trigger),
+                describe_sizing(g.sizing),
+                g.delay_s
+            )
+        } else {
+            "out of service".to_string()
+        };
+        out.push_str(&format!(
+            "; in group {} ({}): {settings}",
+            group.id,
+            points.join(", ")
+        ));
+    }
+    out
+}
+
+/// ", sized to the flow less 2.00 MW" for a flow-sized stage, nothing otherwise.
+fn describe_sizing(sizing: Sizing) -> String {
+    match sizing {
+        Sizing::All => String::new(),
+        Sizing::Flow(Allowance::Mw(mw)) => format!(", sized to the flow less {mw:.2} MW"),
+        Sizing::Flow(Allowance::ReservePct(pct)) => {
+            format!(", sized to the flow less {pct:.1} % of spinning reserve")
+        }
+    }
+}
+
 /// The id of a breaker as the files name it.
 pub fn breaker_name(plant: &Plant, breaker: BreakerRef) -> String {
     match breaker {
@@ -209,6 +300,40 @@ pub fn breaker_name(plant: &Plant, breaker: BreakerRef) -> String {
             .unwrap_or_else(|| "utility".into()),
         BreakerRef::Tie(t) => plant.ties[t].id.clone(),
         BreakerRef::Generator(g) => plant.generators[g].id.clone(),
+    }
+}
+
+/// A breaker-armed stage whose breaker no case opens is never exercised by `nadir verify`.
+fn unarmed(
+    plant: &Plant,
+    scheme: &Scheme,
+    cases: Option<&CaseSet>,
+    order: &[usize],
+    out: &mut Vec<Finding>,
+) {
+    let Some(set) = cases else {
+        return;
+    };
+    for &i in order {
+        let StageTrigger::Breaker(b) = scheme.stages[i].trigger else {
+            continue;
+        };
+        let opened = set.cases.iter().any(|c| {
+            c.events
+                .iter()
+                .any(|e| e.action == crate::model::Action::Open(b))
+        });
+        if !opened {
+            out.push(Finding {
+                rule: "never-armed",
+                message: format!(
+                    "stage {} is armed by {}, which no case opens: no run exercises it; add a case that opens {}",
+                    scheme.stages[i].id,
+                    breaker_name(plant, b),
+                    breaker_name(plant, b)
+                ),
+            });
+        }
     }
 }
 
@@ -419,6 +544,9 @@ mod tests {
 
     fn stage(id: &str, pickup_hz: f64, delay_s: f64, sheds: Vec<usize>) -> Stage {
         Stage {
+            sizing: crate::model::Sizing::All,
+            in_service: true,
+            groups: Vec::new(),
             id: id.into(),
             trigger: StageTrigger::Frequency {
                 pickup_hz,
@@ -432,6 +560,7 @@ mod tests {
 
     fn scheme(stages: Vec<Stage>) -> Scheme {
         Scheme {
+            groups: Vec::new(),
             name: "t".into(),
             measurement: Measurement::default(),
             stages,

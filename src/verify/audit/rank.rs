@@ -14,6 +14,11 @@
 //! What "can operate" means here, without simulating:
 //! - an armed stage operates when its breaker opens in this event and was closed before it (a
 //!   breaker already open, or a generator not running, arms nothing, as in the simulator);
+//! - a stage sized from the pre-event flow opens the loads [`crate::model::Stage::flow_pick`]
+//!   chooses for the flow [`crate::topology::flow_before_opening`] finds from the operating
+//!   point's dispatch and demand (with the load steps and machine trips of earlier events of the
+//!   case, each taken up by the utility or left as a deficit; no governor response): nothing
+//!   when the plant exported; the simulator uses the flow of the moment instead;
 //! - a frequency stage can operate in an island without the utility; in an island held by the
 //!   utility only when the case's utility frequency falls below its pickup (a grid-wide event);
 //! - loads opened by armed stages at an earlier event of the same case are already open;
@@ -26,8 +31,10 @@
 //! generator) is taken as opening alone, from the plant connected to the utility.
 
 use super::Finding;
-use crate::model::{Action, BreakerRef, Case, CaseSet, Plant, Scheme, StageTrigger, Start};
-use crate::topology::{islands, BreakerState, Island};
+use crate::model::{
+    Action, BreakerRef, Candidate, Case, CaseSet, Plant, Scheme, Sizing, StageTrigger, Start,
+};
+use crate::topology::{flow_before_opening, islands, BreakerState, Island};
 use std::cmp::Reverse;
 use std::collections::{BTreeSet, BinaryHeap};
 
@@ -42,10 +49,106 @@ struct Event {
     islands: Vec<Island>,
     /// Stages armed by a breaker this event opens.
     armed: Vec<usize>,
+    /// What each flow-sized stage among `armed` opens, with the flow and allowance that sized it.
+    picked: Vec<Pick>,
     /// Loads opened by armed stages at an earlier event of the same case.
     already_open: Vec<bool>,
     /// The case's lowest utility frequency, when it falls below nominal.
     grid_low_hz: Option<f64>,
+}
+
+/// What a flow-sized stage opens at one event.
+#[derive(Debug, Clone)]
+struct Pick {
+    stage: usize,
+    loads: Vec<usize>,
+    flow_mw: f64,
+    allowance_mw: f64,
+}
+
+/// The loads a stage opens at an event: for a flow-sized stage its pick, else every load listed.
+fn opens<'a>(scheme: &'a Scheme, event: &'a Event, stage: usize) -> &'a [usize] {
+    match event.picked.iter().find(|p| p.stage == stage) {
+        Some(p) => &p.loads,
+        None => &scheme.stages[stage].sheds,
+    }
+}
+
+/// The picks of the flow-sized stages armed by `breaker`, which opens at breaker state `before`
+/// with `running` machines, load `steps` (MW by section) and loads `already_open`: the flow from
+/// the operating point's dispatch and demand.
+#[allow(clippy::too_many_arguments)]
+fn flow_picks(
+    plant: &Plant,
+    scheme: &Scheme,
+    op: usize,
+    before: &BreakerState,
+    running: &[bool],
+    steps: &[f64],
+    already_open: &[bool],
+    breaker: BreakerRef,
+) -> Vec<Pick> {
+    let point = &plant.operating_points[op];
+    let sized: Vec<usize> = armed_by(scheme, breaker)
+        .filter(|&i| matches!(scheme.stages[i].sizing, Sizing::Flow(_)))
+        .collect();
+    if sized.is_empty() {
+        return Vec::new();
+    }
+    let load_on = |l: usize| point.load_mw[l] > 0.0 && !already_open[l];
+    let mut net = steps.to_vec();
+    for (l, load) in plant.loads.iter().enumerate() {
+        if load_on(l) {
+            net[load.section] += point.load_mw[l];
+        }
+    }
+    let gen_mw: Vec<f64> = (0..plant.generators.len())
+        .map(|g| if running[g] { point.output_mw[g] } else { 0.0 })
+        .collect();
+    for (g, gen) in plant.generators.iter().enumerate() {
+        net[gen.section] -= gen_mw[g];
+    }
+    let Some(cut) = flow_before_opening(plant, before, breaker, &net, &gen_mw) else {
+        return Vec::new();
+    };
+    let reserve: f64 = plant
+        .generators
+        .iter()
+        .enumerate()
+        .filter(|&(g, gen)| {
+            running[g]
+                && breaker != BreakerRef::Generator(g)
+                && cut.sections.binary_search(&gen.section).is_ok()
+        })
+        .map(|(g, gen)| (gen.max_mw - gen_mw[g]).max(0.0))
+        .sum();
+    sized
+        .into_iter()
+        .map(|i| {
+            let stage = &scheme.stages[i];
+            let candidates: Vec<Candidate> = stage
+                .sheds
+                .iter()
+                .filter(|&&l| {
+                    load_on(l) && cut.sections.binary_search(&plant.loads[l].section).is_ok()
+                })
+                .map(|&l| Candidate {
+                    load: l,
+                    mw: point.load_mw[l],
+                })
+                .collect();
+            let allowance_mw = match stage.sizing {
+                Sizing::Flow(a) => a.mw(reserve),
+                Sizing::All => 0.0,
+            };
+            Pick {
+                stage: i,
+                loads: stage.flow_pick(plant, &candidates, cut.flow_mw, allowance_mw),
+                flow_mw: cut.flow_mw,
+                allowance_mw,
+            }
+        })
+        .collect()
 }
 
 /// Calls `visit` with each event judged: from the cases, or each breaker opening alone. Returns
@@ -54,12 +157,13 @@ fn for_each_event(
     plant: &Plant,
     scheme: &Scheme,
     cases: Option<&CaseSet>,
+    points: &[usize],
     visit: &mut dyn FnMut(&Event),
 ) -> String {
     match cases {
         Some(set) => {
             for case in &set.cases {
-                for &op in &case.applies_to {
+                for &op in case.applies_to.iter().filter(|op| points.contains(op)) {
                     case_events(plant, scheme, case, op, visit);
                 }
             }
@@ -69,7 +173,7 @@ fn for_each_event(
             )
         }
         None => {
-            alone_events(plant, scheme, visit);
+            alone_events(plant, scheme, points, visit);
             "each breaker opening alone (no cases given; give the cases file to judge the studied events)"
                 .to_string()
         }
@@ -102,16 +206,28 @@ fn case_events(
     let mut state = BreakerState::initial(plant, op, case.start == Start::Connected);
     let mut running = plant.operating_points[op].online.clone();
     let mut already_open = vec![false; plant.loads.len()];
+    let mut steps = vec![0.0; plant.sections.len()];
     let mut k = 0;
     while k < case.events.len() {
         let at_s = case.events[k].at_s;
         let mut what = Vec::new();
         let mut armed = Vec::new();
+        let mut picked = Vec::new();
         while k < case.events.len() && case.events[k].at_s == at_s {
             let action = &case.events[k].action;
             k += 1;
             match *action {
                 Action::Open(b) => {
+                    let picks = flow_picks(
+                        plant,
+                        scheme,
+                        op,
+                        &state,
+                        &running,
+                        &steps,
+                        &already_open,
+                        b,
+                    );
                     let was_closed = match b {
                         BreakerRef::Utility => std::mem::replace(&mut state.utility_closed, false),
                         BreakerRef::Tie(t) => state
@@ -129,9 +245,11 @@ fn case_events(
                     });
                     if was_closed {
                         armed.extend(armed_by(scheme, b));
+                        picked.extend(picks);
                     }
                 }
-                Action::LoadStep { section, .. } => {
+                Action::LoadStep { section, mw } => {
+                    steps[section] += mw;
                     what.push(format!("load step on {}", plant.sections[section].id))
                 }
                 Action::VoltageDip { section, .. } => {
@@ -146,11 +264,16 @@ fn case_events(
             op,
             islands: islands(plant, &state),
             armed: armed.clone(),
+            picked: picked.clone(),
             already_open: already_open.clone(),
             grid_low_hz,
         });
         for &s in &armed {
-            for &l in &scheme.stages[s].sheds {
+            let opened = match picked.iter().find(|p| p.stage == s) {
+                Some(p) => &p.loads,
+                None => &scheme.stages[s].sheds,
+            };
+            for &l in opened {
                 already_open[l] = true;
             }
         }
@@ -163,6 +286,7 @@ fn case_events(
                 op,
                 islands: islands(plant, &state),
                 armed: vec![],
+                picked: vec![],
                 already_open,
                 grid_low_hz,
             });
@@ -170,8 +294,8 @@ fn case_events(
     }
 }
 
-fn alone_events(plant: &Plant, scheme: &Scheme, out: &mut dyn FnMut(&Event)) {
-    for op in 0..plant.operating_points.len() {
+fn alone_events(plant: &Plant, scheme: &Scheme, points: &[usize], out: &mut dyn FnMut(&Event)) {
+    for &op in points {
         let start = BreakerState::initial(plant, op, true);
         let mut breakers = Vec::new();
         if start.utility_closed {
@@ -195,11 +319,18 @@ fn alone_events(plant: &Plant, scheme: &Scheme, out: &mut dyn FnMut(&Event)) {
                 op,
                 islands: islands(plant, &start),
                 armed: vec![],
+                picked: vec![],
                 already_open: vec![false; plant.loads.len()],
                 grid_low_hz: None,
             });
         }
+        let running = plant.operating_points[op].online.clone();
+        let no_steps = vec![0.0; plant.sections.len()];
+        let none_open = vec![false; plant.loads.len()];
         for b in breakers {
+            let picked = flow_picks(
+                plant, scheme, op, &start, &running, &no_steps, &none_open, b,
+            );
             let mut state = start.clone();
             match b {
                 BreakerRef::Utility => state.utility_closed = false,
@@ -215,6 +346,7 @@ fn alone_events(plant: &Plant, scheme: &Scheme, out: &mut dyn FnMut(&Event)) {
                 op,
                 islands: islands(plant, &state),
                 armed: armed_by(scheme, b).collect(),
+                picked,
                 already_open: vec![false; plant.loads.len()],
                 grid_low_hz: None,
             });
@@ -297,12 +429,20 @@ const LOADS_SHOWN: usize = 12;
 ///
 /// Cost: for each event, O(sections + loads + islands × stages + loads listed in stages ×
 /// [`LOADS_SHOWN`]); memory does not grow with the number of events.
+///
+/// Only events at the operating points in `points` are judged (the points of one setting group,
+/// whose settings `scheme` holds). The notes include, for each flow-sized stage, what it opens at
+/// the first few events and points that arm it, sized from which flow.
 pub fn rank_order(
     plant: &Plant,
     scheme: &Scheme,
     cases: Option<&CaseSet>,
+    points: &[usize],
 ) -> (Vec<Finding>, Vec<Finding>, String) {
     let n_loads = plant.loads.len();
+    // By stage: what a flow-sized stage opens, in words, at the first PLACES_SHOWN events, and
+    // how many more.
+    let mut sized: Vec<(Vec<String>, usize)> = vec![(Vec::new(), 0); scheme.stages.len()];
     let in_a_stage: Vec<bool> = (0..n_loads)
         .map(|l| scheme.stages.iter().any(|s| s.sheds.contains(&l)))
         .collect();
@@ -335,8 +475,16 @@ pub fn rank_order(
         vec![None; scheme.stages.len()];
     let mut on = vec![false; n_loads];
     let mut slot = vec![0; n_loads];
-    let basis = for_each_event(plant, scheme, cases, &mut |event: &Event| {
+    let basis = for_each_event(plant, scheme, cases, points, &mut |event: &Event| {
         let load_mw = &plant.operating_points[event.op].load_mw;
+        for pick in &event.picked {
+            let (said, more) = &mut sized[pick.stage];
+            if said.len() < PLACES_SHOWN {
+                said.push(pick_words(plant, event, pick));
+            } else {
+                *more += 1;
+            }
+        }
         // Findings this event adds to: its place is recorded once for each.
         let mut touched: Vec<usize> = Vec::new();
         // Sheddable loads still connected, lowest rank first, bucketed by island in one pass.
@@ -407,7 +555,7 @@ pub fn rank_order(
             for group in walk_order(scheme, &order, &measures, event, island) {
                 let opened: Vec<(usize, usize)> = group
                     .iter()
-                    .flat_map(|&s| scheme.stages[s].sheds.iter().map(move |&l| (s, l)))
+                    .flat_map(|&s| opens(scheme, event, s).iter().map(move |&l| (s, l)))
                     .filter(|&(_, l)| on[l])
                     .collect();
                 let supervised = matches!(
@@ -611,6 +759,60 @@ pub fn rank_order(
             }
         })
         .chain(supervised_notes)
+        .chain(order.iter().filter(|&&i| !sized[i].0.is_empty()).map(|&i| {
+            let (said, more) = &sized[i];
+            let more = if *more > 0 {
+                format!("; and at {more} more (event, operating point) pair(s)")
+            } else {
+                String::new()
+            };
+            Finding {
+                rule: "flow-sized",
+                message: format!(
+                    "stage {} is sized from the flow through {} just before it opens: {}{more}",
+                    scheme.stages[i].id,
+                    match scheme.stages[i].trigger {
+                        StageTrigger::Breaker(b) => super::breaker_name(plant, b),
+                        StageTrigger::Frequency { .. } => String::new(),
+                    },
+                    said.join("; ")
+                ),
+            }
+        }))
         .collect();
     (findings, notes, basis)
+}
+
+/// What a flow-sized stage opens at one event, in words: "at case X, utility opens at 1.00 s,
+/// at normal: 8.00 MW flowed in, less 0 MW allowance; opens a, b (9.00 MW)".
+fn pick_words(plant: &Plant, event: &Event, pick: &Pick) -> String {
+    let point = &plant.operating_points[event.op];
+    let opened: f64 = pick.loads.iter().map(|&l| point.load_mw[l]).sum();
+    let flow = if pick.flow_mw > 0.0 {
+        format!("{:.2} MW flowed in", pick.flow_mw)
+    } else {
+        "no flow in (it went the other way)".to_string()
+    };
+    let what = if pick.loads.is_empty() {
+        "opens nothing".to_string()
+    } else {
+        let names: Vec<&str> = pick
+            .loads
+            .iter()
+            .map(|&l| plant.loads[l].id.as_str())
+            .collect();
+        let short = if pick.flow_mw - pick.allowance_mw > opened + 1e-9 {
+            format!(
+                ", short of the {:.2} MW needed: its loads there are all it has",
+                pick.flow_mw - pick.allowance_mw
+            )
+        } else {
+            String::new()
+        };
+        format!("opens {} ({opened:.2} MW){short}", names.join(", "))
+    };
+    format!(
+        "{}, at {}: {flow}, less {:.2} MW allowance; {what}",
+        event.label, point.id, pick.allowance_mw
+    )
 }
