@@ -355,3 +355,66 @@ fn bad_over_frequency_stages_are_refused_with_field_and_fix() {
         );
     }
 }
+
+#[test]
+fn design_from_a_table_with_over_frequency_stages_is_refused() {
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
+    let out = std::env::temp_dir().join(format!("nadir-of-design-{}.yaml", std::process::id()));
+    let r = std::process::Command::new(env!("CARGO_BIN_EXE_nadir"))
+        .current_dir(root)
+        .args([
+            "design",
+            "examples/canemill/plant.yaml",
+            "--cases",
+            "examples/canemill/cases.yaml",
+            "--from",
+            "schemes/canemill.yaml",
+            "-o",
+        ])
+        .arg(&out)
+        .output()
+        .unwrap();
+    assert_eq!(r.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&r.stderr);
+    assert!(
+        err.contains(
+            "design --from does not start from a table with over-frequency stages (of-1, of-2)"
+        ),
+        "{err}"
+    );
+    assert!(!out.exists());
+}
+
+#[test]
+fn the_demo_exporting_separation_sheds_nothing_and_its_cascade_is_named_without_the_stages() {
+    // Behaviour on the demo: with its over-frequency stages the exporting grid loss runs tg-1
+    // back and sheds no load; without them, tg-3's own relay trips it and verify says so.
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
+    let plant = nadir::input::load_plant(&root.join("examples/canemill/plant.yaml")).unwrap();
+    let cases =
+        nadir::input::load_cases(&root.join("examples/canemill/cases.yaml"), &plant).unwrap();
+    let scheme = nadir::input::load_scheme(&root.join("schemes/canemill.yaml"), &plant).unwrap();
+    let cfg = VerifyConfig {
+        margins: false,
+        ..VerifyConfig::default()
+    };
+    let m = verify(&plant, &cases, &scheme, &cfg, &|| {});
+    let row = m
+        .rows
+        .iter()
+        .find(|r| r.case == "grid-loss" && r.operating_point == "crushing")
+        .unwrap();
+    assert_eq!(row.shed_mw, 0.0);
+    assert_eq!(row.stages_operated, vec!["of-1".to_string()]);
+    assert!(row.cascades.is_empty());
+    let mut bare = scheme.clone();
+    bare.over_frequency.clear();
+    let m = verify(&plant, &cases, &bare, &cfg, &|| {});
+    let row = m
+        .rows
+        .iter()
+        .find(|r| r.case == "grid-loss" && r.operating_point == "crushing")
+        .unwrap();
+    assert_eq!(row.cascades, vec!["tg-3".to_string()]);
+    assert!(row.cascade_causes[0].starts_with("tg-3 by over-frequency 61.25 Hz / 0.3 s at "));
+}
