@@ -13,6 +13,7 @@ pub mod check;
 pub mod compare;
 pub mod design;
 pub mod load;
+pub mod loads;
 pub mod replay;
 pub mod report;
 pub mod schema;
@@ -61,6 +62,9 @@ pub enum Command {
     /// Write the relay setting sheet: one row per element a technician sets (CSV, HTML or
     /// Markdown).
     Sheet(sheet::SheetArgs),
+    /// The plant's loads to and from a CSV load list: `loads import PLANT LIST.csv` writes the
+    /// plant file with the list's loads, `loads export PLANT` writes the list.
+    Loads(loads::LoadsArgs),
 }
 
 /// How a verb that ran to the end came out.
@@ -87,6 +91,7 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
         Command::Report(args) => report::run(args),
         Command::Design(args) => design::run(args),
         Command::Sheet(args) => sheet::run(args),
+        Command::Loads(args) => loads::run(args),
     }?;
     if !says_it_itself {
         if let Some(caveat) = load::verdict_caveat() {

@@ -6,6 +6,7 @@
 
 pub mod defaults;
 pub mod limits;
+pub mod load_list;
 mod locate;
 pub mod raw;
 mod read;

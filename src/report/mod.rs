@@ -13,6 +13,7 @@ pub const NO_FIGURE: &str = "—";
 
 pub mod figures;
 pub mod html;
+pub mod load_list;
 pub mod output;
 pub mod plot;
 pub mod png;

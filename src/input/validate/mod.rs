@@ -168,7 +168,7 @@ fn num(r: &mut Reader, path: &FieldPath, v: f64, lo: Lo, hi: Hi, unit: &str) -> 
 }
 
 /// MW (or any figure) as a message shows it: at most three decimals, no trailing zeros.
-fn mw(v: f64) -> String {
+pub(in crate::input) fn mw(v: f64) -> String {
     if v.abs() >= 1e9 {
         // A slip of many orders of magnitude: keep the message short.
         return format!("{v:e}");
