@@ -92,8 +92,8 @@ pub enum Sizing {
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Allowance {
     Mw(f64),
-    /// Percent of the spinning reserve (maximum less output of the running machines) of the
-    /// island that lost the flow, just before the breaker opened.
+    /// Percent of the spinning reserve (the highest output each running machine can reach less its
+    /// output) of the island that lost the flow, just before the breaker opened.
     ReservePct(f64),
 }
 

@@ -436,7 +436,7 @@ nominal frequency {} Hz; {} utility connection.</p>\n",
 
 fn shedding_table(h: &mut String, r: &ReportInputs) {
     let a = r.audit;
-    h.push_str("<section id=\"table\">\n<h2>Shedding table, in operating order</h2>\n<p class=\"note\">Armed stages first, then frequency stages by falling pickup. Each cell: MW the stage opens at that operating point, and in brackets the cumulative MW, each load counted once however many stages list it.</p>\n<table class=\"wide\">\n<thead><tr><th>stage</th><th>trigger</th><th>delay s</th><th>breaker s</th><th>loads (rank)</th>");
+    h.push_str("<section id=\"table\">\n<h2>Shedding table, in operating order</h2>\n<p class=\"note\">Armed stages first, then frequency stages by falling pickup. Each cell: MW the stage opens at that operating point, and in brackets the cumulative MW, each load counted once however many stages list it. A stage sized from the pre-event flow shows the most it can open (it opens the rank-order part of its loads that covers the flow; the audit's flow-sized note says what, in each case); a stage with setting groups lists each group's settings, and shows 0 MW where a group takes it out of service.</p>\n<table class=\"wide\">\n<thead><tr><th>stage</th><th>trigger</th><th>delay s</th><th>breaker s</th><th>loads (rank)</th>");
     for op in &a.operating_points {
         let _ = write!(h, "<th>{} MW (cum.)</th>", esc(op));
     }

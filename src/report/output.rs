@@ -11,7 +11,7 @@
 
 use super::figures::criteria_words;
 use crate::input::Warning;
-use crate::model::{Criteria, Plant, Scheme, StageTrigger};
+use crate::model::{Allowance, Criteria, Plant, Scheme, Sizing, StageTrigger};
 use crate::verify::audit::breaker_name;
 use crate::verify::compare::{Change, Comparison};
 use crate::verify::margins::Margin;
@@ -244,8 +244,33 @@ pub struct StageOut {
     pub armed_by: Option<String>,
     pub delay_s: f64,
     pub breaker_s: f64,
-    /// Load ids the stage opens.
+    /// Load ids the stage opens; for a stage sized from the pre-event flow, the loads it may open.
     pub loads: Vec<String>,
+    /// An armed stage that opens, in rank order, the fewest of its loads covering the flow
+    /// through its breaker just before it opened, less its allowance.
+    pub sized_from_flow: bool,
+    /// Allowance of a flow-sized stage, MW (null otherwise, or when given as a percentage).
+    pub allowance_mw: Option<f64>,
+    /// Allowance of a flow-sized stage, percent of spinning reserve (null otherwise).
+    pub allowance_reserve_pct: Option<f64>,
+    /// In service at the operating points in no setting group.
+    pub in_service: bool,
+    /// The stage's settings in each setting group that changes them.
+    pub groups: Vec<GroupSettingsOut>,
+}
+
+/// A stage's settings in one setting group.
+#[derive(Debug, Clone, Serialize, JsonSchema)]
+pub struct GroupSettingsOut {
+    pub group: String,
+    /// The operating points at which the group is in force.
+    pub operating_points: Vec<String>,
+    pub in_service: bool,
+    pub pickup_hz: Option<f64>,
+    pub min_rocof_hz_per_s: Option<f64>,
+    pub delay_s: f64,
+    pub allowance_mw: Option<f64>,
+    pub allowance_reserve_pct: Option<f64>,
 }
 
 /// One line of the settings difference.
@@ -365,6 +390,15 @@ fn criteria_out(c: &Criteria) -> CriteriaOut {
     }
 }
 
+/// A flow-sized stage's allowance as (MW, percent of reserve), one of them set.
+fn allowance_out(sizing: Sizing) -> (Option<f64>, Option<f64>) {
+    match sizing {
+        Sizing::All => (None, None),
+        Sizing::Flow(Allowance::Mw(mw)) => (Some(mw), None),
+        Sizing::Flow(Allowance::ReservePct(pct)) => (None, Some(pct)),
+    }
+}
+
 fn scheme_out(plant: &Plant, s: &Scheme) -> SchemeOut {
     SchemeOut {
         name: s.name.clone(),
@@ -381,6 +415,7 @@ fn scheme_out(plant: &Plant, s: &Scheme) -> SchemeOut {
                     } => (Some(*pickup_hz), *min_rocof_hz_per_s, None),
                     StageTrigger::Breaker(b) => (None, None, Some(breaker_name(plant, *b))),
                 };
+                let (allowance_mw, allowance_reserve_pct) = allowance_out(st.sizing);
                 StageOut {
                     id: st.id.clone(),
                     pickup_hz,
@@ -392,6 +427,41 @@ fn scheme_out(plant: &Plant, s: &Scheme) -> SchemeOut {
                         .sheds
                         .iter()
                         .map(|&l| plant.loads[l].id.clone())
+                        .collect(),
+                    sized_from_flow: matches!(st.sizing, Sizing::Flow(_)),
+                    allowance_mw,
+                    allowance_reserve_pct,
+                    in_service: st.in_service,
+                    groups: st
+                        .groups
+                        .iter()
+                        .filter_map(|g| {
+                            let group = s.groups.get(g.group)?;
+                            let (pickup_hz, min_rocof_hz_per_s) = match g.trigger {
+                                StageTrigger::Frequency {
+                                    pickup_hz,
+                                    min_rocof_hz_per_s,
+                                } => (Some(pickup_hz), min_rocof_hz_per_s),
+                                StageTrigger::Breaker(_) => (None, None),
+                            };
+                            let (allowance_mw, allowance_reserve_pct) = allowance_out(g.sizing);
+                            Some(GroupSettingsOut {
+                                group: group.id.clone(),
+                                operating_points: group
+                                    .operating_points
+                                    .iter()
+                                    .filter_map(|&op| {
+                                        plant.operating_points.get(op).map(|o| o.id.clone())
+                                    })
+                                    .collect(),
+                                in_service: g.in_service,
+                                pickup_hz,
+                                min_rocof_hz_per_s,
+                                delay_s: g.delay_s,
+                                allowance_mw,
+                                allowance_reserve_pct,
+                            })
+                        })
                         .collect(),
                 }
             })

@@ -1,5 +1,6 @@
 //! The settings difference between two shedding tables for one plant: stages added and removed, and
-//! for each stage kept (matched by id) its changed trigger, delay, breaker time and loads.
+//! for each stage kept (matched by id) its changed trigger, delay, breaker time, loads, and its
+//! sizing, service and setting groups.
 
 use crate::model::{Plant, Scheme, Stage, StageTrigger};
 use serde::Serialize;
@@ -8,7 +9,8 @@ use serde::Serialize;
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct SettingChange {
     pub stage: String,
-    /// `measurement`, `added`, `removed`, `trigger`, `delay_s`, `breaker_s`, `loads`.
+    /// `measurement`, `added`, `removed`, `trigger`, `delay_s`, `breaker_s`, `loads`,
+    /// `sizing and groups`.
     pub what: &'static str,
     pub old: String,
     pub new: String,
@@ -39,7 +41,22 @@ pub fn diff(plant: &Plant, old: &Scheme, new: &Scheme) -> Vec<SettingChange> {
                 old: String::new(),
                 new: summary(plant, stage),
             }),
-            Some(before) => compare_stage(plant, before, stage, &mut out),
+            Some(before) => {
+                compare_stage(plant, before, stage, &mut out);
+                // Sizing, service and setting groups, in the words of the audit's table.
+                let (o, n) = (
+                    beyond_trigger(plant, old, before),
+                    beyond_trigger(plant, new, stage),
+                );
+                if o != n {
+                    out.push(SettingChange {
+                        stage: stage.id.clone(),
+                        what: "sizing and groups",
+                        old: o,
+                        new: n,
+                    });
+                }
+            }
         }
     }
     for stage in &old.stages {
@@ -107,6 +124,14 @@ fn compare_stage(plant: &Plant, old: &Stage, new: &Stage, out: &mut Vec<SettingC
         };
         push("loads", o, n);
     }
+}
+
+/// What the audit's words for a stage say beyond its trigger: sizing, service, setting groups.
+fn beyond_trigger(plant: &Plant, scheme: &Scheme, stage: &Stage) -> String {
+    let all = super::audit::describe_stage(plant, scheme, stage);
+    let head = trigger(plant, &stage.trigger);
+    let rest = all.strip_prefix(&head).unwrap_or(&all);
+    rest.trim_start_matches([',', ';', ' ']).to_string()
 }
 
 fn trigger(plant: &Plant, t: &StageTrigger) -> String {

@@ -484,6 +484,9 @@ fn unknown_id(r: &mut Reader, path: &FieldPath, kind: &str, id: &str, known: &[&
     };
     let help = match near.first() {
         Some(m) => format!("did you mean `{m}`? ids are case sensitive"),
+        None if kind == "setting group" => {
+            "use the id of a group in the scheme's `setting_groups` list".to_string()
+        }
         None => format!("use the id of a {kind} defined in the plant file"),
     };
     r.error(path, msg, help);

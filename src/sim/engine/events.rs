@@ -234,8 +234,8 @@ impl Engine<'_> {
     /// from each section's net demand (loads at their present frequency and voltage, load steps,
     /// less the machines' mechanical power, plus the power going into the stored energy of its
     /// island), as [`flow_before_opening`] takes it; the allowance from the spinning reserve
-    /// (maximum less present mechanical power) of the running machines that stay in the island
-    /// that lost the flow.
+    /// (the governor's upper limit, `Generator::upper_mw`, less present mechanical power) of the
+    /// running machines that stay in the island that lost the flow.
     fn flow_picks(&self, br: BreakerRef) -> Vec<(usize, Vec<usize>, f64, f64)> {
         let sized: Vec<usize> = (0..self.scheme.stages.len())
             .filter(|&i| {
@@ -286,7 +286,7 @@ impl Engine<'_> {
                     && br != BreakerRef::Generator(g)
                     && cut.sections.binary_search(&gen.section).is_ok()
             })
-            .map(|(g, gen)| (gen.max_mw - pm[g]).max(0.0))
+            .map(|(g, _)| (self.eq.machines[g].governor.limits.max_mw - pm[g]).max(0.0))
             .sum();
         sized
             .into_iter()

@@ -120,7 +120,7 @@ fn flow_picks(
                 && breaker != BreakerRef::Generator(g)
                 && cut.sections.binary_search(&gen.section).is_ok()
         })
-        .map(|(g, gen)| (gen.max_mw - gen_mw[g]).max(0.0))
+        .map(|(g, gen)| (gen.upper_mw(gen_mw[g]) - gen_mw[g]).max(0.0))
         .sum();
     sized
         .into_iter()
