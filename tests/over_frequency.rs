@@ -418,3 +418,52 @@ fn the_demo_exporting_separation_sheds_nothing_and_its_cascade_is_named_without_
     assert_eq!(row.cascades, vec!["tg-3".to_string()]);
     assert!(row.cascade_causes[0].starts_with("tg-3 by over-frequency 61.25 Hz / 0.3 s at "));
 }
+
+#[test]
+fn compare_names_over_frequency_stages_added_changed_and_removed() {
+    let plant = exporting_plant(vec![]);
+    let old = with_over(
+        0.0,
+        vec![of("of-1", 50.5, OverAction::Trip { generator: 1 })],
+    );
+    let new = with_over(
+        0.0,
+        vec![
+            of("of-1", 50.6, OverAction::Trip { generator: 1 }),
+            of(
+                "of-2",
+                50.8,
+                OverAction::RunBack {
+                    generator: 0,
+                    mw: 1.0,
+                },
+            ),
+        ],
+    );
+    let d = nadir::verify::diff::diff(&plant, &old, &new);
+    let got: Vec<(&str, &str, &str, &str)> = d
+        .iter()
+        .map(|c| (c.stage.as_str(), c.what, c.old.as_str(), c.new.as_str()))
+        .collect();
+    assert_eq!(
+        got,
+        vec![
+            (
+                "of-1",
+                "over-frequency",
+                "above 50.50 Hz, 0.300 s, breaker 0.080 s, trips g2",
+                "above 50.60 Hz, 0.300 s, breaker 0.080 s, trips g2"
+            ),
+            (
+                "of-2",
+                "added",
+                "",
+                "above 50.80 Hz, 0.300 s, breaker 0.080 s, runs g1 back 1.00 MW"
+            ),
+        ]
+    );
+    let back = nadir::verify::diff::diff(&plant, &new, &old);
+    assert!(back
+        .iter()
+        .any(|c| c.stage == "of-2" && c.what == "removed"));
+}
