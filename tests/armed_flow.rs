@@ -496,3 +496,71 @@ fn bad_flow_and_group_settings_are_refused_with_the_fix() {
         "{e}"
     );
 }
+
+// ---------------------------------------------------------------- through the binary
+
+/// A fresh directory for one test's files.
+fn scratch(name: &str) -> std::path::PathBuf {
+    let dir = std::path::Path::new(env!("CARGO_TARGET_TMPDIR"))
+        .join("armed-flow")
+        .join(name);
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).expect("scratch dir");
+    dir
+}
+
+fn nadir(args: &[&std::ffi::OsStr]) -> std::process::Output {
+    std::process::Command::new(env!("CARGO_BIN_EXE_nadir"))
+        .args(args)
+        .output()
+        .expect("run nadir")
+}
+
+#[test]
+fn design_from_a_table_with_groups_or_sizing_is_refused_with_exit_2() {
+    let dir = scratch("design-from");
+    let plant = dir.join("plant.yaml");
+    let cases = dir.join("cases.yaml");
+    let scheme = dir.join("scheme.yaml");
+    let out = dir.join("out.yaml");
+    std::fs::write(&plant, PLANT).unwrap();
+    std::fs::write(&cases, CASES).unwrap();
+    std::fs::write(&scheme, sized("1")).unwrap();
+    let o = nadir(&[
+        "design".as_ref(),
+        plant.as_os_str(),
+        "--cases".as_ref(),
+        cases.as_os_str(),
+        "--from".as_ref(),
+        scheme.as_os_str(),
+        "-o".as_ref(),
+        out.as_os_str(),
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(
+        err.contains("design --from does not start from a table with stages sized from the pre-event flow (armed)"),
+        "{err}"
+    );
+    assert!(!out.exists(), "nothing written");
+    // A bad group reference: exit 2, file:line:column, field and the fix.
+    std::fs::write(
+        &scheme,
+        GROUPS.replace(
+            "group: export-mode, pickup_hz",
+            "group: export-mod, pickup_hz",
+        ),
+    )
+    .unwrap();
+    let o = nadir(&["audit".as_ref(), plant.as_os_str(), scheme.as_os_str()]);
+    assert_eq!(o.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(
+        err.contains(
+            "scheme.yaml:7:26: stages[0].groups[0].group: unknown setting group `export-mod`"
+        ),
+        "{err}"
+    );
+    assert!(err.contains("help: did you mean `export-mode`?"), "{err}");
+    let _ = std::fs::remove_dir_all(&dir);
+}

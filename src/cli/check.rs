@@ -92,6 +92,9 @@ pub fn render_tables(s: &Screening, wide: bool) -> String {
                 ""
             )
         ));
+        for note in &scheme.notes {
+            out.push_str(&super::verify::wrap_text(note, "", "  "));
+        }
     }
     if !wide {
         out.push_str("--wide shows every column on one line.\n");

@@ -187,6 +187,9 @@ pub struct SchemeFigures {
     pub plant_load_mw: Vec<f64>,
     /// In order of operation: armed stages first, then frequency stages by falling pickup.
     pub stages: Vec<StageFigures>,
+    /// What the table's figures do not show, in words: a stage sized from the pre-event flow (its
+    /// MW is the most it opens) and a stage's settings in each setting group.
+    pub notes: Vec<String>,
 }
 
 /// One stage at each operating point.

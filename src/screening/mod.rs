@@ -42,7 +42,7 @@ mod state;
 pub use closed::{initial_rocof_hz_per_s, steady_state};
 pub use figures::*;
 
-use crate::model::{CaseSet, Plant, Scheme, StageTrigger, Start};
+use crate::model::{Allowance, CaseSet, Plant, Scheme, Sizing, StageTrigger, Start};
 use crate::topology::islands;
 use state::{breaker_id, island_figures, profile_figures, state_figures, State};
 
@@ -216,5 +216,69 @@ pub fn screen_scheme(plant: &Plant, scheme: &Scheme) -> SchemeFigures {
         operating_points: ops.iter().map(|o| o.id.clone()).collect(),
         plant_load_mw: plant_load,
         stages,
+        notes: scheme_notes(plant, scheme),
     }
+}
+
+/// A flow-sized stage's sizing and each stage's settings per setting group, in words.
+fn scheme_notes(plant: &Plant, scheme: &Scheme) -> Vec<String> {
+    let mut out = Vec::new();
+    let allowance = |a: Allowance| match a {
+        Allowance::Mw(mw) => format!("{mw} MW"),
+        Allowance::ReservePct(pct) => format!("{pct} % of the spinning reserve"),
+    };
+    for i in scheme.operating_order() {
+        let st = &scheme.stages[i];
+        if let (Sizing::Flow(a), StageTrigger::Breaker(b)) = (st.sizing, st.trigger) {
+            out.push(format!(
+                "{} is sized from the flow through {} just before it opens, less {}: its MW above is the most it opens; it opens the rank-order part of its loads that covers the flow, and nothing when the plant exports",
+                st.id,
+                breaker_id(plant, b),
+                allowance(a)
+            ));
+        }
+        for g in &st.groups {
+            let Some(group) = scheme.groups.get(g.group) else {
+                continue;
+            };
+            let points: Vec<&str> = group
+                .operating_points
+                .iter()
+                .filter_map(|&op| plant.operating_points.get(op).map(|o| o.id.as_str()))
+                .collect();
+            let settings = if !g.in_service {
+                "out of service (0 MW above)".to_string()
+            } else {
+                let trigger = match g.trigger {
+                    StageTrigger::Frequency {
+                        pickup_hz,
+                        min_rocof_hz_per_s: None,
+                    } => format!("{pickup_hz} Hz, "),
+                    StageTrigger::Frequency {
+                        pickup_hz,
+                        min_rocof_hz_per_s: Some(r),
+                    } => format!("{pickup_hz} Hz and df/dt < -{r} Hz/s, "),
+                    StageTrigger::Breaker(_) => String::new(),
+                };
+                let sized = match g.sizing {
+                    Sizing::Flow(a) => format!(", allowance {}", allowance(a)),
+                    Sizing::All => String::new(),
+                };
+                format!("{trigger}delay {} s{sized}", g.delay_s)
+            };
+            out.push(format!(
+                "{} in setting group {} ({}): {settings}",
+                st.id,
+                group.id,
+                points.join(", ")
+            ));
+        }
+        if !st.in_service {
+            out.push(format!(
+                "{} is out of service at the points in no setting group (0 MW above)",
+                st.id
+            ));
+        }
+    }
+    out
 }
