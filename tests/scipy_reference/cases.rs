@@ -613,6 +613,12 @@ pub fn to_json(x: &CrossCase) -> Value {
         })
         .collect();
     assert!(x.case.utility_profile.is_empty());
+    // Over-frequency stages are outside the reference; tests/over_frequency.rs checks their
+    // instants against closed forms.
+    assert!(
+        x.scheme.over_frequency.is_empty(),
+        "over-frequency stages are outside the scipy reference"
+    );
     json!({
         "id": x.id,
         "f0": p.nominal_hz,
@@ -743,6 +749,16 @@ pub fn python() -> String {
 
 /// Write the cases, run `python3 reference.py in out`, read the results.
 pub fn run_reference(xs: &[CrossCase], tag: &str) -> Result<ReferenceOutput, ReferenceError> {
+    run_reference_with(xs, tag, &[])
+}
+
+/// [`run_reference`] with the script's solver settings replaced: `[METHOD, RTOL, ATOL,
+/// MAX_STEP_S]` (empty: the reference's own).
+pub fn run_reference_with(
+    xs: &[CrossCase],
+    tag: &str,
+    solver: &[&str],
+) -> Result<ReferenceOutput, ReferenceError> {
     let probe = Command::new(python())
         .args([
             "-c",
@@ -773,6 +789,7 @@ pub fn run_reference(xs: &[CrossCase], tag: &str) -> Result<ReferenceOutput, Ref
         .arg(script_dir().join("reference.py"))
         .arg(&input)
         .arg(&output)
+        .args(solver)
         .output()
         .map_err(|e| ReferenceError::Failed(e.to_string()))?;
     if !o.status.success() {
