@@ -104,6 +104,48 @@ fn demo_proposal_verifies_audits_clean_beats_the_baseline_and_is_thread_count_in
     }
 }
 
+/// A plant that requires margins (here the demo with a 1.2× disturbance and 10 % model-error
+/// margin written, values chosen for the test) gets a proposal that verify passes with those
+/// margins judged by its own margin searches, that audits clean and leaves no load unassigned;
+/// the search sizes without margins and sizes its finalists again with them, so a margin the
+/// search's tables miss is still met.
+#[test]
+fn a_plant_that_requires_margins_gets_a_proposal_that_meets_them() {
+    let (mut plant, cases) = demo();
+    plant.criteria.required_disturbance_factor = 1.2;
+    plant.criteria.required_model_error_pct = 10.0;
+    plant.criteria.margins_written = true;
+    let p = design::design(&plant, &cases, None, &quiet).unwrap();
+    let m = verify(&plant, &cases, &p.scheme, &VerifyConfig::default(), &|| {});
+    let failing: Vec<_> = m.rows.iter().filter(|r| !r.pass).collect();
+    assert!(failing.is_empty(), "proposal fails: {failing:#?}");
+    // Every row's margins were searched and reach the requirement.
+    for r in &m.rows {
+        let margins = r.margins.expect("margins searched");
+        if let Some(v) = margins.disturbance_factor.value() {
+            assert!(v + 1e-9 >= 1.2, "{} at {}: {v}×", r.case, r.operating_point);
+        }
+        let v = margins.model_error_pct.value().unwrap();
+        assert!(
+            v + 1e-9 >= 10.0,
+            "{} at {}: {v} %",
+            r.case,
+            r.operating_point
+        );
+    }
+    let a = audit_cases(
+        &plant,
+        &p.scheme,
+        Some(&cases),
+        &AuditRules::for_plant(&plant),
+    );
+    assert!(a.violations.is_empty(), "{:#?}", a.violations);
+    assert!(p.unassigned.is_empty(), "{:?}", p.unassigned);
+    if let Some(b) = p.baseline.as_ref().filter(|b| b.rules_clean) {
+        assert!(p.objective <= b.objective + 1e-9);
+    }
+}
+
 /// A table that already holds every case is kept as it is, under its own name; beside it, what
 /// a fresh design would cost (the comparison the command line prints).
 #[test]

@@ -328,7 +328,11 @@ fn shed_table(p: &Proposal) -> String {
             bl.objective,
             p.objective,
             100.0 * (p.objective - bl.objective) / bl.objective.max(1e-9)
-        ),
+        ) + if bl.rules_clean {
+            ""
+        } else {
+            " The plain table breaks the plant's rank-order rule in some event (`nadir audit --cases`), so it is not proposed."
+        },
         None => "Plain baseline: no equal-step table within the limits holds every case.".into(),
     };
     let above = |total: f64| {

@@ -31,8 +31,9 @@ pub struct VerifyArgs {
     /// Output format.
     #[arg(long, value_enum, default_value_t = Format::Table)]
     pub format: Format,
-    /// Skip the margin searches (about fifteen extra runs per row); refused when the plant's
-    /// criteria require a margin.
+    /// Skip the margin searches (about fifteen extra runs per row) for a quick look: the verdict
+    /// then says the required margins were not judged. Refused when the plant file itself
+    /// writes a required margin.
     #[arg(long)]
     pub no_margins: bool,
     /// Every figure of a run on one line (wider than 120 columns): nadir and peak times,
@@ -99,15 +100,16 @@ pub fn run(args: VerifyArgs) -> anyhow::Result<Outcome> {
     })
 }
 
-/// `--no-margins` on a plant that requires margins would print a verdict that never judged them:
-/// refused (exit 2) with the requirement and the fix.
+/// `--no-margins` on a plant whose file writes a required margin would print a verdict that
+/// never judged it: refused (exit 2) with the requirement and the fix. Margins that come from the
+/// defaults may be skipped for a quick look; the verdict then says they were not judged.
 pub fn refuse_skipped_margins(
     no_margins: bool,
     plant: &nadir::model::Plant,
     path: &std::path::Path,
 ) -> anyhow::Result<()> {
     let c = &plant.criteria;
-    if !no_margins || !c.margins_required() {
+    if !no_margins || !c.margins_required() || !c.margins_written {
         return Ok(());
     }
     let mut wanted = Vec::new();
@@ -196,7 +198,18 @@ pub fn render_table(m: &Matrix, plant: &Plant, scheme: &str, wide: bool) -> Stri
         }
     }
     let failed = m.rows.iter().filter(|r| !r.pass).count();
-    out.push_str(&if failed == 0 {
+    let unjudged = m.rows.iter().all(|r| r.margins.is_none()) && plant.criteria.margins_required();
+    out.push_str(&if failed == 0 && unjudged {
+        wrap_text(
+            &format!(
+                "All {} case × operating-point runs hold every criterion judged; the required \
+margins were NOT judged (--no-margins), so this is not a full pass.",
+                m.rows.len()
+            ),
+            "",
+            "",
+        )
+    } else if failed == 0 {
         format!(
             "All {} case × operating-point runs hold every criterion.\n",
             m.rows.len()
@@ -211,7 +224,19 @@ pub fn render_table(m: &Matrix, plant: &Plant, scheme: &str, wide: bool) -> Stri
     for c in criteria_words(&plant.criteria) {
         out.push_str(&wrap_text(&c.words, "  - ", "    "));
     }
-    if m.rows.iter().all(|r| r.margins.is_none()) {
+    if unjudged {
+        let c = &plant.criteria;
+        out.push_str(&wrap_text(
+            &format!(
+                "Margins were not searched (--no-margins): the required margins (disturbance {}×, \
+model error {} %, the defaults: docs/files.md) are unchecked.",
+                fmt(c.required_disturbance_factor, 2),
+                fmt(c.required_model_error_pct, 0)
+            ),
+            "",
+            "",
+        ));
+    } else if m.rows.iter().all(|r| r.margins.is_none()) {
         out.push_str(&wrap_text(
             "Margins were not searched (--no-margins); the plant requires none.",
             "",

@@ -63,9 +63,9 @@ pub fn alone(ctx: &Context) -> Option<Sized> {
     None
 }
 
-/// Assign the loads that `best` leaves in no stage: to a new stage at the lowest pickup when
-/// there is room for one (the stage limit and the spacing), else to the last frequency stage;
-/// kept only when every row still holds.
+/// Assign the loads that `best` leaves in no stage: to a new stage at the lowest pickup, at the
+/// shortest delay on the grid that holds, when there is room for one (the stage limit and the
+/// spacing), else to the last frequency stage; kept only when every row still holds.
 pub fn add(ctx: &Context, best: &mut Sized) -> Backstop {
     if !ctx.plant.design.backstop {
         return Backstop::Off;
@@ -94,14 +94,19 @@ pub fn add(ctx: &Context, best: &mut Sized) -> Backstop {
         _ => true,
     };
     if room && best.layout.frequency_stages() < limits.max_stages {
-        if let Some(&lowest) = pickups.last() {
+        // Shortest delay first: a longer one lets a dip that the earlier stages arrest (a
+        // disturbance grown by the required margin) turn before the backstop opens.
+        for delay in layout::delay_grid(limits) {
+            let Some(&lowest) = pickups.last() else {
+                break;
+            };
             let mut l = best.layout.clone();
             l.stages.push(layout::Setting {
                 trigger: StageTrigger::Frequency {
                     pickup_hz: lowest,
                     min_rocof_hz_per_s: None,
                 },
-                delay_s: limits.min_delay_s,
+                delay_s: delay,
                 breaker_s: limits.breaker_s,
                 section: None,
             });

@@ -1,7 +1,8 @@
 //! The plain table a design is measured against: the most stages the limits allow, pickups in
 //! equal steps from the highest to the lowest allowed, every delay at its minimum, no armed or
 //! df/dt-supervised stage, and loads taken in rank order in equal MW steps (at the first
-//! operating point) — with the step chosen, from a scan, as the one that holds every row with the least shed.
+//! operating point) — with the step chosen, from a scan, as the one that holds every row with the least shed. It is
+//! proposed only when it also breaks none of the plant's rules (`Context::rules_clean`).
 
 use super::evaluate::Verdict;
 use super::layout::{self, Layout};

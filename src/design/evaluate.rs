@@ -1,14 +1,17 @@
 //! Judging a candidate table on one case at one operating point: did it hold, was it short of
 //! shedding or did it shed too much, which stages operated, and what it shed.
 //!
-//! The pass test is the verification's own (criteria, off-nominal band times) plus the plant's
-//! required margins, each checked by one run at the required value rather than by the margin
-//! search, so that the design loop stays cheap; the final table is still verified in full.
+//! The pass test is the verification's own (criteria, off-nominal band times) plus, when asked,
+//! the plant's required margins, each judged as the margin search would judge it but stopping
+//! as soon as the answer is known (one run when the row holds at the end of the searched range);
+//! the final table is still verified in full.
 
 use crate::model::{Case, Plant, Scheme};
 use crate::sim::{self, EventKind, Run, SimConfig, StopReason};
 use crate::verify::criteria::judge;
-use crate::verify::margins::{grow_disturbance, weaken_model};
+use crate::verify::margins::{
+    grow_disturbance, has_scalable_event, meets_disturbance, meets_model_error, weaken_model,
+};
 use crate::verify::matrix::{observe, sim_config_for};
 use crate::verify::offnominal::band_times;
 
@@ -26,10 +29,18 @@ pub enum Verdict {
 #[derive(Debug, Clone, PartialEq)]
 pub struct RowEval {
     pub verdict: Verdict,
-    /// Stages (indices into the scheme) that gave a trip command, in scheme order.
+    /// Stages (indices into the scheme) that gave a trip command in the studied run, in scheme
+    /// order.
     pub operated: Vec<usize>,
-    /// Loads opened by stages, by index.
+    /// Loads opened by stages in the studied run, by index.
     pub shed_loads: Vec<usize>,
+    /// Stages that operated in the run that decided the verdict: the studied run, or the margin
+    /// run (grown disturbance, weakened model) that failed. A failing row's requirement is set
+    /// on these.
+    pub acting: Vec<usize>,
+    /// Every stage that operated in any of the row's runs: the row's outcome depends on the
+    /// loads of these stages only.
+    pub touched: Vec<usize>,
 }
 
 /// The simulator settings the design uses for every run.
@@ -39,32 +50,62 @@ pub fn design_sim_config(plant: &Plant) -> SimConfig {
     }
 }
 
-/// Judge `scheme` on `case` at operating point `op`.
+/// Judge `scheme` on `case` at operating point `op`; with `margins`, the row holds only when it
+/// also holds with the plant's required margins (one run at each required value).
 pub fn evaluate(
     plant: &Plant,
     case: &Case,
     op: usize,
     scheme: &Scheme,
     cfg: &SimConfig,
+    margins: bool,
 ) -> RowEval {
     let run = sim::simulate(plant, case, op, scheme, cfg);
     let mut verdict = verdict_of(plant, case, op, &run);
-    let c = &plant.criteria;
-    if verdict == Verdict::Holds && c.required_disturbance_factor > 1.0 {
-        let grown = grow_disturbance(plant, case, op, c.required_disturbance_factor);
-        let r = sim::simulate(plant, &grown, op, scheme, cfg);
-        verdict = verdict_of(plant, &grown, op, &r);
-    }
-    if verdict == Verdict::Holds && c.required_model_error_pct > 0.0 {
-        let weak = weaken_model(plant, c.required_model_error_pct);
-        let r = sim::simulate(&weak, case, op, scheme, cfg);
-        verdict = verdict_of(&weak, case, op, &r);
-    }
     let (operated, shed_loads) = stages_and_loads(plant, scheme, &run);
+    let mut acting = operated.clone();
+    let mut touched = operated.clone();
+    // Each required margin judged as verify's margin search would judge it, walking its
+    // bisection only until the answer is known: the verdict is that of the last failing run.
+    let c = &plant.criteria;
+    let failed: std::cell::RefCell<Option<(Verdict, Vec<usize>)>> = Default::default();
+    let mut judge = |p: &Plant, case: &Case| {
+        let r = sim::simulate(p, case, op, scheme, cfg);
+        let v = verdict_of(p, case, op, &r);
+        let (ops, _) = stages_and_loads(plant, scheme, &r);
+        touched.extend(ops.iter().copied());
+        if v != Verdict::Holds {
+            *failed.borrow_mut() = Some((v, ops));
+        }
+        v == Verdict::Holds
+    };
+    if margins
+        && verdict == Verdict::Holds
+        && c.required_disturbance_factor > 1.0
+        && has_scalable_event(case)
+        && !meets_disturbance(c.required_disturbance_factor, |k| {
+            judge(plant, &grow_disturbance(plant, case, op, k))
+        })
+    {
+        (verdict, acting) = failed.take().unwrap_or((Verdict::Short, acting.clone()));
+    }
+    if margins
+        && verdict == Verdict::Holds
+        && c.required_model_error_pct > 0.0
+        && !meets_model_error(c.required_model_error_pct, |pct| {
+            judge(&weaken_model(plant, pct), case)
+        })
+    {
+        (verdict, acting) = failed.take().unwrap_or((Verdict::Short, acting.clone()));
+    }
+    touched.sort_unstable();
+    touched.dedup();
     RowEval {
         verdict,
         operated,
         shed_loads,
+        acting,
+        touched,
     }
 }
 

@@ -106,6 +106,7 @@ pub(super) fn finish(
         baseline: baseline.map(|b| BaselineSummary {
             objective: b.objective,
             stages: b.layout.stages.len(),
+            rules_clean: ctx.rules_clean(&ctx.scheme(&b.layout, &b.assignment)),
             scheme: ctx.scheme(&b.layout, &b.assignment),
         }),
         from,
@@ -184,7 +185,8 @@ pub(super) fn drop_idle_last_stages(ctx: &Context, best: &mut Sized) {
         let Some(k) = best.layout.stages.len().checked_sub(1) else {
             return;
         };
-        let idle = best.evals.iter().all(|e| !e.operated.contains(&k));
+        // Idle in every run of every row, margin runs included.
+        let idle = best.evals.iter().all(|e| !e.touched.contains(&k));
         let frequency = matches!(
             best.layout.stages[k].trigger,
             StageTrigger::Frequency { .. }

@@ -93,6 +93,8 @@ pub struct RowShed {
 pub struct BaselineSummary {
     pub objective: f64,
     pub stages: usize,
+    /// Whether the table breaks none of the plant's rules (else it is never proposed).
+    pub rules_clean: bool,
     #[serde(skip)]
     pub scheme: Scheme,
 }
@@ -217,10 +219,12 @@ pub fn design(
         }
     }
     if let Some(b) = &baseline {
+        // Only a baseline that keeps the plant's rules (rank order per event and island) may
+        // be proposed; one that does not is still printed for comparison.
         let better = match &chosen {
             Some((c, _)) => b.objective < c.objective - 1e-9 && from.is_none(),
             None => true,
-        };
+        } && ctx.rules_clean(&ctx.scheme(&b.layout, &b.assignment));
         if better {
             chosen = Some((b.clone(), Source::Baseline));
             backstop = baseline_backstop.unwrap_or(Backstop::NotNeeded);
@@ -247,6 +251,7 @@ pub fn design(
     proposal.fresh = fresh.map(|f| BaselineSummary {
         objective: f.objective,
         stages: f.layout.stages.len(),
+        rules_clean: true,
         scheme: ctx.scheme(&f.layout, &f.assignment),
     });
     Ok(proposal)

@@ -21,7 +21,11 @@ const FINALISTS: usize = 4;
 
 /// Size the starting layouts, then improve the best few by moving one setting at a time. Returns
 /// the best sized layout, the number of layouts sized and the replays used.
-pub(super) fn search(ctx: &Context, progress: Progress) -> (Option<Sized>, usize, usize) {
+pub(super) fn search(full: &Context, progress: Progress) -> (Option<Sized>, usize, usize) {
+    // The search judges rows without the required margins (a third of the replays); the
+    // finalists are then sized again with them, starting from their loads.
+    let quick = full.without_margins();
+    let ctx = &quick;
     let (start, exhaustive) = starting_layouts(ctx);
     let total = start.len();
     // Different starts reach the same neighbours: size each layout once.
@@ -41,8 +45,9 @@ pub(super) fn search(ctx: &Context, progress: Progress) -> (Option<Sized>, usize
     // Stable: equal objectives keep the fixed layout order.
     ranked.sort_by(|a, b| a.objective.total_cmp(&b.objective));
     if exhaustive {
-        let (best, extra) = trim_all(ctx, ranked);
-        return (best, sized, replays + extra);
+        let (finalists, extra) = with_margins(full, ranked, progress);
+        let (best, trimmed) = trim_all(full, finalists);
+        return (best, sized, replays + extra + trimmed);
     }
     for (n, seed) in ranked.into_iter().take(LOCAL_STARTS).enumerate() {
         let mut current = seed;
@@ -86,9 +91,29 @@ pub(super) fn search(ctx: &Context, progress: Progress) -> (Option<Sized>, usize
             .then_with(|| format!("{:?}", a.layout.stages).cmp(&format!("{:?}", b.layout.stages)))
     });
     finalists.truncate(FINALISTS);
+    let (finalists, extra) = with_margins(full, finalists, progress);
     progress(&format!("trimming the best {} tables", finalists.len()));
-    let (best, extra) = trim_all(ctx, finalists);
-    (best, sized, replays + extra)
+    let (best, trimmed) = trim_all(full, finalists);
+    (best, sized, replays + extra + trimmed)
+}
+
+/// The tables sized again so that they also hold with the plant's required margins, each
+/// starting from its own loads (the loop adds load where a margin run falls short); tables
+/// that cannot are dropped. Unchanged when the plant requires no margin. With the replays used.
+fn with_margins(ctx: &Context, tables: Vec<Sized>, progress: Progress) -> (Vec<Sized>, usize) {
+    if !ctx.margins {
+        return (tables, 0);
+    }
+    progress(&format!(
+        "sizing the best {} tables again with the required margins",
+        tables.len()
+    ));
+    let sized: Vec<Option<Sized>> = tables
+        .par_iter()
+        .map(|t| sizing::size(ctx, &t.layout, Some(&t.assignment), 0.0).ok())
+        .collect();
+    let runs = sized.iter().flatten().map(|s| s.runs).sum();
+    (sized.into_iter().flatten().collect(), runs)
 }
 
 /// Order of preference among finished tables: less objective (beyond rounding), then fewer

@@ -31,6 +31,9 @@ pub struct Context<'a> {
     pub sim: SimConfig,
     pub measurement: Measurement,
     pub name: String,
+    /// Whether a row holds only with the plant's required margins too. The settings search
+    /// sizes without them (`Context::without_margins`); the finalists are sized again with them.
+    pub margins: bool,
 }
 
 impl<'a> Context<'a> {
@@ -65,7 +68,30 @@ impl<'a> Context<'a> {
             sim,
             measurement,
             name: name.to_string(),
+            margins: plant.criteria.margins_required(),
         }
+    }
+
+    /// The same context judging rows without the required margins: the cheap judge of the
+    /// settings search.
+    pub fn without_margins(&self) -> Context<'a> {
+        Context {
+            margins: false,
+            ..self.clone()
+        }
+    }
+
+    /// Judge `scheme` on row `r`.
+    pub fn evaluate_row(&self, r: usize, scheme: &Scheme) -> RowEval {
+        let (ci, op) = self.rows[r];
+        evaluate(
+            self.plant,
+            &self.cases.cases[ci],
+            op,
+            scheme,
+            &self.sim,
+            self.margins,
+        )
     }
 
     /// The table of `layout` with `assignment` (a stage position per candidate load).
@@ -114,9 +140,9 @@ impl<'a> Context<'a> {
 
     /// Replay every row.
     pub fn evaluate_all(&self, scheme: &Scheme) -> Vec<RowEval> {
-        self.rows
-            .par_iter()
-            .map(|&(ci, op)| evaluate(self.plant, &self.cases.cases[ci], op, scheme, &self.sim))
+        (0..self.rows.len())
+            .into_par_iter()
+            .map(|r| self.evaluate_row(r, scheme))
             .collect()
     }
 
@@ -137,7 +163,7 @@ impl<'a> Context<'a> {
                     stages.len() != scheme.stages.len()
                         || memo.sections != sections
                         || eval
-                            .operated
+                            .touched
                             .iter()
                             .any(|&k| stages[k] != scheme.stages[k].sheds)
                 }
@@ -145,10 +171,7 @@ impl<'a> Context<'a> {
             .collect();
         let fresh: Vec<RowEval> = stale
             .par_iter()
-            .map(|&r| {
-                let (ci, op) = self.rows[r];
-                evaluate(self.plant, &self.cases.cases[ci], op, scheme, &self.sim)
-            })
+            .map(|&r| self.evaluate_row(r, scheme))
             .collect();
         let contents: Vec<Vec<usize>> = scheme.stages.iter().map(|s| s.sheds.clone()).collect();
         for (&r, e) in stale.iter().zip(fresh) {
@@ -210,6 +233,8 @@ fn unreachable_eval() -> RowEval {
         verdict: Verdict::Short,
         operated: Vec::new(),
         shed_loads: Vec::new(),
+        acting: Vec::new(),
+        touched: Vec::new(),
     }
 }
 
@@ -293,7 +318,7 @@ pub fn size(
             return Ok(sized);
         }
         seen.push(assignment.clone());
-        if let Some(&r) = failing.iter().find(|&&r| evals[r].operated.is_empty()) {
+        if let Some(&r) = failing.iter().find(|&&r| evals[r].acting.is_empty()) {
             if evals[r].verdict == Verdict::Short {
                 return Err(NotSized::NoStageActs { row: r });
             }
@@ -505,9 +530,8 @@ fn requirement(
     row: usize,
     eval: &RowEval,
 ) -> (Option<Requirement>, usize) {
-    let (ci, op) = ctx.rows[row];
-    let case = &ctx.cases.cases[ci];
-    let Some(&deepest) = eval.operated.last() else {
+    let (_, op) = ctx.rows[row];
+    let Some(&deepest) = eval.acting.last() else {
         return (None, 0);
     };
     let stages = layout.stages.len();
@@ -517,9 +541,9 @@ fn requirement(
     let mut judge = |trial: &[Option<usize>]| {
         runs += 1;
         let scheme = ctx.scheme(layout, trial);
-        evaluate(ctx.plant, case, op, &scheme, &ctx.sim).verdict
+        ctx.evaluate_row(row, &scheme).verdict
     };
-    let covered = layout::effective(layout, &eval.operated);
+    let covered = layout::effective(layout, &eval.acting);
     let opened = |trial: &[Option<usize>]| -> f64 {
         ctx.loads
             .iter()
@@ -536,7 +560,7 @@ fn requirement(
             // stage acts too late, so enough of it sheds too much), the same into the operated
             // stage before it, and so on to the first; if no stage holds the row, the deepest's.
             let mut fallback = None;
-            for &stage in eval.operated.iter().rev() {
+            for &stage in eval.acting.iter().rev() {
                 let later: Vec<usize> = (0..ctx.loads.len())
                     .filter(|&j| {
                         assignment[j].is_none_or(|k| k > stage) && ctx.mw[op][ctx.loads[j].0] > 0.0
@@ -557,7 +581,7 @@ fn requirement(
                 let upto: Vec<usize> = layout::effective(
                     layout,
                     &eval
-                        .operated
+                        .acting
                         .iter()
                         .copied()
                         .filter(|&k| k <= stage)
@@ -605,7 +629,7 @@ fn requirement(
             let trial = moved(m.unwrap_or(mine.len() - 1));
             let req = Requirement {
                 op,
-                stages: layout::effective(layout, &eval.operated),
+                stages: layout::effective(layout, &eval.acting),
                 mw: opened(&trial),
                 at_least: false,
             };

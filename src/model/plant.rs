@@ -220,6 +220,10 @@ pub struct Criteria {
     pub required_disturbance_factor: f64,
     /// Every case must hold with inertia and load damping this many percent lower (0: none).
     pub required_model_error_pct: f64,
+    /// The plant file itself writes a required margin that asks for something (a factor above
+    /// 1 or an error above 0); `false` when the margins above are the defaults (or written as
+    /// none). A run may skip margins only when this is `false`, and then says they were not judged.
+    pub margins_written: bool,
     /// Audit: frequency stages closer than this in pickup and `min_spacing_s` in delay clash.
     pub min_spacing_hz: f64,
     pub min_spacing_s: f64,
@@ -231,6 +235,13 @@ pub struct Criteria {
 /// to the end, and the recovery level from its deadline to the end (our choice, no source: long
 /// enough to see a governed frequency stay put, short enough for the default 30 s run).
 pub const MIN_JUDGED_S: f64 = 5.0;
+
+/// Default required disturbance margin (1.0: none required).
+pub const DEFAULT_DISTURBANCE_FACTOR: f64 = 1.0;
+/// Default required model-error margin, % (0: none required).
+pub const DEFAULT_MODEL_ERROR_PCT: f64 = 0.0;
+/// Default coordination spacing between frequency stages, Hz (common practice, no source).
+pub const DEFAULT_MIN_SPACING_HZ: f64 = 0.1;
 
 impl Criteria {
     /// The plant asks for a disturbance or model-error margin, so a verification without the
@@ -251,9 +262,10 @@ impl Criteria {
             settle_within_s: 20.0,
             settle_low_hz: 0.99 * nominal_hz,
             settle_high_hz: 1.01 * nominal_hz,
-            required_disturbance_factor: 1.0,
-            required_model_error_pct: 0.0,
-            min_spacing_hz: 0.1,
+            required_disturbance_factor: DEFAULT_DISTURBANCE_FACTOR,
+            required_model_error_pct: DEFAULT_MODEL_ERROR_PCT,
+            margins_written: false,
+            min_spacing_hz: DEFAULT_MIN_SPACING_HZ,
             min_spacing_s: 0.1,
             normal_low_hz: 0.99 * nominal_hz,
         }

@@ -184,7 +184,7 @@ pub fn weaken_model(plant: &Plant, pct: f64) -> Plant {
     p
 }
 
-fn has_scalable_event(case: &Case) -> bool {
+pub fn has_scalable_event(case: &Case) -> bool {
     case.events.iter().any(|e| {
         matches!(
             e.action,
@@ -210,9 +210,92 @@ fn bisect(lo: f64, hi: f64, step: f64, mut holds: impl FnMut(f64) -> bool) -> Ma
     Margin::Found(good)
 }
 
+/// Whether the margin search of [`search`] would find at least `required` (between `lo` and
+/// `hi`), walking the same bisection path but stopping as soon as the answer is known: a value
+/// at or above `required` that holds, or one below it that fails. One run when the row holds at
+/// the end of the range, a few only near the boundary; never a different answer.
+fn meets(lo: f64, hi: f64, step: f64, required: f64, mut holds: impl FnMut(f64) -> bool) -> bool {
+    if holds(hi) {
+        return true;
+    }
+    let (mut good, mut bad) = (lo, hi);
+    while bad - good > step {
+        let mid = 0.5 * (good + bad);
+        let ok = holds(mid);
+        if ok && mid + 1e-9 >= required {
+            return true;
+        }
+        if !ok && mid + 1e-9 < required {
+            return false;
+        }
+        if ok {
+            good = mid;
+        } else {
+            bad = mid;
+        }
+    }
+    good + 1e-9 >= required
+}
+
+/// Whether the disturbance-factor search would find at least `required` (see [`meets`]).
+pub fn meets_disturbance(required: f64, holds: impl FnMut(f64) -> bool) -> bool {
+    meets(
+        1.0,
+        MAX_DISTURBANCE_FACTOR,
+        FACTOR_RESOLUTION,
+        required,
+        holds,
+    )
+}
+
+/// Whether the model-error search would find at least `required` % (see [`meets`]).
+pub fn meets_model_error(required: f64, holds: impl FnMut(f64) -> bool) -> bool {
+    meets(
+        0.0,
+        MAX_MODEL_ERROR_PCT,
+        ERROR_RESOLUTION_PCT,
+        required,
+        holds,
+    )
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn the_early_stopping_walk_agrees_with_the_search() {
+        // Thresholds, monotone and not (a band that fails inside the range), against required
+        // values: `meets` must answer what `bisect` finds, with fewer or as many calls.
+        let shapes: Vec<Box<dyn Fn(f64) -> bool>> = vec![
+            Box::new(|k| k <= 1.437),
+            Box::new(|k| k <= 1.05),
+            Box::new(|_| true),
+            Box::new(|k| !(1.05..1.3).contains(&k)),
+            Box::new(|k| !(1.4..1.6).contains(&k) && k < 1.9),
+            Box::new(|k| k < 1.22 || (1.5..1.7).contains(&k)),
+        ];
+        for f in &shapes {
+            for required in [1.05, 1.1, 1.2, 1.25, 1.5, 1.99] {
+                let found = bisect(1.0, 2.0, 0.01, f).value().unwrap();
+                let (mut walk, mut full) = (0, 0);
+                let met = meets(1.0, 2.0, 0.01, required, |k| {
+                    walk += 1;
+                    f(k)
+                });
+                bisect(1.0, 2.0, 0.01, |k| {
+                    full += 1;
+                    f(k)
+                });
+                assert_eq!(
+                    met,
+                    found + 1e-9 >= required,
+                    "required {required}, found {found}"
+                );
+                assert!(walk <= full);
+            }
+        }
+    }
 
     #[test]
     fn bisection_finds_a_threshold_within_its_resolution() {

@@ -70,6 +70,7 @@ pub(super) fn criteria(
     if let Some(m) = &raw.required_margin {
         if let Some(v) = m.disturbance_factor {
             c.required_disturbance_factor = v;
+            c.margins_written |= v > 1.0;
             num(
                 r,
                 &p.key("required_margin").key("disturbance_factor"),
@@ -81,6 +82,7 @@ pub(super) fn criteria(
         }
         if let Some(v) = m.model_error_pct {
             c.required_model_error_pct = v;
+            c.margins_written |= v > 0.0;
             num(
                 r,
                 &p.key("required_margin").key("model_error_pct"),
