@@ -443,6 +443,7 @@ fn table(plant: &Plant, layout: &[Setting], loads: &[(usize, u32)], pos: &[usize
         name: "exhaustive candidate".into(),
         measurement: Measurement::default(),
         stages,
+        over_frequency: Vec::new(),
     }
 }
 

@@ -19,6 +19,7 @@ fn no_shedding() -> Scheme {
         name: "no shedding".into(),
         measurement: Measurement::default(),
         stages: vec![],
+        over_frequency: Vec::new(),
     }
 }
 
@@ -43,6 +44,7 @@ fn shed_everything(plant: &Plant) -> Scheme {
                 .filter(|&l| !plant.loads[l].never_shed)
                 .collect(),
         }],
+        over_frequency: Vec::new(),
     }
 }
 

@@ -108,6 +108,7 @@ fn a_long_shed_list_is_wrapped_and_still_reads_back() {
             breaker_s: 0.08,
             sheds: (0..40).collect(),
         }],
+        over_frequency: Vec::new(),
     };
     let written = scheme_yaml(&plant, &scheme, &[]);
     assert!(
@@ -135,6 +136,7 @@ fn a_reference_outside_the_plant_is_refused_on_reading_not_a_panic() {
             breaker_s: 0.08,
             sheds: vec![0, 7],
         }],
+        over_frequency: Vec::new(),
     };
     let written = scheme_yaml(&plant, &scheme, &[]);
     let d = parse_scheme(&written, "w.yaml", &plant).unwrap_err();
@@ -353,6 +355,7 @@ fn plant_and_scheme() -> impl Strategy<Value = (Plant, Scheme, Vec<String>)> {
                     rocof_window_s: window,
                 },
                 stages,
+                over_frequency: Vec::new(),
             };
             (plant, scheme, header)
         })

@@ -433,8 +433,8 @@ fn capitalise(s: &str) -> String {
 }
 
 /// `--from` starts from one set of settings with fixed load lists: a table with setting groups,
-/// a stage out of service, or a stage sized from the pre-event flow is refused (exit 2) rather
-/// than redesigned as if it were something else.
+/// a stage out of service, a stage sized from the pre-event flow, or over-frequency stages is
+/// refused (exit 2) rather than redesigned as if it were something else.
 fn refuse_unsupported(old: &nadir::model::Scheme, path: &std::path::Path) -> anyhow::Result<()> {
     let mut what = Vec::new();
     if !old.groups.is_empty() {
@@ -460,6 +460,11 @@ fn refuse_unsupported(old: &nadir::model::Scheme, path: &std::path::Path) -> any
         .collect();
     if !out.is_empty() {
         what.push(format!("stages out of service ({})", out.join(", ")));
+    }
+    // The proposal is an under-frequency table; it would silently lose these.
+    let over: Vec<&str> = old.over_frequency.iter().map(|o| o.id.as_str()).collect();
+    if !over.is_empty() {
+        what.push(format!("over-frequency stages ({})", over.join(", ")));
     }
     if what.is_empty() {
         return Ok(());

@@ -273,6 +273,10 @@ pub fn describe(what: &EventKind) -> String {
         } => {
             format!("breaker {breaker} opens (protection {element})")
         }
+        EventKind::BreakerOpened {
+            breaker,
+            cause: Cause::Stage { stage },
+        } => format!("breaker {breaker} opens (over-frequency stage {stage})"),
         EventKind::LoadStep { section, mw } => {
             format!("load step of {} MW on {section}", fmt(*mw, 2))
         }
@@ -357,6 +361,11 @@ pub fn describe(what: &EventKind) -> String {
         EventKind::Blackout { island } => {
             format!("island {} BLACKOUT: no generator left", island + 1)
         }
+        EventKind::RunBack {
+            stage,
+            generator,
+            mw,
+        } => format!("stage {stage} runs {generator} back by {} MW", fmt(*mw, 2)),
         EventKind::SpeedControl { generator } => {
             format!("{generator} transfers from steam-pressure control to speed control")
         }

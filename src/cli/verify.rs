@@ -185,13 +185,15 @@ pub fn render_table(m: &Matrix, plant: &Plant, scheme: &str, wide: bool) -> Stri
         }
         let cascading: Vec<&Row> = m.rows.iter().filter(|r| !r.cascades.is_empty()).collect();
         if !cascading.is_empty() {
-            out.push_str("Generators tripped by their own protection (cascades):\n");
+            out.push_str(
+                "Generators tripped by their own protection (cascades; each run went on without them):\n",
+            );
             for r in cascading {
                 let text = format!(
                     "{} at {}: {}",
                     r.case,
                     r.operating_point,
-                    r.cascades.join(", ")
+                    r.cascade_causes.join(", ")
                 );
                 out.push_str(&wrap_text(&text, "  ", "    "));
             }

@@ -32,6 +32,7 @@ pub fn nothing_needed(ctx: &Context) -> bool {
         name: String::new(),
         measurement: Measurement::default(),
         stages: Vec::new(),
+        over_frequency: Vec::new(),
     };
     ctx.evaluate_all(&empty)
         .iter()

@@ -65,6 +65,7 @@ pub fn bound(plant: &Plant, case: &Case, op: usize, cfg: &SimConfig) -> Result<B
         name: String::new(),
         measurement: Measurement::default(),
         stages: Vec::new(),
+        over_frequency: Vec::new(),
     };
     let run = |c: &Case| sim::simulate(plant, c, op, &empty, cfg);
     let holds = |c: &Case| verdict_of(plant, c, op, &run(c)) == Verdict::Holds;
@@ -267,6 +268,7 @@ pub fn realisable(
         name: String::new(),
         measurement: Measurement::default(),
         stages: Vec::new(),
+        over_frequency: Vec::new(),
     };
     let run = |c: &Case| sim::simulate(plant, c, op, &empty, cfg);
     let holds = |c: &Case| verdict_of(plant, c, op, &run(c)) == Verdict::Holds;

@@ -265,6 +265,7 @@ pub fn scheme(
         name: name.to_string(),
         measurement,
         stages,
+        over_frequency: Vec::new(),
     }
 }
 

@@ -612,11 +612,47 @@ pub struct SchemeFile {
     pub measurement: Option<RawMeasurement>,
     /// The stages.
     pub stages: Vec<RawStage>,
+    /// Over-frequency stages that trip or run back a named generator (default none).
+    #[serde(default)]
+    pub over_frequency: Vec<RawOverStage>,
     /// Setting groups: each names the operating points at which the relays use it; a stage's
     /// `groups` entries give its settings there. A point in no group uses the settings written on
     /// each stage.
     #[serde(default)]
     pub setting_groups: Vec<RawSettingGroup>,
+}
+
+/// An over-frequency stage: above `above_hz` for `delay_s`, it `trips` a generator or `runs_back`
+/// its output, `breaker_s` after the command. It measures at its generator's section.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawOverStage {
+    /// Stage id (unique among all the scheme's stages).
+    pub id: String,
+    /// Over-frequency pickup, Hz: above nominal.
+    pub above_hz: f64,
+    /// Intentional delay, s.
+    pub delay_s: f64,
+    /// Time from the command to the generator's breaker opening or its run-back taking effect, s
+    /// (default 0.08).
+    #[serde(default)]
+    pub breaker_s: Option<f64>,
+    /// Generator id whose breaker the stage opens.
+    #[serde(default)]
+    pub trips: Option<String>,
+    /// Generator whose output reference the stage lowers, and by how much.
+    #[serde(default)]
+    pub runs_back: Option<RawRunBack>,
+}
+
+/// A run-back: the generator's output reference is lowered by `mw` (not below its `min_mw`).
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawRunBack {
+    /// Generator id.
+    pub generator: String,
+    /// Reduction of the output reference, MW.
+    pub mw: f64,
 }
 
 /// A setting group: its id and the operating points it is in force at.

@@ -9,7 +9,7 @@
 //! scheme that names a load or breaker its plant does not have is written with a placeholder the
 //! reader refuses with a diagnostic.
 
-use crate::model::{Allowance, BreakerRef, Plant, Scheme, Sizing, Stage, StageTrigger};
+use crate::model::{Allowance, BreakerRef, OverAction, Plant, Scheme, Sizing, Stage, StageTrigger};
 use std::borrow::Cow;
 use std::fmt::Write as _;
 
@@ -93,6 +93,32 @@ pub fn scheme_yaml(plant: &Plant, scheme: &Scheme, header: &[String]) -> String 
         out.push_str("# ");
         out.push_str(&comment_text(summary));
         out.push('\n');
+    }
+    if !scheme.over_frequency.is_empty() {
+        out.push_str("\nover_frequency:\n");
+        for o in &scheme.over_frequency {
+            let _ = write!(
+                out,
+                "  - {{ id: {}, above_hz: {}, delay_s: {}, breaker_s: {}, ",
+                scalar(&o.id),
+                number(o.pickup_hz),
+                number(o.delay_s),
+                number(o.breaker_s)
+            );
+            let _ = match o.action {
+                OverAction::Trip { generator } => writeln!(
+                    out,
+                    "trips: {} }}",
+                    scalar(&breaker_id(plant, BreakerRef::Generator(generator)))
+                ),
+                OverAction::RunBack { generator, mw } => writeln!(
+                    out,
+                    "runs_back: {{ generator: {}, mw: {} }} }}",
+                    scalar(&breaker_id(plant, BreakerRef::Generator(generator))),
+                    number(mw)
+                ),
+            };
+        }
     }
     out
 }

@@ -18,6 +18,6 @@ pub use plant::{
     MIN_JUDGED_S,
 };
 pub use scheme::{
-    Allowance, BreakerRef, Candidate, GroupSettings, Measurement, Scheme, SettingGroup, Sizing,
-    Stage, StageTrigger,
+    Allowance, BreakerRef, Candidate, GroupSettings, Measurement, OverAction, OverStage, Scheme,
+    SettingGroup, Sizing, Stage, StageTrigger,
 };

@@ -1,7 +1,8 @@
 //! The shedding scheme: stages with their trigger, intentional delay, breaker time and loads;
 //! the order stages operate in, and the section a frequency stage measures at; how a
 //! breaker-armed stage sized from the pre-event flow picks its loads ([`Stage::flow_pick`]); and
-//! setting groups, the settings a stage has at each operating point ([`Scheme::at_point`]).
+//! setting groups, the settings a stage has at each operating point ([`Scheme::at_point`]); and
+//! the over-frequency stages that trip or run back a named generator.
 
 use super::plant::Plant;
 
@@ -19,9 +20,40 @@ pub struct Scheme {
     pub name: String,
     pub measurement: Measurement,
     pub stages: Vec<Stage>,
+    /// Over-frequency stages, in the scheme file's order.
+    pub over_frequency: Vec<OverStage>,
     /// Setting groups, each switched in at its operating points; empty when every stage has the
     /// same settings everywhere.
     pub groups: Vec<SettingGroup>,
+}
+
+/// An over-frequency stage: when the frequency measured at its generator's section stays above
+/// `pickup_hz` for `delay_s`, it issues its command, and `breaker_s` later the generator's
+/// breaker opens or its output reference is run back.
+#[derive(Debug, Clone, PartialEq)]
+pub struct OverStage {
+    pub id: String,
+    pub pickup_hz: f64,
+    pub delay_s: f64,
+    pub breaker_s: f64,
+    pub action: OverAction,
+}
+
+/// What an over-frequency stage does to its generator (by index).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum OverAction {
+    /// Opens the generator's breaker.
+    Trip { generator: usize },
+    /// Lowers the generator's output reference by `mw` (not below its `min_mw`).
+    RunBack { generator: usize, mw: f64 },
+}
+
+impl OverAction {
+    pub fn generator(&self) -> usize {
+        match *self {
+            OverAction::Trip { generator } | OverAction::RunBack { generator, .. } => generator,
+        }
+    }
 }
 
 /// A named setting group and the operating points (by index) at which the relays use it. A
@@ -153,6 +185,8 @@ impl Scheme {
                 .iter()
                 .filter_map(|s| s.in_group(group))
                 .collect(),
+            // Over-frequency stages have no setting groups: the same at every point.
+            over_frequency: self.over_frequency.clone(),
             groups: Vec::new(),
         }
     }

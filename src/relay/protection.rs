@@ -1,4 +1,5 @@
-//! Definite-time frequency and ROCOF protection of generators and of the utility interface.
+//! Definite-time frequency and ROCOF protection of generators and of the utility interface; the
+//! scheme's over-frequency stages use the same element (pickup above a level, definite delay).
 //!
 //! An element starts timing when its condition holds (measured f below/above its level, or
 //! |measured df/dt| above its level), resets when the condition drops, and operates when it has
@@ -41,7 +42,9 @@ impl Element {
     pub fn condition(&self, sig: &Signal) -> bool {
         match self.trip {
             FrequencyTrip::Under { hz, .. } => sig.frequency_hz < hz,
-            FrequencyTrip::Over { hz, .. } => sig.frequency_hz > hz,
+            // At the level counts as above: a located upward crossing stops on or just past
+            // the level (`sim::integrate` returns the first instant at or beyond it).
+            FrequencyTrip::Over { hz, .. } => sig.frequency_hz >= hz,
             FrequencyTrip::Rocof { hz_per_s, .. } => sig.rocof_hz_per_s.abs() > hz_per_s,
         }
     }

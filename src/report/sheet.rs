@@ -1,6 +1,7 @@
 //! The relay setting sheet: one row per element a site technician sets, from the scheme exactly as
 //! validated — under-frequency pickup and delay, df/dt supervision with its measurement window,
-//! breaker-armed stages with the breaker that arms them — with the loads each stage opens, the MW
+//! breaker-armed stages with the breaker that arms them, over-frequency stages with the generator
+//! they trip or run back — with the loads each stage opens (or the generator it acts on), the MW
 //! that is at each operating point, and blank columns for the as-left value and initials.
 //!
 //! A breaker-armed stage sized from the pre-event flow gets an `allowance` column (its setting)
@@ -13,7 +14,7 @@
 //! report. Setting values are written in Rust's shortest round-trip form (the value read from the
 //! scheme file, `49.2`, not `49.20000000000000284`), so the CSV reads back to the same scheme.
 
-use crate::model::{Allowance, BreakerRef, Plant, Scheme, Sizing, Stage, StageTrigger};
+use crate::model::{Allowance, BreakerRef, OverAction, Plant, Scheme, Sizing, Stage, StageTrigger};
 use std::fmt::Write;
 
 /// What a row sets.
@@ -22,6 +23,7 @@ pub enum Element {
     UnderFrequency,
     DfDtSupervision,
     BreakerArmed,
+    OverFrequency,
 }
 
 impl Element {
@@ -31,6 +33,7 @@ impl Element {
             Element::UnderFrequency => "under-frequency",
             Element::DfDtSupervision => "df/dt supervision",
             Element::BreakerArmed => "breaker-armed",
+            Element::OverFrequency => "over-frequency",
         }
     }
 }
@@ -134,6 +137,49 @@ pub fn sheet(plant: &Plant, scheme: &Scheme) -> Sheet {
                 }),
             }
         }
+    }
+    for o in &scheme.over_frequency {
+        let g = o.action.generator();
+        let gen = &plant.generators[g];
+        let (opens, mw, what) = match o.action {
+            OverAction::Trip { .. } => (
+                format!("generator {} (trip)", gen.id),
+                plant
+                    .operating_points
+                    .iter()
+                    .map(|op| Some(if op.online[g] { op.output_mw[g] } else { 0.0 }))
+                    .collect(),
+                format!("trips generator {}", gen.id),
+            ),
+            OverAction::RunBack { mw, .. } => (
+                format!("generator {} (run back {} MW)", gen.id, setting(mw)),
+                plant
+                    .operating_points
+                    .iter()
+                    .map(|op| Some(if op.online[g] { mw } else { 0.0 }))
+                    .collect(),
+                format!("runs generator {} back by {} MW", gen.id, setting(mw)),
+            ),
+        };
+        rows.push(Row {
+            stage: o.id.clone(),
+            group: String::new(),
+            allowance: None,
+            element: Element::OverFrequency,
+            pickup_hz: Some(o.pickup_hz),
+            armed_by: None,
+            delay_s: Some(o.delay_s),
+            dfdt_fall_hz_per_s: None,
+            dfdt_window_s: None,
+            breaker_s: Some(o.breaker_s),
+            opens: vec![opens],
+            mw,
+            logic: format!(
+                "{what} when above {} Hz for {} s (MW columns: generation it removes)",
+                setting(o.pickup_hz),
+                setting(o.delay_s)
+            ),
+        });
     }
     Sheet {
         plant: plant.name.clone(),

@@ -37,6 +37,15 @@ pub enum Event {
         generator: usize,
         dip: usize,
     },
+    /// An over-frequency stage's delay (started at `timer_s` − delay) runs out.
+    OverDelay {
+        stage: usize,
+        timer_s: f64,
+    },
+    /// An over-frequency stage's command takes effect on its generator.
+    OverAct {
+        stage: usize,
+    },
     /// A pressure-controlled steam machine's transfer to speed control falls due.
     PressureTransfer {
         generator: usize,

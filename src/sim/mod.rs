@@ -290,12 +290,24 @@ pub enum EventKind {
     SpeedControl {
         generator: String,
     },
+    /// An over-frequency stage lowered a generator's output reference by `mw`.
+    RunBack {
+        stage: String,
+        generator: String,
+        mw: f64,
+    },
 }
 
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub enum Cause {
     Case,
-    Protection { element: String },
+    Protection {
+        element: String,
+    },
+    /// An over-frequency stage of the scheme.
+    Stage {
+        stage: String,
+    },
 }
 
 /// Sampled frequencies.

@@ -1,8 +1,8 @@
 //! The settings difference between two shedding tables for one plant: stages added and removed, and
 //! for each stage kept (matched by id) its changed trigger, delay, breaker time, loads, and its
-//! sizing, service and setting groups.
+//! sizing, service and setting groups; and over-frequency stages added, removed or changed.
 
-use crate::model::{Plant, Scheme, Stage, StageTrigger};
+use crate::model::{OverAction, OverStage, Plant, Scheme, Stage, StageTrigger};
 use serde::Serialize;
 
 /// One line of the settings difference.
@@ -10,7 +10,7 @@ use serde::Serialize;
 pub struct SettingChange {
     pub stage: String,
     /// `measurement`, `added`, `removed`, `trigger`, `delay_s`, `breaker_s`, `loads`,
-    /// `sizing and groups`.
+    /// `sizing and groups`, `over-frequency`.
     pub what: &'static str,
     pub old: String,
     pub new: String,
@@ -69,7 +69,53 @@ pub fn diff(plant: &Plant, old: &Scheme, new: &Scheme) -> Vec<SettingChange> {
             });
         }
     }
+    for o in &new.over_frequency {
+        let before = old.over_frequency.iter().find(|b| b.id == o.id);
+        let (was, now) = (
+            before.map(|b| over_summary(plant, b)),
+            over_summary(plant, o),
+        );
+        match was {
+            None => out.push(SettingChange {
+                stage: o.id.clone(),
+                what: "added",
+                old: String::new(),
+                new: now,
+            }),
+            Some(was) if was != now => out.push(SettingChange {
+                stage: o.id.clone(),
+                what: "over-frequency",
+                old: was,
+                new: now,
+            }),
+            Some(_) => {}
+        }
+    }
+    for o in &old.over_frequency {
+        if !new.over_frequency.iter().any(|n| n.id == o.id) {
+            out.push(SettingChange {
+                stage: o.id.clone(),
+                what: "removed",
+                old: over_summary(plant, o),
+                new: String::new(),
+            });
+        }
+    }
     out
+}
+
+/// An over-frequency stage in words: "above 61.20 Hz, 0.200 s, breaker 0.080 s, trips tg-3".
+fn over_summary(plant: &Plant, o: &OverStage) -> String {
+    let what = match o.action {
+        OverAction::Trip { generator } => format!("trips {}", plant.generators[generator].id),
+        OverAction::RunBack { generator, mw } => {
+            format!("runs {} back {mw:.2} MW", plant.generators[generator].id)
+        }
+    };
+    format!(
+        "above {:.2} Hz, {:.3} s, breaker {:.3} s, {what}",
+        o.pickup_hz, o.delay_s, o.breaker_s
+    )
 }
 
 fn compare_stage(plant: &Plant, old: &Stage, new: &Stage, out: &mut Vec<SettingChange>) {
@@ -211,6 +257,7 @@ mod tests {
                 stage("uf-1", 49.0, vec![0, 1]),
                 stage("uf-2", 48.8, vec![2]),
             ],
+            over_frequency: Vec::new(),
         };
         let mut kept = stage("uf-1", 49.1, vec![0, 2]);
         kept.delay_s = 0.3;
@@ -219,6 +266,7 @@ mod tests {
             name: "new".into(),
             measurement: Measurement::default(),
             stages: vec![kept, stage("uf-3", 48.5, vec![1])],
+            over_frequency: Vec::new(),
         };
         let d = diff(&p, &old, &new);
         let kinds: Vec<(&str, &str)> = d.iter().map(|c| (c.stage.as_str(), c.what)).collect();
@@ -245,6 +293,7 @@ mod tests {
             name: "s".into(),
             measurement: Measurement::default(),
             stages: vec![stage("uf-1", 49.0, vec![0])],
+            over_frequency: Vec::new(),
         };
         assert!(diff(&p, &s, &s).is_empty());
     }

@@ -8,7 +8,7 @@ use super::criteria::{judge, Failure, Observed};
 use super::margins::{self, Margins};
 use super::offnominal::{band_times, BandTime};
 use crate::model::{Case, CaseSet, Criteria, Plant, Scheme};
-use crate::sim::{self, EventKind, Run, SimConfig};
+use crate::sim::{self, Cause, EventKind, Run, SimConfig};
 use rayon::prelude::*;
 use serde::Serialize;
 
@@ -54,6 +54,9 @@ pub struct Row {
     pub stages_operated: Vec<String>,
     /// Generators tripped by their own protection.
     pub cascades: Vec<String>,
+    /// The same trips in words: generator, the element that tripped it and when ("tg-3 by
+    /// over-frequency 61.25 Hz / 0.3 s at 1.83 s"); the run went on without the machine.
+    pub cascade_causes: Vec<String>,
     pub failures: Vec<Failure>,
     pub margins: Option<Margins>,
     /// Time each running generator spent in each abnormal frequency band.
@@ -168,6 +171,7 @@ pub fn verify_one(
         },
         stages_operated: stages_operated(&run),
         cascades: cascades(&run),
+        cascade_causes: cascade_causes(&run),
         observed,
         failures,
         margins,
@@ -252,13 +256,34 @@ pub fn disturbance_span(case: &Case) -> (f64, f64) {
 fn stages_operated(run: &Run) -> Vec<String> {
     let mut out: Vec<String> = Vec::new();
     for e in &run.events {
-        if let EventKind::LoadsOpened { stage, .. } = &e.what {
-            if !out.contains(stage) {
-                out.push(stage.clone());
-            }
+        // Shedding stages, and over-frequency stages that tripped or ran back a generator.
+        let stage = match &e.what {
+            EventKind::LoadsOpened { stage, .. } | EventKind::RunBack { stage, .. } => stage,
+            EventKind::BreakerOpened {
+                cause: Cause::Stage { stage },
+                ..
+            } => stage,
+            _ => continue,
+        };
+        if !out.contains(stage) {
+            out.push(stage.clone());
         }
     }
     out
+}
+
+fn cascade_causes(run: &Run) -> Vec<String> {
+    run.events
+        .iter()
+        .filter_map(|e| match &e.what {
+            EventKind::GeneratorTripped {
+                generator,
+                element,
+                cascade: true,
+            } => Some(format!("{generator} by {element} at {:.2} s", e.at_s)),
+            _ => None,
+        })
+        .collect()
 }
 
 fn cascades(run: &Run) -> Vec<String> {

@@ -106,5 +106,6 @@ pub fn scheme(stages: Vec<Stage>, frequency_lag_s: f64) -> Scheme {
             rocof_window_s: 0.1,
         },
         stages,
+        over_frequency: Vec::new(),
     }
 }

@@ -613,6 +613,12 @@ pub fn to_json(x: &CrossCase) -> Value {
         })
         .collect();
     assert!(x.case.utility_profile.is_empty());
+    // Over-frequency stages are outside the reference; tests/over_frequency.rs checks their
+    // instants against closed forms.
+    assert!(
+        x.scheme.over_frequency.is_empty(),
+        "over-frequency stages are outside the scipy reference"
+    );
     json!({
         "id": x.id,
         "f0": p.nominal_hz,

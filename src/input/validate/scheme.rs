@@ -10,7 +10,13 @@
 use super::*;
 
 /// The top-level fields of a scheme file.
-pub(super) const SCHEME_KEYS: &[&str] = &["name", "measurement", "stages", "setting_groups"];
+pub(super) const SCHEME_KEYS: &[&str] = &[
+    "name",
+    "measurement",
+    "stages",
+    "setting_groups",
+    "over_frequency",
+];
 
 /// Highest allowance in MW a flow-sized stage may state: beyond any plant nadir studies (a
 /// larger figure is a unit slip, kW for MW say).
@@ -21,6 +27,8 @@ pub fn scheme(r: &mut Reader, map: &Mapping, plant: &Plant, default_name: &str) 
     let name: Option<String> = r.optional(map, "name");
     let raw_m: Option<RawMeasurement> = r.optional(map, "measurement");
     let list: Option<Vec<Slot<RawStage>>> = r.list(map, "stages", true, limits::STAGES);
+    let over_list: Option<Vec<Slot<RawOverStage>>> =
+        r.list(map, "over_frequency", false, limits::STAGES);
     // As many groups as operating points at most (each point is in one group at most).
     let raw_groups: Option<Vec<Slot<RawSettingGroup>>> =
         r.list(map, "setting_groups", false, limits::OPERATING_POINTS);
@@ -206,6 +214,20 @@ pub fn scheme(r: &mut Reader, map: &Mapping, plant: &Plant, default_name: &str) 
             });
         }
     }
+    let mut over_frequency = Vec::new();
+    for (i, slot) in over_list.unwrap_or_default().iter().enumerate() {
+        let p = FieldPath::root().key("over_frequency").index(i);
+        match slot {
+            Slot::Ok(s) => {
+                ids.add(r, &s.id, stages.len() + i, &p.key("id"), "stage");
+                if let Some(o) = over_stage(r, &p, s, plant) {
+                    over_frequency.push(o);
+                }
+            }
+            Slot::Broken(Some(id)) => ids.add(r, id, stages.len() + i, &p.key("id"), "stage"),
+            Slot::Broken(None) => {}
+        }
+    }
     if r.diagnostics.is_empty() {
         out_of_service_everywhere(r, &stages, &groups, plant);
     }
@@ -213,7 +235,119 @@ pub fn scheme(r: &mut Reader, map: &Mapping, plant: &Plant, default_name: &str) 
         name: name.unwrap_or_else(|| default_name.to_string()),
         measurement,
         stages,
+        over_frequency,
         groups,
+    })
+}
+
+/// One over-frequency stage: a pickup above nominal and below the over-speed level at which a
+/// run stops (1.15·f0), a delay, a breaker time, and exactly one of `trips` or `runs_back` naming
+/// a generator of the plant.
+fn over_stage(r: &mut Reader, p: &FieldPath, s: &RawOverStage, plant: &Plant) -> Option<OverStage> {
+    let f0 = plant.nominal_hz;
+    let pp = p.key("above_hz");
+    let hz = s.above_hz;
+    let ceiling = 1.15 * f0;
+    let hz_ok = if !hz.is_finite() {
+        num(r, &pp, hz, Lo::Any, Hi::Any, " Hz")
+    } else if hz <= f0 {
+        r.error(
+            &pp,
+            format!(
+                "above_hz {} Hz of over-frequency stage `{}` is not above nominal {f0} Hz; it would operate in normal running",
+                mw(hz),
+                s.id
+            ),
+            format!(
+                "allowed: {f0} < above_hz < {} Hz (an under-frequency stage goes under `stages` with pickup_hz)",
+                mw(ceiling)
+            ),
+        );
+        false
+    } else if hz >= ceiling {
+        r.error(
+            &pp,
+            format!(
+                "above_hz {} Hz of over-frequency stage `{}` is at or above {} Hz, the over-speed level at which a run stops; it could never operate",
+                mw(hz),
+                s.id,
+                mw(ceiling)
+            ),
+            format!("allowed: {f0} < above_hz < {} Hz", mw(ceiling)),
+        );
+        false
+    } else {
+        other_nominal(r, &pp, hz, f0);
+        true
+    };
+    let delay_ok = delay(r, &p.key("delay_s"), s.delay_s);
+    let breaker_s = s.breaker_s.unwrap_or(d::BREAKER_S);
+    let breaker_ok = s.breaker_s.is_none()
+        || num(
+            r,
+            &p.key("breaker_s"),
+            breaker_s,
+            Lo::Above(0.0),
+            Hi::AtMost(1.0),
+            " s",
+        );
+    let generators = plant_ids(plant).generators;
+    let resolve = |r: &mut Reader, path: &FieldPath, id: &str| {
+        let g = plant.generator_index(id);
+        if g.is_none() {
+            unknown_id(r, path, "generator", id, &generators);
+        }
+        g
+    };
+    let action = match (&s.trips, &s.runs_back) {
+        (Some(_), Some(_)) | (None, None) => {
+            r.error(
+                p,
+                format!(
+                    "over-frequency stage `{}` needs exactly one of trips or runs_back; it has {}",
+                    s.id,
+                    if s.trips.is_some() { "both" } else { "neither" }
+                ),
+                "write `trips: GENERATOR` to open a generator's breaker, or `runs_back: { generator: GENERATOR, mw: MW }` to lower its output".to_string(),
+            );
+            None
+        }
+        (Some(id), None) => {
+            resolve(r, &p.key("trips"), id).map(|generator| OverAction::Trip { generator })
+        }
+        (None, Some(rb)) => {
+            let g = resolve(r, &p.key("runs_back").key("generator"), &rb.generator);
+            let mp = p.key("runs_back").key("mw");
+            let mw_ok = num(r, &mp, rb.mw, Lo::Above(0.0), Hi::Any, " MW");
+            match g {
+                Some(g) if mw_ok && rb.mw > plant.generators[g].max_mw => {
+                    r.error(
+                        &mp,
+                        format!(
+                            "runs_back.mw {} MW is more than generator `{}`'s max_mw {} MW",
+                            mw(rb.mw),
+                            plant.generators[g].id,
+                            mw(plant.generators[g].max_mw)
+                        ),
+                        "a run-back lowers the output by at most its whole range; to take the machine off, write `trips` instead".to_string(),
+                    );
+                    None
+                }
+                Some(generator) if mw_ok => Some(OverAction::RunBack {
+                    generator,
+                    mw: rb.mw,
+                }),
+                _ => None,
+            }
+        }
+    };
+    let action = action?;
+    (hz_ok && delay_ok && breaker_ok).then(|| OverStage {
+        id: s.id.clone(),
+        pickup_hz: hz,
+        delay_s: s.delay_s,
+        breaker_s,
+        action,
     })
 }
 
@@ -596,6 +730,7 @@ fn out_of_service_everywhere(
         name: String::new(),
         measurement: Measurement::default(),
         stages: Vec::new(),
+        over_frequency: Vec::new(),
         groups: groups.to_vec(),
     };
     for (i, stage) in stages.iter().enumerate() {

@@ -479,7 +479,8 @@ fn add_lines(plot: &mut Plot, plant: &Plant, r: &RunAt, several: bool, events_s:
     }
 }
 
-/// The shed of one run, its armed-stage trips and its cascade trips.
+/// The shed of one run, its armed-stage trips, its cascade trips and its over-frequency stages'
+/// actions.
 fn add_shed_and_marks(plot: &mut Plot, scheme: &Scheme, r: &RunAt, style: usize, several: bool) {
     let mut line = ShedLine {
         style,
@@ -529,6 +530,24 @@ fn add_shed_and_marks(plot: &mut Plot, scheme: &Scheme, r: &RunAt, style: usize,
             } => plot.events.push(EventMark {
                 at_s: e.at_s,
                 label: format!("{generator} tripped by own protection{suffix}"),
+                style: Some(style),
+            }),
+            // Over-frequency stages act on generators, not loads: marked, not in the shed line.
+            EventKind::BreakerOpened {
+                breaker,
+                cause: Cause::Stage { stage },
+            } => plot.events.push(EventMark {
+                at_s: e.at_s,
+                label: format!("{stage} trips {breaker}{suffix}"),
+                style: Some(style),
+            }),
+            EventKind::RunBack {
+                stage,
+                generator,
+                mw,
+            } => plot.events.push(EventMark {
+                at_s: e.at_s,
+                label: format!("{stage} runs {generator} back {} MW{suffix}", trim(*mw)),
                 style: Some(style),
             }),
             _ => {}

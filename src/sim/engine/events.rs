@@ -4,7 +4,7 @@
 
 use super::{Dip, Engine};
 use crate::dynamics::load;
-use crate::model::{Action, BreakerRef, Candidate, Sizing, StageTrigger};
+use crate::model::{Action, BreakerRef, Candidate, OverAction, Sizing, StageTrigger};
 use crate::relay::stage::{StageAction, StageState};
 use crate::sim::event::Event;
 use crate::sim::rhs::{machine_power_mw, speed_index, SegmentEquations};
@@ -102,6 +102,38 @@ impl Engine<'_> {
                     );
                 }
             }
+            Event::OverDelay { stage, timer_s } => {
+                if self.over[stage].expired(timer_s).is_some() {
+                    let o = &self.scheme.over_frequency[stage];
+                    let id = o.id.clone();
+                    self.queue
+                        .push(self.t + o.breaker_s.max(0.0), Event::OverAct { stage });
+                    self.log(EventKind::StageTripCommand { stage: id });
+                }
+            }
+            Event::OverAct { stage } => {
+                let o = &self.scheme.over_frequency[stage];
+                let stage = o.id.clone();
+                match o.action {
+                    OverAction::Trip { generator } => {
+                        self.open_breaker(BreakerRef::Generator(generator), Cause::Stage { stage })
+                    }
+                    OverAction::RunBack { generator, mw } => {
+                        if self.cond.machine_on[generator] {
+                            let gov = &mut self.eq.machines[generator].governor;
+                            let before = gov.p_ref_mw;
+                            gov.p_ref_mw = (before - mw).max(gov.limits.min_mw.min(before));
+                            let mw = before - gov.p_ref_mw;
+                            let generator = self.plant.generators[generator].id.clone();
+                            self.log(EventKind::RunBack {
+                                stage,
+                                generator,
+                                mw,
+                            });
+                        }
+                    }
+                }
+            }
             Event::PressureTransfer { generator } => {
                 let isl = self.cond.island_of_section[self.plant.generators[generator].section];
                 let pressure = &mut self.eq.machines[generator].governor.pressure;
@@ -152,6 +184,7 @@ impl Engine<'_> {
                 let (element, cascade) = match &cause {
                     Cause::Case => ("case action".to_string(), false),
                     Cause::Protection { element } => (element.clone(), true),
+                    Cause::Stage { stage } => (format!("over-frequency stage {stage}"), false),
                 };
                 self.log(EventKind::BreakerOpened {
                     breaker: generator.clone(),

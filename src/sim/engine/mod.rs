@@ -26,7 +26,7 @@ use super::rhs::{
 };
 use super::{EventKind, IslandEnd, LoggedEvent, Run, SimConfig, StopReason};
 use crate::dynamics::governor::Governor;
-use crate::model::{Case, Plant, Scheme};
+use crate::model::{Case, FrequencyTrip, Plant, Scheme};
 use crate::relay::protection::Element;
 use crate::relay::stage::StageRelay;
 use crate::topology::{BreakerState, Island};
@@ -105,6 +105,8 @@ struct Engine<'a> {
     fault: Option<StopReason>,
     /// By machine: a pressure-controlled machine's transfer is scheduled or done.
     transfer_set: Vec<bool>,
+    /// The scheme's over-frequency stages as definite-time elements at their generator's section.
+    over: Vec<Element>,
 }
 
 impl<'a> Engine<'a> {
@@ -237,6 +239,17 @@ impl<'a> Engine<'a> {
             first_failure: None,
             fault: None,
             transfer_set: vec![false; plant.generators.len()],
+            over: scheme
+                .over_frequency
+                .iter()
+                .map(|o| {
+                    let trip = FrequencyTrip::Over {
+                        hz: o.pickup_hz,
+                        after_s: o.delay_s,
+                    };
+                    Element::new(trip, plant.generators[o.action.generator()].section)
+                })
+                .collect(),
         };
         e.adopt_islands(islands);
         e.start_in_speed_control();

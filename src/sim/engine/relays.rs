@@ -104,6 +104,28 @@ impl Engine<'_> {
                 }
             }
         }
+        for j in 0..self.over.len() {
+            let g = self.scheme.over_frequency[j].action.generator();
+            let s = self.over[j].section;
+            if !self.cond.machine_on[g] || self.frozen[s] {
+                continue;
+            }
+            let stage = self.scheme.over_frequency[j].id.clone();
+            match self.over[j].update(self.t, &sig[s]) {
+                Some(ElementAction::Started { expires_s }) => {
+                    self.log(EventKind::StagePickup { stage });
+                    self.queue.push(
+                        expires_s,
+                        Event::OverDelay {
+                            stage: j,
+                            timer_s: expires_s,
+                        },
+                    );
+                }
+                Some(ElementAction::Reset) => self.log(EventKind::StageReset { stage }),
+                _ => {}
+            }
+        }
         let floor = self.cfg.collapse_fraction - 1.0;
         let ceiling = self.cfg.overspeed_pu();
         for i in 0..self.islands.len() {

@@ -33,11 +33,15 @@ impl Engine<'_> {
                 && els
                     .iter()
                     .any(|e| matches!(e.state, ElementState::Timing { .. }))
-        }) || (self.breakers.utility_closed
-            && self
-                .iface
-                .iter()
-                .any(|e| matches!(e.state, ElementState::Timing { .. })));
+        }) || self
+            .over
+            .iter()
+            .any(|e| matches!(e.state, ElementState::Timing { .. }))
+            || (self.breakers.utility_closed
+                && self
+                    .iface
+                    .iter()
+                    .any(|e| matches!(e.state, ElementState::Timing { .. })));
         if timing {
             return false;
         }
@@ -120,6 +124,12 @@ impl Engine<'_> {
         if self.breakers.utility_closed {
             self.iface.iter().for_each(|e| e.guards(&mut rg));
         }
+        for (j, e) in self.over.iter().enumerate() {
+            let g = self.scheme.over_frequency[j].action.generator();
+            if self.cond.machine_on[g] && !self.frozen[e.section] {
+                e.guards(&mut rg);
+            }
+        }
         let mut out: Vec<StateGuard> = rg
             .iter()
             .map(|g| match g.quantity {
@@ -153,7 +163,16 @@ impl Engine<'_> {
 /// The tight step cap: the configured one, and below half the shortest stage delay, stage
 /// breaker time or protection time of the run so that no relay sequence fits inside one step.
 pub(super) fn tight_step(plant: &Plant, scheme: &Scheme, configured_s: f64) -> f64 {
-    let stage_times = scheme.stages.iter().flat_map(|s| [s.delay_s, s.breaker_s]);
+    let stage_times = scheme
+        .stages
+        .iter()
+        .flat_map(|s| [s.delay_s, s.breaker_s])
+        .chain(
+            scheme
+                .over_frequency
+                .iter()
+                .flat_map(|o| [o.delay_s, o.breaker_s]),
+        );
     let trip_time = |t: &crate::model::FrequencyTrip| match *t {
         crate::model::FrequencyTrip::Under { after_s, .. }
         | crate::model::FrequencyTrip::Over { after_s, .. }

@@ -9,7 +9,10 @@
 
 pub mod rank;
 
-use crate::model::{Allowance, BreakerRef, CaseSet, Plant, Scheme, Sizing, Stage, StageTrigger};
+use crate::model::{
+    Allowance, BreakerRef, CaseSet, FrequencyTrip, OverAction, Plant, Scheme, Sizing, Stage,
+    StageTrigger,
+};
 use serde::Serialize;
 
 /// The rules a table is held to. Defaults are common practice, no source; the plant sets its own.
@@ -79,9 +82,10 @@ pub struct OrderedStage {
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Finding {
     /// A short stable name. Violations: `rank-order`, `unassigned-lower-rank`, `never-shed`,
-    /// `spacing`, `above-normal-band`. Notes: `empty-at-point`, `several-stages`, `measured-elsewhere`,
-    /// `df/dt-supervised`, `flow-sized` (what a stage sized from the pre-event flow opens),
-    /// `never-armed` (an armed stage no case exercises).
+    /// `spacing`, `above-normal-band`, `over-frequency-above-max`, `over-frequency-after-protection`.
+    /// Notes: `empty-at-point`, `several-stages`, `measured-elsewhere`, `df/dt-supervised`,
+    /// `flow-sized` (what a stage sized from the pre-event flow opens), `never-armed` (an armed
+    /// stage no case exercises), `over-frequency` (what an over-frequency stage does).
     pub rule: &'static str,
     /// The finding in words, naming stages, loads, events and values.
     pub message: String,
@@ -202,6 +206,7 @@ pub fn audit_cases(
     several_stages(plant, scheme, &order_idx, &mut notes);
     empty_at_points(plant, scheme, &order_idx, &mut notes);
     unarmed(plant, scheme, cases, &order_idx, &mut notes);
+    over_frequency(plant, scheme, &mut violations, &mut notes);
     Audit {
         operating_points: plant
             .operating_points
@@ -421,6 +426,58 @@ fn spacing(scheme: &Scheme, order: &[usize], rules: &AuditRules, out: &mut Vec<F
     }
 }
 
+/// Over-frequency stages: each is stated as a note (it sheds no load, so rank order does not
+/// concern it); one that picks up at or above the maximum-frequency criterion cannot keep
+/// frequency within it, and one with a generator's own over-frequency protection set at or below
+/// its pickup leaves that protection to act first (common practice, no source: protection
+/// coordination puts the scheme's action before the machines' own trips).
+fn over_frequency(
+    plant: &Plant,
+    scheme: &Scheme,
+    violations: &mut Vec<Finding>,
+    notes: &mut Vec<Finding>,
+) {
+    let max_hz = plant.criteria.max_hz;
+    for o in &scheme.over_frequency {
+        let target = &plant.generators[o.action.generator()].id;
+        let what = match o.action {
+            OverAction::Trip { .. } => format!("trips generator {target}"),
+            OverAction::RunBack { mw, .. } => format!("runs generator {target} back by {mw:.2} MW"),
+        };
+        notes.push(Finding {
+            rule: "over-frequency",
+            message: format!(
+                "stage {} {what} when above {:.2} Hz for {:.2} s (breaker {:.2} s); it sheds no load and is not part of the rank order",
+                o.id, o.pickup_hz, o.delay_s, o.breaker_s
+            ),
+        });
+        if o.pickup_hz >= max_hz - 1e-9 {
+            violations.push(Finding {
+                rule: "over-frequency-above-max",
+                message: format!(
+                    "stage {} picks up at {:.2} Hz, at or above the {:.2} Hz maximum-frequency criterion it should keep frequency below",
+                    o.id, o.pickup_hz, max_hz
+                ),
+            });
+        }
+        for gen in &plant.generators {
+            for trip in &gen.trips {
+                if let FrequencyTrip::Over { hz, after_s } = *trip {
+                    if hz <= o.pickup_hz + 1e-9 {
+                        violations.push(Finding {
+                            rule: "over-frequency-after-protection",
+                            message: format!(
+                                "generator {}'s own over-frequency trip (above {:.2} Hz after {:.2} s) picks up at or below stage {}'s {:.2} Hz; the machine's protection, not the stage, would act first",
+                                gen.id, hz, after_s, o.id, o.pickup_hz
+                            ),
+                        });
+                    }
+                }
+            }
+        }
+    }
+}
+
 fn normal_band(scheme: &Scheme, rules: &AuditRules, out: &mut Vec<Finding>) {
     for stage in &scheme.stages {
         if let StageTrigger::Frequency { pickup_hz, .. } = stage.trigger {
@@ -507,6 +564,7 @@ mod tests {
             name: "t".into(),
             measurement: Measurement::default(),
             stages,
+            over_frequency: Vec::new(),
         }
     }
 
