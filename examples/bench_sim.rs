@@ -2,7 +2,7 @@
 //! examples/biorefinery, repeated to at least 1000 runs, replayed serially and with rayon.
 //!
 //! `cargo run --release --example bench_sim [-- RUNS]` prints runs per second and µs per run
-//! for each, with and without the sampled trace, and checks that every run gives the same
+//! for each, with and without the sampled trace, the ratio of the two on one core, and checks that every run gives the same
 //! result whichever thread count replayed it (a benchmark, not a timed test).
 
 use nadir::input::{load_cases, load_plant, load_scheme};
@@ -34,7 +34,8 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
         set.len(),
         jobs.len()
     );
-    for record_trace in [false, true] {
+    let mut serial_us = [0.0f64; 2];
+    for (k, record_trace) in [false, true].into_iter().enumerate() {
         let cfg = SimConfig {
             record_trace,
             ..SimConfig::default()
@@ -55,6 +56,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
                 .chunks(set.len())
                 .all(|chunk| chunk == one_thread.as_slice());
         let n = jobs.len() as f64;
+        serial_us[k] = 1e6 * t_serial / n;
         println!(
             "record_trace {record_trace:5}: serial {:9.0} runs/s ({:7.1} µs/run); rayon {:9.0} runs/s ({:7.1} µs/run); identical across thread counts: {identical}",
             n / t_serial,
@@ -66,6 +68,13 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
             return Err("results differ between thread counts".into());
         }
     }
+    println!(
+        "one core: {:.1} µs/run without the trace, {:.1} µs/run with it; the trace costs {:.2}× \
+         (ratio measured in this invocation)",
+        serial_us[0],
+        serial_us[1],
+        serial_us[1] / serial_us[0]
+    );
     let cfg = SimConfig::default();
     println!("per run (record_trace false):");
     for &(c, op) in &set {

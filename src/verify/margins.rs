@@ -11,7 +11,7 @@
 
 use super::matrix::passes;
 use crate::model::{Action, BreakerRef, Case, CaseEvent, Criteria, Plant, Scheme};
-use crate::sim::{self, SimConfig};
+use crate::sim::{self, Run, SimConfig};
 use serde::Serialize;
 
 /// Largest disturbance factor searched.
@@ -62,7 +62,21 @@ pub fn search(
     scheme: &Scheme,
     config: &SimConfig,
 ) -> Margins {
-    let holds_as_is = passes(plant, case, &sim::simulate(plant, case, op, scheme, config));
+    let base = sim::simulate(plant, case, op, scheme, config);
+    search_from(plant, case, op, scheme, config, &base)
+}
+
+/// [`search`] starting from the case's own run as written, `base`, simulated with the same
+/// `config` (verify has it already, so the search does not run it again).
+pub fn search_from(
+    plant: &Plant,
+    case: &Case,
+    op: usize,
+    scheme: &Scheme,
+    config: &SimConfig,
+    base: &Run,
+) -> Margins {
+    let holds_as_is = passes(plant, case, base);
     if !holds_as_is {
         let scalable = has_scalable_event(case);
         return Margins {

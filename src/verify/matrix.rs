@@ -147,7 +147,8 @@ pub fn verify_one(
         });
     }
     let margins = if config.margins {
-        let m = margins::search(plant, case, op, scheme, &sim_config);
+        // The base run is the one above: the search starts from it instead of running it again.
+        let m = margins::search_from(plant, case, op, scheme, &sim_config, &run);
         failures.extend(margins::judge_required(&m, &plant.criteria));
         Some(m)
     } else {

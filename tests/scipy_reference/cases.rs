@@ -749,6 +749,16 @@ pub fn python() -> String {
 
 /// Write the cases, run `python3 reference.py in out`, read the results.
 pub fn run_reference(xs: &[CrossCase], tag: &str) -> Result<ReferenceOutput, ReferenceError> {
+    run_reference_with(xs, tag, &[])
+}
+
+/// [`run_reference`] with the script's solver settings replaced: `[METHOD, RTOL, ATOL,
+/// MAX_STEP_S]` (empty: the reference's own).
+pub fn run_reference_with(
+    xs: &[CrossCase],
+    tag: &str,
+    solver: &[&str],
+) -> Result<ReferenceOutput, ReferenceError> {
     let probe = Command::new(python())
         .args([
             "-c",
@@ -779,6 +789,7 @@ pub fn run_reference(xs: &[CrossCase], tag: &str) -> Result<ReferenceOutput, Ref
         .arg(script_dir().join("reference.py"))
         .arg(&input)
         .arg(&output)
+        .args(solver)
         .output()
         .map_err(|e| ReferenceError::Failed(e.to_string()))?;
     if !o.status.success() {

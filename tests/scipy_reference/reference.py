@@ -1,7 +1,11 @@
 #!/usr/bin/env python3
 """Independent reference for nadir's simulator, written from docs/models.md with scipy.
 
-Usage: python3 reference.py cases.json results.json
+Usage: python3 reference.py cases.json results.json [METHOD RTOL ATOL MAX_STEP_S]
+
+The optional solver settings replace the reference's own (DOP853, 1e-9, 1e-11, 0.02 s); the
+cross-check never passes them. examples/bench_vs_scipy.rs passes `RK45 1e-6 1e-9 0.5`, a plain
+solve_ivp at nadir's own tolerances, to compare speed and agreement at equal tolerances.
 
 It integrates the equations of docs/models.md (swing equation per island, exponential loads,
 governors with non-windup limits, relay measurement lags, shedding stages, generator frequency
@@ -58,6 +62,7 @@ import time
 import numpy as np
 from scipy.integrate import solve_ivp
 
+METHOD = "DOP853"
 RTOL = 1e-9
 ATOL = 1e-11
 MAX_STEP_S = 0.02
@@ -523,7 +528,7 @@ class Sim:
                 fn.terminal = False
                 events.append(fn)
                 turning.append(s)
-        sol = solve_ivp(self.rhs, (self.t, t_next), self.y, method="DOP853", rtol=RTOL, atol=ATOL,
+        sol = solve_ivp(self.rhs, (self.t, t_next), self.y, method=METHOD, rtol=RTOL, atol=ATOL,
                         max_step=MAX_STEP_S, events=events or None)
         self.segments += 1
         if sol.status < 0:
@@ -588,8 +593,12 @@ class Sim:
 
 
 def main():
-    if len(sys.argv) != 3:
-        sys.exit("usage: reference.py cases.json results.json")
+    global METHOD, RTOL, ATOL, MAX_STEP_S
+    if len(sys.argv) not in (3, 7):
+        sys.exit("usage: reference.py cases.json results.json [METHOD RTOL ATOL MAX_STEP_S]")
+    if len(sys.argv) == 7:
+        METHOD = sys.argv[3]
+        RTOL, ATOL, MAX_STEP_S = (float(a) for a in sys.argv[4:7])
     with open(sys.argv[1]) as f:
         cases = json.load(f)["cases"]
     start = time.perf_counter()
