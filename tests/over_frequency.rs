@@ -466,3 +466,14 @@ fn compare_names_over_frequency_stages_added_changed_and_removed() {
         .iter()
         .any(|c| c.stage == "of-2" && c.what == "removed"));
 }
+
+#[test]
+fn check_states_each_over_frequency_stage_below_its_table() {
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
+    let plant = nadir::input::load_plant(&root.join("examples/canemill/plant.yaml")).unwrap();
+    let scheme = nadir::input::load_scheme(&root.join("schemes/canemill.yaml"), &plant).unwrap();
+    let figs = nadir::screening::screen_scheme(&plant, &scheme);
+    assert!(figs.notes.contains(
+        &"of-1 (over-frequency, not in the table) runs generator tg-1 back by 2.5 MW when above 60.8 Hz for 0.1 s, breaker 0.1 s".to_string()
+    ), "{:#?}", figs.notes);
+}

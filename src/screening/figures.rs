@@ -188,7 +188,8 @@ pub struct SchemeFigures {
     /// In order of operation: armed stages first, then frequency stages by falling pickup.
     pub stages: Vec<StageFigures>,
     /// What the table's figures do not show, in words: a stage sized from the pre-event flow (its
-    /// MW is the most it opens) and a stage's settings in each setting group.
+    /// MW is the most it opens), a stage's settings in each setting group, and each over-frequency
+    /// stage with what it does to its generator.
     pub notes: Vec<String>,
 }
 

@@ -42,7 +42,7 @@ mod state;
 pub use closed::{initial_rocof_hz_per_s, steady_state};
 pub use figures::*;
 
-use crate::model::{Allowance, CaseSet, Plant, Scheme, Sizing, StageTrigger, Start};
+use crate::model::{Allowance, CaseSet, OverAction, Plant, Scheme, Sizing, StageTrigger, Start};
 use crate::topology::islands;
 use state::{breaker_id, island_figures, profile_figures, state_figures, State};
 
@@ -279,6 +279,19 @@ fn scheme_notes(plant: &Plant, scheme: &Scheme) -> Vec<String> {
                 st.id
             ));
         }
+    }
+    for o in &scheme.over_frequency {
+        let g = o.action.generator();
+        let what = match o.action {
+            OverAction::Trip { .. } => format!("trips generator {}", plant.generators[g].id),
+            OverAction::RunBack { mw, .. } => {
+                format!("runs generator {} back by {mw} MW", plant.generators[g].id)
+            }
+        };
+        out.push(format!(
+            "{} (over-frequency, not in the table) {what} when above {} Hz for {} s, breaker {} s",
+            o.id, o.pickup_hz, o.delay_s, o.breaker_s
+        ));
     }
     out
 }
