@@ -302,7 +302,7 @@ pub fn describe(what: &EventKind) -> String {
             loads,
         } => {
             let what = if loads.is_empty() {
-                "will open nothing".to_string()
+                "nothing to open, no trip".to_string()
             } else {
                 format!("will open {}", loads.join(", "))
             };

@@ -199,6 +199,23 @@ impl Engine<'_> {
             }
         }
         for i in 0..self.stages.len() {
+            // A flow-sized stage with nothing to cover (the plant exported, or the allowance
+            // covers the flow) issues no trip command at all.
+            let pick = picks.iter().find(|p| p.0 == i);
+            if let Some((_, loads, flow_mw, allowance_mw)) = pick.filter(|p| p.1.is_empty()) {
+                self.stages[i].state = StageState::Done;
+                let stage = self.scheme.stages[i].id.clone();
+                self.log(EventKind::StageSized {
+                    stage,
+                    flow_mw: *flow_mw,
+                    allowance_mw: *allowance_mw,
+                    loads: loads
+                        .iter()
+                        .map(|&l| self.plant.loads[l].id.clone())
+                        .collect(),
+                });
+                continue;
+            }
             if let Some(StageAction::PickedUp { expires_s }) =
                 self.stages[i].breaker_opened(self.t, br)
             {
@@ -206,7 +223,7 @@ impl Engine<'_> {
                 self.log(EventKind::StagePickup {
                     stage: stage.clone(),
                 });
-                if let Some((_, loads, flow_mw, allowance_mw)) = picks.iter().find(|p| p.0 == i) {
+                if let Some((_, loads, flow_mw, allowance_mw)) = pick {
                     self.log(EventKind::StageSized {
                         stage,
                         flow_mw: *flow_mw,
