@@ -3,7 +3,7 @@
 //!
 //! The exponent k is the one of P = P0·(f/f0)^k (∂P/∂f in per unit). The component values are
 //! Kundur, *Power System Stability and Control* (1994), Table 7.1, as reproduced in the NPTEL
-//! lecture notes "Load characteristics" (a secondary source); resistive heating is from memory of
+//! course notes "Load characteristics" (a secondary source); resistive heating is from memory of
 //! the same class of tables; constant power is common practice with no published source. Names are
 //! matched after [`normalise`]: case, spaces, hyphens and underscores do not matter.
 
