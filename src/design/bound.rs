@@ -97,28 +97,14 @@ pub fn bound(plant: &Plant, case: &Case, op: usize, cfg: &SimConfig) -> Result<B
             continue;
         }
         let room = 1.0 - used;
-        // Too little relief fails low, too much overshoots: scan for the first amount that holds,
-        // then bisect between it and the scan point before.
-        let first = (total > 0.0)
-            .then(|| (1..=SCAN).find(|&j| holds(&trial(room * j as f64 / SCAN as f64))))
+        let found = (total > 0.0)
+            .then(|| least_holding(room, total, |f| holds(&trial(f))))
             .flatten();
-        let Some(j) = first else {
+        let Some(good) = found else {
             return Err(shortfall(
                 plant, case, op, cfg, &sheddable, total, &placed, t, room, &empty, upto,
             ));
         };
-        let (mut bad, mut good) = (
-            room * (j - 1) as f64 / SCAN as f64,
-            room * j as f64 / SCAN as f64,
-        );
-        while (good - bad) * total > RESOLUTION_MW {
-            let mid = 0.5 * (bad + good);
-            if holds(&trial(mid)) {
-                good = mid;
-            } else {
-                bad = mid;
-            }
-        }
         placed.push((t, good));
         used += good;
     }
@@ -316,23 +302,9 @@ pub fn realisable(
             return ideal_mw;
         };
         let room = 1.0 - used;
-        let trial = |fraction: f64| base(Some((at, fraction)));
-        let first = (1..=SCAN).find(|&j| holds(&trial(room * j as f64 / SCAN as f64)));
-        let Some(j) = first else {
+        let Some(good) = least_holding(room, total, |f| holds(&base(Some((at, f))))) else {
             return ideal_mw;
         };
-        let (mut bad, mut good) = (
-            room * (j - 1) as f64 / SCAN as f64,
-            room * j as f64 / SCAN as f64,
-        );
-        while (good - bad) * total > RESOLUTION_MW {
-            let mid = 0.5 * (bad + good);
-            if holds(&trial(mid)) {
-                good = mid;
-            } else {
-                bad = mid;
-            }
-        }
         placed.push((at, good));
         used += good;
     }
@@ -442,4 +414,25 @@ fn sheddable_by_section(
             (s, mw)
         })
         .collect()
+}
+
+/// The least fraction of `room` (a share of `total` MW) whose relief holds, to [`RESOLUTION_MW`].
+/// Too little relief fails low and too much overshoots, so holding is not monotone over the whole
+/// range: scan for the first of [`SCAN`] amounts that holds, then bisect between it and the scan
+/// point before. `None` when no scanned amount holds.
+fn least_holding(room: f64, total: f64, holds_at: impl Fn(f64) -> bool) -> Option<f64> {
+    let j = (1..=SCAN).find(|&j| holds_at(room * j as f64 / SCAN as f64))?;
+    let (mut bad, mut good) = (
+        room * (j - 1) as f64 / SCAN as f64,
+        room * j as f64 / SCAN as f64,
+    );
+    while (good - bad) * total > RESOLUTION_MW {
+        let mid = 0.5 * (bad + good);
+        if holds_at(mid) {
+            good = mid;
+        } else {
+            bad = mid;
+        }
+    }
+    Some(good)
 }
