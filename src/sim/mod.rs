@@ -10,6 +10,9 @@ pub mod event;
 pub mod integrate;
 mod record;
 pub mod rhs;
+mod trajectory;
+
+pub use trajectory::Trajectory;
 
 use crate::model::{Case, Plant, Scheme};
 use serde::Serialize;
@@ -163,7 +166,23 @@ pub struct Run {
     pub shed_mw: f64,
     /// Load dropped by its own undervoltage release during a dip, MW at nominal frequency.
     pub dropped_mw: f64,
+    /// The sampled trace, kept when [`SimConfig::record_trace`] asks for it.
     pub trace: Option<Trace>,
+    /// The run's path (knots and dense output): criteria read the sample grid from it without
+    /// the trace, and [`Run::sampled_trace`] builds the trace from it on request.
+    #[serde(skip)]
+    pub trajectory: Trajectory,
+}
+
+impl Run {
+    /// The sampled trace: the one kept by the run, or built now from its trajectory (same
+    /// values).
+    pub fn sampled_trace(&self) -> std::borrow::Cow<'_, Trace> {
+        match &self.trace {
+            Some(t) => std::borrow::Cow::Borrowed(t),
+            None => std::borrow::Cow::Owned(self.trajectory.trace()),
+        }
+    }
 }
 
 /// One island over its lifetime (an island is new whenever its sections or its utility
