@@ -114,7 +114,7 @@ impl Recorder {
                 let (da, db) = (da[iw], db[iw]);
                 if da * db < 0.0 {
                     let minimum = da < 0.0;
-                    let (t, v) = golden(&seg, iw, ta, tb, minimum);
+                    let (t, v) = extremum(&seg, iw, (ta, ya[iw], da), (tb, yb[iw], db), minimum);
                     let hz = self.hz(v);
                     self.candidates[s].push((t, hz));
                     self.path.knots[s].push((t, hz));
@@ -302,6 +302,45 @@ impl Samples<'_> {
         }
         best
     }
+}
+
+/// The extremum of component `i` inside the step (a, b), whose end values and slopes are given:
+/// Newton's method on the dense output's slope, started at the stationary point of the step's
+/// Hermite cubic; the slope and curvature are central differences of the dense output (a
+/// polynomial inside the step, so they are exact to rounding). Falls back to golden-section
+/// search when Newton leaves the step, meets the wrong curvature or does not settle.
+fn extremum(
+    seg: &Segment,
+    i: usize,
+    (a, ya, da): (f64, f64, f64),
+    (b, yb, db): (f64, f64, f64),
+    minimum: bool,
+) -> (f64, f64) {
+    let h = b - a;
+    let sign = if minimum { 1.0 } else { -1.0 };
+    let f = |t: f64| sign * seg.component_at(t, i);
+    let start = super::integrate::hermite_stationary(h, ya, da, yb, db);
+    if let Some(theta) = start {
+        let delta = (1e-4 * h).clamp(1e-9, 1e-5);
+        let mut t = a + theta * h;
+        for _ in 0..8 {
+            let (lo, mid, hi) = (f(t - delta), f(t), f(t + delta));
+            let curvature = (hi - 2.0 * mid + lo) / (delta * delta);
+            if curvature.partial_cmp(&0.0) != Some(std::cmp::Ordering::Greater) {
+                break;
+            }
+            let step = -((hi - lo) / (2.0 * delta)) / curvature;
+            let next = t + step;
+            if !(next > a && next < b) {
+                break;
+            }
+            t = next;
+            if step.abs() < 1e-8 {
+                return (t, seg.component_at(t, i));
+            }
+        }
+    }
+    golden(seg, i, a, b, minimum)
 }
 
 /// Golden-section search for the extremum of component `i` on [a, b].

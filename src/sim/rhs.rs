@@ -219,9 +219,9 @@ impl SegmentEquations {
         for m in &self.machines {
             let xs = &y[m.offset..m.offset + m.n];
             let dw = y[m.speed];
-            m.governor
-                .derivatives(dw, xs, &mut dy[m.offset..m.offset + m.n]);
-            pm[m.island] += m.governor.power_mw(dw, xs);
+            pm[m.island] +=
+                m.governor
+                    .derivatives_and_power(dw, xs, &mut dy[m.offset..m.offset + m.n]);
         }
         for (i, isl) in self.islands.iter().enumerate() {
             let dw_dt = match isl.mode {
