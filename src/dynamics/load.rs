@@ -21,24 +21,65 @@ pub fn power_mw(p0_mw: f64, freq_exp: f64, delta_omega_pu: f64, v_sq: f64) -> f6
 
 /// `(f/f0)^k` for a speed ratio `ratio = f/f0 ≥ 0`.
 pub fn frequency_factor(ratio: f64, freq_exp: f64) -> f64 {
-    if freq_exp == 0.0 {
-        1.0
-    } else if freq_exp == 1.0 {
-        ratio
-    } else if freq_exp == 2.0 {
-        ratio * ratio
-    } else if (2.0 * freq_exp).fract() == 0.0 && freq_exp.abs() <= MAX_SHORT_EXPONENT {
-        let whole = freq_exp.trunc();
-        let v = ratio.powi(whole as i32);
-        if freq_exp == whole {
-            v
-        } else if freq_exp > 0.0 {
-            v * ratio.sqrt()
+    Exponent::of(freq_exp).factor(ratio)
+}
+
+/// A frequency exponent sorted once by how its power is computed (per segment, not per call).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Exponent {
+    /// k = 0, 1 or 2.
+    Zero,
+    One,
+    Two,
+    /// An integer or half-integer within ±[`MAX_SHORT_EXPONENT`]: `r^whole`, times `√r` (half
+    /// 1), divided by it (half −1) or neither (half 0).
+    Short { whole: i32, half: i8 },
+    /// Any other exponent: `powf`.
+    General(f64),
+}
+
+impl Exponent {
+    pub fn of(k: f64) -> Exponent {
+        if k == 0.0 {
+            Exponent::Zero
+        } else if k == 1.0 {
+            Exponent::One
+        } else if k == 2.0 {
+            Exponent::Two
+        } else if (2.0 * k).fract() == 0.0 && k.abs() <= MAX_SHORT_EXPONENT {
+            let whole = k.trunc();
+            let half = if k == whole {
+                0
+            } else if k > 0.0 {
+                1
+            } else {
+                -1
+            };
+            Exponent::Short {
+                whole: whole as i32,
+                half,
+            }
         } else {
-            v / ratio.sqrt()
+            Exponent::General(k)
         }
-    } else {
-        ratio.powf(freq_exp)
+    }
+
+    /// `ratio^k`.
+    pub fn factor(self, ratio: f64) -> f64 {
+        match self {
+            Exponent::Zero => 1.0,
+            Exponent::One => ratio,
+            Exponent::Two => ratio * ratio,
+            Exponent::Short { whole, half } => {
+                let v = ratio.powi(whole);
+                match half {
+                    0 => v,
+                    1 => v * ratio.sqrt(),
+                    _ => v / ratio.sqrt(),
+                }
+            }
+            Exponent::General(k) => ratio.powf(k),
+        }
     }
 }
 

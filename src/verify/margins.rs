@@ -88,13 +88,19 @@ pub fn search_from(
             model_error_pct: Margin::FailsAsIs,
         };
     }
+    // A probe stops as soon as a separated island falls below the minimum frequency: it fails
+    // then whatever follows, and only pass or fail is asked of it.
+    let probe = SimConfig {
+        stop_below_hz: Some(plant.criteria.min_hz),
+        ..*config
+    };
     let disturbance_factor = if has_scalable_event(case) {
         bisect(1.0, MAX_DISTURBANCE_FACTOR, FACTOR_RESOLUTION, |k| {
             let grown = grow_disturbance(plant, case, op, k);
             passes(
                 plant,
                 &grown,
-                &sim::simulate(plant, &grown, op, scheme, config),
+                &sim::simulate(plant, &grown, op, scheme, &probe),
             )
         })
     } else {
@@ -105,7 +111,7 @@ pub fn search_from(
         passes(
             &weaker,
             case,
-            &sim::simulate(&weaker, case, op, scheme, config),
+            &sim::simulate(&weaker, case, op, scheme, &probe),
         )
     });
     Margins {
