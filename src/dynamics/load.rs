@@ -33,7 +33,10 @@ pub enum Exponent {
     Two,
     /// An integer or half-integer within ±[`MAX_SHORT_EXPONENT`]: `r^whole`, times `√r` (half
     /// 1), divided by it (half −1) or neither (half 0).
-    Short { whole: i32, half: i8 },
+    Short {
+        whole: i32,
+        half: i8,
+    },
     /// Any other exponent: `powf`.
     General(f64),
 }

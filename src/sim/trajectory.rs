@@ -139,7 +139,9 @@ impl Trajectory {
 
     /// Frequency of `section` at grid point `k`, Hz: the value the trace holds there.
     pub fn grid_hz(&self, section: usize, k: usize) -> f64 {
-        let dw = self.path.component_at(self.grid_time(k), speed_index(section));
+        let dw = self
+            .path
+            .component_at(self.grid_time(k), speed_index(section));
         self.path.nominal_hz * (1.0 + dw)
     }
 

@@ -328,7 +328,14 @@ impl Governor {
 
     /// Derivatives of the isochronous integral and the headers' extra (the states after the
     /// model's own `n`).
-    fn tail_derivatives(&self, delta_omega_pu: f64, x: &[f64], dx: &mut [f64], lim: &Limits, n: usize) {
+    fn tail_derivatives(
+        &self,
+        delta_omega_pu: f64,
+        x: &[f64],
+        dx: &mut [f64],
+        lim: &Limits,
+        n: usize,
+    ) {
         if self.isochronous {
             let z = x[n];
             let d = if self.in_speed_control() {
