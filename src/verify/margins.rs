@@ -8,6 +8,10 @@
 //!   (machines and motor loads) and every load frequency exponent is lower than written.
 //!
 //! Voltage dips and bus-tie openings have no single ΔP; their disturbance margin is not applicable.
+//!
+//! The searches start from the row's own run. A probe is simulated with
+//! [`SimConfig::stop_below_hz`] at the criteria's minimum frequency: once a separated island falls
+//! below it the probe fails whatever follows, so its run stops there.
 
 use super::matrix::passes;
 use crate::model::{Action, BreakerRef, Case, CaseEvent, Criteria, Plant, Scheme};
