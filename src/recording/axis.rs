@@ -37,7 +37,8 @@ pub fn check(
                 line,
                 format!(
                     "{at}: the time {} s {how} ({} s); times must increase strictly",
-                    w[1], w[0]
+                    num(w[1]),
+                    num(w[0])
                 ),
                 "check that the rows are in time order and that the time column has enough \
                  digits for the sampling rate (a rate of 10 kHz needs times to 0.1 ms)"
@@ -53,15 +54,19 @@ pub fn check(
         if step > limit {
             let (line, at) = place(i + 1);
             let rule = match max_step_s {
-                Some(_) => format!("the largest allowed step {limit} s"),
-                None => format!("1.5 times the record's usual step of {} s", limit / 1.5),
+                Some(_) => format!("the largest allowed step {} s", num(limit)),
+                None => format!(
+                    "1.5 times the record's usual step of {} s",
+                    num(limit / 1.5)
+                ),
             };
             return Err(refuse(
                 file,
                 line,
                 format!(
-                    "{at}: a sampling gap of {step} s after the time {} s, above {rule}",
-                    w[0]
+                    "{at}: a sampling gap of {} s after the time {} s, above {rule}",
+                    num(step),
+                    num(w[0])
                 ),
                 "samples are missing here: cut the record before the gap, or, if the recorder \
                  samples unevenly on purpose, allow the largest step you expect (the max-step \
@@ -71,6 +76,21 @@ pub fn check(
         }
     }
     Ok(())
+}
+
+/// A time for messages: nine significant digits at most, so that 0.001999999999999995 reads
+/// 0.002.
+pub fn num(x: f64) -> String {
+    if x == 0.0 || !x.is_finite() {
+        return format!("{x}");
+    }
+    let digits = (8 - x.abs().log10().floor() as i32).clamp(0, 15) as usize;
+    let s = format!("{x:.digits$}");
+    if s.contains('.') {
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        s
+    }
 }
 
 /// The median step of an axis with at least two samples.
@@ -102,7 +122,7 @@ mod tests {
         lost.remove(50);
         let e = check("r.csv", &lost, None, &place).unwrap_err().to_string();
         assert!(
-            e.contains("r.csv:51: row 51: a sampling gap of 0.002"),
+            e.contains("r.csv:52: row 52: a sampling gap of 0.002 s after the time 0.049 s, above 1.5 times the record's usual step of 0.001 s"),
             "{e}"
         );
         assert!(check("r.csv", &lost, Some(0.0025), &place).is_ok());
