@@ -129,15 +129,15 @@ pub const MIN_DEPARTURE_HZ: f64 = 0.02;
 pub const NOISE_SIGMAS: f64 = 6.0;
 /// Smoothing of the onset search, seconds (one cycle at 50 Hz).
 pub const ONSET_SMOOTH_S: f64 = 0.02;
-/// Stretch before the crossing over which the local slope is taken, seconds.
+/// Stretch after the crossing over which the departure's slope is taken, seconds.
 pub const SLOPE_S: f64 = 0.05;
 
 /// The onset of the disturbance in a record: the pre-event level is the median of the first
 /// [`PRE_EVENT_S`]; noise σ is 1.4826 × the median absolute deviation there (the MAD estimate of
 /// a normal σ: Rousseeuw & Croux, JASA 88 (1993) 1273); the event is the first time the curve,
 /// smoothed over [`ONSET_SMOOTH_S`], leaves the level by more than max([`MIN_DEPARTURE_HZ`],
-/// [`NOISE_SIGMAS`]·σ), moved back along its slope over the preceding [`SLOPE_S`] to where it
-/// left the level. `None` when the record has too little before the event or never leaves it.
+/// [`NOISE_SIGMAS`]·σ), moved back to the level along a least-squares line through the samples of
+/// the [`SLOPE_S`] after that crossing. `None` when the record has too little before the event or never leaves it.
 pub fn onset(t_s: &[f64], hz: &[f64]) -> Option<Onset> {
     let t0 = *t_s.first()?;
     let pre: Vec<f64> = t_s
@@ -157,12 +157,28 @@ pub fn onset(t_s: &[f64], hz: &[f64]) -> Option<Onset> {
         .iter()
         .enumerate()
         .position(|(k, f)| t_s[k] >= t0 + PRE_EVENT_S && (f - level).abs() > threshold)?;
+    // A least-squares line through the raw samples of the SLOPE_S after the crossing, followed
+    // back to the level: exact for a straight departure, and free of the smoothing's lead.
     let t_k = t_s[k];
-    let back = interpolate(t_s, &smooth, t_k - SLOPE_S);
-    let slope = (smooth[k] - back) / SLOPE_S;
+    let after: Vec<(f64, f64)> = t_s
+        .iter()
+        .zip(hz)
+        .filter(|(t, _)| **t >= t_k && **t <= t_k + SLOPE_S)
+        .map(|(t, f)| (*t, *f))
+        .collect();
     let mut at = t_k;
-    if slope.abs() > 0.0 && slope.signum() == (smooth[k] - level).signum() {
-        at = t_k - (smooth[k] - level) / slope;
+    if after.len() >= 3 {
+        let n = after.len() as f64;
+        let mt = after.iter().map(|p| p.0).sum::<f64>() / n;
+        let mf = after.iter().map(|p| p.1).sum::<f64>() / n;
+        let sxy: f64 = after.iter().map(|p| (p.0 - mt) * (p.1 - mf)).sum();
+        let sxx: f64 = after.iter().map(|p| (p.0 - mt) * (p.0 - mt)).sum();
+        if sxx > 0.0 {
+            let slope = sxy / sxx;
+            if slope != 0.0 && slope.signum() == (smooth[k] - level).signum() {
+                at = mt - (mf - level) / slope;
+            }
+        }
     }
     Some(Onset {
         at_s: at.clamp(t0, t_k),
