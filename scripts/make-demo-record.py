@@ -181,6 +181,9 @@ def main():
     noisy = hz + rng.normal(0.0, a.noise_hz, n)
     quantised = np.round(noisy / QUANTUM_HZ) * QUANTUM_HZ
     with open(a.out, "w", newline="\n") as f:
+        f.write("# FICTIONAL frequency record of an islanding at the FICTIONAL Marsh Hollow Biorefinery\n"
+                "# demo (bus section mv-a, full rate, utility breaker opens at 1.000 s). Made by\n"
+                "# scripts/make-demo-record.py with the scipy reference model, not a real event.\n")
         f.write("time_s,frequency_hz\n")
         for t, v in zip(t_rec, quantised):
             f.write(f"{t:.3f},{v:.3f}\n")
