@@ -47,7 +47,11 @@ fn fit_two(record: &Path) -> (f64, f64, fit::FitResult) {
     let (t, f) = read_csv(record);
     let onset = calibrate::figures::onset(&t, &f).expect("an onset in the record");
     // The script opens the utility breaker at 1.000 s of the record.
-    assert!((onset.at_s - 1.0).abs() <= 0.010, "onset at {} s", onset.at_s);
+    assert!(
+        (onset.at_s - 1.0).abs() <= 0.010,
+        "onset at {} s",
+        onset.at_s
+    );
     let recorded = calibrate::align(&t, &f, onset.at_s, case).unwrap();
     let setup = Setup::new(&plant, case, 0, &scheme, 0);
     let ps = vec![
@@ -195,11 +199,22 @@ fn the_verb_writes_a_calibrated_plant_that_reads_back_with_notes() {
         .filter(|l| l.id == "hammer-mill-1")
         .all(|l| (l.freq_exp - 1.6).abs() < 0.1));
     let svg = std::fs::read_to_string(&plot).unwrap();
-    for needle in ["record", "model (plant file)", "model (fitted)", "event in the record"] {
+    for needle in [
+        "record",
+        "model (plant file)",
+        "model (fitted)",
+        "event in the record",
+    ] {
         assert!(svg.contains(needle), "{needle:?} not in the plot");
     }
     // The input plant file is never a target.
-    let r = nadir(&demo_args(&["--fit", "inertia_s:stg-1=1..10", "-o", PLANT, "--force"]));
+    let r = nadir(&demo_args(&[
+        "--fit",
+        "inertia_s:stg-1=1..10",
+        "-o",
+        PLANT,
+        "--force",
+    ]));
     assert_eq!(r.code, 2, "{}", r.stderr);
 }
 
@@ -211,15 +226,30 @@ fn bad_fit_requests_exit_2_with_the_fix() {
         ("inertia_s:stg-1=10..1", "is not below upper bound"),
         ("inertia_s:stg-1", "no bounds"),
         ("inertia_s:stg-1=1..x", "bound `x` is not a number"),
-        ("inertia_s:stg-1=0..10", "leave the range the plant file accepts"),
+        (
+            "inertia_s:stg-1=0..10",
+            "leave the range the plant file accepts",
+        ),
         ("damping:stg-1=0..2", "unknown parameter kind `damping`"),
-        ("freq_exp:stg-1=0..4", "`stg-1` is a generator; freq_exp belongs to loads"),
-        ("turbine_s:bge-1=0.1..2", "has no turbine_s (its prime mover is engine)"),
+        (
+            "freq_exp:stg-1=0..4",
+            "`stg-1` is a generator; freq_exp belongs to loads",
+        ),
+        (
+            "turbine_s:bge-1=0.1..2",
+            "has no turbine_s (its prime mover is engine)",
+        ),
         ("freq_exp:@9=0..4", "no load in"),
     ] {
         let r = nadir(&demo_args(&["--fit", request]));
         assert_eq!(r.code, 2, "{request}: {}", r.stderr);
-        assert!(r.stderr.contains(&format!("--fit {}", request.split('=').next().unwrap())) || r.stderr.contains(&format!("--fit {request}")), "{request}: {}", r.stderr);
+        assert!(
+            r.stderr
+                .contains(&format!("--fit {}", request.split('=').next().unwrap()))
+                || r.stderr.contains(&format!("--fit {request}")),
+            "{request}: {}",
+            r.stderr
+        );
         assert!(r.stderr.contains(expected), "{request}: {}", r.stderr);
         assert!(r.stderr.contains("help:"), "{request}: {}", r.stderr);
     }
@@ -233,8 +263,18 @@ fn bad_fit_requests_exit_2_with_the_fix() {
     assert!(r.stderr.contains("already sets"), "{}", r.stderr);
     let r = nadir(&demo_args(&["--section", "mv-z"]));
     assert_eq!(r.code, 2);
-    assert!(r.stderr.contains("sections are: mv-a, mv-b"), "{}", r.stderr);
+    assert!(
+        r.stderr.contains("sections are: mv-a, mv-b"),
+        "{}",
+        r.stderr
+    );
     let r = nadir(&demo_args(&["--event-at", "99"]));
     assert_eq!(r.code, 2);
-    assert!(r.stderr.contains("the record runs from 0 s to 21 s") || r.stderr.contains("the record runs from 0.000 s to 21.000 s"), "{}", r.stderr);
+    assert!(
+        r.stderr.contains("the record runs from 0 s to 21 s")
+            || r.stderr
+                .contains("the record runs from 0.000 s to 21.000 s"),
+        "{}",
+        r.stderr
+    );
 }

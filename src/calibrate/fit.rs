@@ -294,11 +294,13 @@ fn stop_words(t: &levenberg_marquardt::TerminationReason) -> String {
     use levenberg_marquardt::TerminationReason as T;
     match t {
         T::Converged { .. } => "converged (the step and the residual stopped changing)".into(),
-        T::Orthogonal => "converged (the residual is orthogonal to every parameter's effect)".into(),
+        T::Orthogonal => {
+            "converged (the residual is orthogonal to every parameter's effect)".into()
+        }
         T::ResidualsZero => "converged (zero residual)".into(),
-        T::LostPatience => format!(
-            "NOT converged: stopped after {PATIENCE} evaluations per parameter"
-        ),
+        T::LostPatience => {
+            format!("NOT converged: stopped after {PATIENCE} evaluations per parameter")
+        }
         T::User(_) => "NOT converged: a replay did not run to its end".into(),
         T::Numerical(what) => format!("NOT converged: a non-finite {what}"),
         T::NoImprovementPossible(what) => {
@@ -333,7 +335,11 @@ mod tests {
     #[test]
     fn t_quantiles_match_the_table() {
         for (nu, t) in [(5.0, 2.571), (10.0, 2.228), (30.0, 2.042), (100.0, 1.984)] {
-            assert!((t_quantile_975(nu) - t).abs() < 2e-3, "{nu}: {}", t_quantile_975(nu));
+            assert!(
+                (t_quantile_975(nu) - t).abs() < 2e-3,
+                "{nu}: {}",
+                t_quantile_975(nu)
+            );
         }
     }
 

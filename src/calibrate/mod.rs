@@ -56,8 +56,7 @@ impl<'a> Setup<'a> {
         scheme: &'a Scheme,
         section: usize,
     ) -> Setup<'a> {
-        let config =
-            crate::verify::matrix::sim_config_for(plant, &SimConfig::default());
+        let config = crate::verify::matrix::sim_config_for(plant, &SimConfig::default());
         Setup {
             plant,
             case,
@@ -82,7 +81,11 @@ pub fn case_event_s(case: &Case) -> f64 {
 #[derive(Debug, Clone, PartialEq)]
 pub enum AlignError {
     /// Fewer than ten samples fall inside the case's time once aligned.
-    TooFewSamples { inside: usize, from_s: f64, to_s: f64 },
+    TooFewSamples {
+        inside: usize,
+        from_s: f64,
+        to_s: f64,
+    },
 }
 
 /// The record (`times_s`, `hz`, on its own axis) shifted so that `event_at_s` falls on the

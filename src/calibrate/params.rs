@@ -239,7 +239,11 @@ pub fn parse(request: &str, plant: &Plant, plant_file: &str) -> Result<Parameter
     };
     if targets.is_empty() {
         return Err(err(
-            format!("no load in {plant_file} has {} {}", kind.field(), &target[1..]),
+            format!(
+                "no load in {plant_file} has {} {}",
+                kind.field(),
+                &target[1..]
+            ),
             "write @VALUE with a value the plant file uses, or name a load".into(),
         ));
     }

@@ -79,7 +79,10 @@ pub fn run(args: CalibrateArgs) -> anyhow::Result<Outcome> {
             .map(|e| e.to_string_lossy().to_lowercase())
             .unwrap_or_default();
         if !matches!(ext.as_str(), "yaml" | "yml") {
-            bail!("{}: --output writes a plant file; name it .yaml", path.display());
+            bail!(
+                "{}: --output writes a plant file; name it .yaml",
+                path.display()
+            );
         }
     }
     if let Some(t) = args.event_at {
@@ -142,7 +145,11 @@ pub fn run(args: CalibrateArgs) -> anyhow::Result<Outcome> {
                     .iter()
                     .map(|&o| plant.operating_points[o].id.as_str())
                     .collect();
-                bail!("--at {id}: case {} applies to {}", case.id, names.join(", "))
+                bail!(
+                    "--at {id}: case {} applies to {}",
+                    case.id,
+                    names.join(", ")
+                )
             }
         },
     };
@@ -178,9 +185,13 @@ pub fn run(args: CalibrateArgs) -> anyhow::Result<Outcome> {
         }
     }
     let (event_at, event_how) = event_time(&args, &record)?;
-    let recorded = calibrate::align(&record.times_s, &record.frequency_hz, event_at, case).map_err(
-        |e| match e {
-            calibrate::AlignError::TooFewSamples { inside, from_s, to_s } => anyhow::anyhow!(
+    let recorded = calibrate::align(&record.times_s, &record.frequency_hz, event_at, case)
+        .map_err(|e| match e {
+            calibrate::AlignError::TooFewSamples {
+                inside,
+                from_s,
+                to_s,
+            } => anyhow::anyhow!(
                 "{}: only {inside} sample(s) lie within the case once the event is placed at {} s \
                  (the case covers {} s to {} s of the record); check --event-at and that the \
                  record is of this event",
@@ -189,8 +200,7 @@ pub fn run(args: CalibrateArgs) -> anyhow::Result<Outcome> {
                 fmt(from_s, 3),
                 fmt(to_s, 3)
             ),
-        },
-    )?;
+        })?;
     let setup = Setup::new(&plant, case, op, &scheme, section);
     let window = plant.criteria.rocof_window_s;
     let before = calibrate::replay_at(&setup, &plant, &recorded.t_s).map_err(|status| {
@@ -209,7 +219,11 @@ pub fn run(args: CalibrateArgs) -> anyhow::Result<Outcome> {
         point.id,
         args.record.display()
     );
-    out.push_str(&record_lines(&record, &recorded, &plant.sections[section].id));
+    out.push_str(&record_lines(
+        &record,
+        &recorded,
+        &plant.sections[section].id,
+    ));
     out.push_str(&format!(
         "  event            {} s on the record's axis ({event_how}), placed at case time {} s\n\n",
         fmt(event_at, 3),
@@ -244,7 +258,9 @@ pub fn run(args: CalibrateArgs) -> anyhow::Result<Outcome> {
     if let (Some(target), Some((result, _))) = (&output_target, &fitted) {
         if result.converged {
             let text = calibrated_text(&args, &requested, result, event_at)?;
-            target.write(text.as_bytes()).context("writing the calibrated plant file")?;
+            target
+                .write(text.as_bytes())
+                .context("writing the calibrated plant file")?;
             out.push_str(&format!(
                 "\nCalibrated plant file written to {}. Check it with `nadir check {}`, then verify \
                  the table on it: nadir verify {} {} --cases {}\n",
@@ -395,7 +411,11 @@ fn figures_table(before: &Comparison, after: Option<&Comparison>, window: f64) -
     let rows: [(String, Pick, usize); 4] = [
         ("nadir Hz".into(), |f| f.nadir_hz, 3),
         ("nadir at s".into(), |f| f.nadir_at_s, 2),
-        (format!("max ROCOF Hz/s over {} s", fmt(window, 2)), |f| f.max_rocof_hz_per_s, 2),
+        (
+            format!("max ROCOF Hz/s over {} s", fmt(window, 2)),
+            |f| f.max_rocof_hz_per_s,
+            2,
+        ),
         ("settling value Hz".into(), |f| f.settling_hz, 3),
     ];
     for (name, pick, d) in rows {

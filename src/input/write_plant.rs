@@ -143,14 +143,14 @@ pub fn plant_with_values(
     changes.sort_by(|a, b| (b.line, b.col).cmp(&(a.line, a.col)));
     let mut notes: Vec<(usize, String)> = Vec::new();
     for c in &changes {
-        let indent: String = lines[c.line]
-            .chars()
-            .take_while(|ch| *ch == ' ')
-            .collect();
+        let indent: String = lines[c.line].chars().take_while(|ch| *ch == ' ').collect();
         if c.col == usize::MAX {
             lines.insert(c.line + 1, c.insert.clone());
             // The new key's own line carries its note above it.
-            notes.push((c.line + 1, format!("{}# {}", " ".repeat(leading(&c.insert)), c.note)));
+            notes.push((
+                c.line + 1,
+                format!("{}# {}", " ".repeat(leading(&c.insert)), c.note),
+            ));
             continue;
         }
         let mut chars: Vec<char> = lines[c.line].chars().collect();
@@ -276,7 +276,9 @@ mod tests {
         assert!(out.contains("  # the main set\n"));
         assert!(out.contains("    # fitted 3.25\n    inertia_s: 3.25   # nadir-ok: X\n"));
         assert!(out.contains("turbine_s: 0.8 }"));
-        assert!(out.contains("  # fitted 1.75\n  - { id: l1, section: a, p_mw: 5, rank: 1, freq_exp: 1.75 }"));
+        assert!(out.contains(
+            "  # fitted 1.75\n  - { id: l1, section: a, p_mw: 5, rank: 1, freq_exp: 1.75 }"
+        ));
         assert!(out.contains("- { id: l2, section: a, p_mw: 0.1, rank: 2, inertia_s: 0.5 }"));
         let plant = super::super::parse_plant(&out, "p.yaml").unwrap();
         assert_eq!(plant.generators[0].inertia_s, 3.25);

@@ -10,14 +10,23 @@ use crate::report::thin;
 /// Adds the record (`t_s` on the case's time axis, `hz`) as the first line of `plot` (drawn in
 /// the first style; the runs' lines move one style along), and a mark at `event_at_s` (case
 /// time) labelled `event_label`.
-pub fn add_record(plot: &mut Plot, label: &str, t_s: &[f64], hz: &[f64], event_at_s: f64, event_label: &str) {
+pub fn add_record(
+    plot: &mut Plot,
+    label: &str,
+    t_s: &[f64],
+    hz: &[f64],
+    event_at_s: f64,
+    event_label: &str,
+) {
     let axis = &plot.axis;
     let inside: Vec<usize> = (0..t_s.len())
         .filter(|&k| t_s[k] >= 0.0 && t_s[k] <= axis.duration_s && hz[k].is_finite())
         .collect();
     let t: Vec<f64> = inside.iter().map(|&k| t_s[k]).collect();
     let f: Vec<f64> = inside.iter().map(|&k| hz[k]).collect();
-    let kept = thin::keep(&t, &[&f], &[event_at_s], 0.05, COLUMNS, |x| axis.position(x));
+    let kept = thin::keep(&t, &[&f], &[event_at_s], 0.05, COLUMNS, |x| {
+        axis.position(x)
+    });
     let points: Vec<(f64, f64)> = kept.iter().map(|&k| (t[k], f[k])).collect();
     for l in &mut plot.lines {
         l.style += 1;
