@@ -246,7 +246,7 @@ pub fn number(v: f64) -> String {
 mod tests {
     use super::*;
 
-    const PLANT: &str = "plant: { name: t, nominal_hz: 50 }\nsections: [a]\ngenerators:\n  # the main set\n  - id: g1\n    section: a\n    rating_mva: 10\n    inertia_s: 4.5   # nadir-ok: X\n    output_mw: 5\n    min_mw: 1\n    max_mw: 9\n    governor: { model: steam, droop_pct: 4, governor_s: 0.3, turbine_s: 0.5 }\nloads:\n  - { id: l1, section: a, p_mw: 5, rank: 1, freq_exp: 2.5 }\n  - { id: l2, section: a, p_mw: 0.1, rank: 2 }\noperating_points:\n  - id: op\n";
+    const PLANT: &str = "plant: { name: t, nominal_hz: 50 }\nsections: [a]\ngenerators:\n  # the main set\n  - id: g1\n    section: a\n    rating_mva: 10\n    inertia_s: 4.5   # nadir-ok: inertia-range\n    output_mw: 5\n    min_mw: 1\n    max_mw: 9\n    governor: { model: steam, droop_pct: 4, governor_s: 0.3, turbine_s: 0.5 }\nloads:\n  - { id: l1, section: a, p_mw: 4.9, rank: 1, freq_exp: 2.5 }\n  - { id: l2, section: a, p_mw: 0.1, rank: 2 }\noperating_points:\n  - id: op\n";
 
     fn edit(list: &'static str, index: usize, keys: Vec<&'static str>, value: f64) -> ValueEdit {
         ValueEdit {
@@ -274,10 +274,10 @@ mod tests {
         .unwrap();
         assert!(out.starts_with("# calibrated\n#\nplant:"));
         assert!(out.contains("  # the main set\n"));
-        assert!(out.contains("    # fitted 3.25\n    inertia_s: 3.25   # nadir-ok: X\n"));
+        assert!(out.contains("    # fitted 3.25\n    inertia_s: 3.25   # nadir-ok: inertia-range\n"));
         assert!(out.contains("turbine_s: 0.8 }"));
         assert!(out.contains(
-            "  # fitted 1.75\n  - { id: l1, section: a, p_mw: 5, rank: 1, freq_exp: 1.75 }"
+            "  # fitted 1.75\n  - { id: l1, section: a, p_mw: 4.9, rank: 1, freq_exp: 1.75 }"
         ));
         assert!(out.contains("- { id: l2, section: a, p_mw: 0.1, rank: 2, inertia_s: 0.5 }"));
         let plant = super::super::parse_plant(&out, "p.yaml").unwrap();
