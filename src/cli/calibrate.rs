@@ -184,6 +184,21 @@ pub fn run(args: CalibrateArgs) -> anyhow::Result<Outcome> {
             );
         }
     }
+    // A record of another system (60 Hz against a 50 Hz plant) or in another unit (per unit,
+    // mHz of deviation) is refused before any comparison: its level is far from the plant's.
+    let mut sorted = record.frequency_hz.clone();
+    sorted.sort_by(f64::total_cmp);
+    if let Some(&median) = sorted.get(sorted.len() / 2) {
+        if (median - plant.nominal_hz).abs() > 0.1 * plant.nominal_hz {
+            bail!(
+                "{}: the record's frequency is mostly near {} Hz, far from the plant's nominal {} Hz; \
+                 check that the channel holds frequency in Hz (--channel) and that the record is of this plant",
+                args.record.display(),
+                fmt(median, 3),
+                fmt(plant.nominal_hz, 0)
+            );
+        }
+    }
     let (event_at, event_how) = event_time(&args, &record)?;
     let recorded = calibrate::align(&record.times_s, &record.frequency_hz, event_at, case)
         .map_err(|e| match e {
