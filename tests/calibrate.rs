@@ -278,3 +278,50 @@ fn bad_fit_requests_exit_2_with_the_fix() {
         r.stderr
     );
 }
+
+/// `nadir report --record`: the report gets a section with record and model side by side, the
+/// record is listed among the inputs with its SHA-256, and the record may not be the output.
+#[test]
+fn the_report_has_a_section_on_the_recorded_event() {
+    let out = out_dir().join("report.html");
+    let o = out.to_str().unwrap();
+    let r = nadir(&[
+        "report",
+        PLANT,
+        SCHEME,
+        "--cases",
+        CASES,
+        "-o",
+        o,
+        "--force",
+        "--record",
+        RECORD,
+        "--case",
+        "utility-loss",
+    ]);
+    assert!(r.code == 0 || r.code == 1, "{}", r.stderr);
+    let html = std::fs::read_to_string(&out).unwrap();
+    for needle in [
+        "<section id=\"record\">",
+        "Model against a recorded event",
+        "record-utility-loss.csv",
+        "settling value Hz",
+        "event in the record",
+        "href=\"#record\"",
+    ] {
+        assert!(html.contains(needle), "{needle:?} not in the report");
+    }
+    let r = nadir(&[
+        "report",
+        PLANT,
+        SCHEME,
+        "--cases",
+        CASES,
+        "-o",
+        o,
+        "--force",
+        "--case",
+        "utility-loss",
+    ]);
+    assert_eq!(r.code, 2, "--case without --record is a usage error");
+}

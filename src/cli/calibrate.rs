@@ -85,11 +85,6 @@ pub fn run(args: CalibrateArgs) -> anyhow::Result<Outcome> {
             );
         }
     }
-    if let Some(t) = args.event_at {
-        if !t.is_finite() {
-            bail!("--event-at {t}: give the event time as a finite number of seconds on the record's axis");
-        }
-    }
     let outputs: Vec<&Path> = [&args.output, &args.plot]
         .into_iter()
         .flatten()
@@ -122,100 +117,23 @@ pub fn run(args: CalibrateArgs) -> anyhow::Result<Outcome> {
         requested.push(params::parse(r, &plant, &plant_file).map_err(anyhow::Error::msg)?);
     }
     params::check_disjoint(&requested).map_err(anyhow::Error::msg)?;
-    let Some(case) = cases.cases.iter().find(|c| c.id == args.case) else {
-        let known: Vec<&str> = cases.cases.iter().map(|c| c.id.as_str()).collect();
-        bail!(
-            "--case {}: no such case in {}; cases are: {}",
-            args.case,
-            args.cases.display(),
-            known.join(", ")
-        );
-    };
-    let op = match &args.at {
-        None => case.applies_to[0],
-        Some(id) => match case
-            .applies_to
-            .iter()
-            .find(|&&o| plant.operating_points[o].id == *id)
-        {
-            Some(&o) => o,
-            None => {
-                let names: Vec<&str> = case
-                    .applies_to
-                    .iter()
-                    .map(|&o| plant.operating_points[o].id.as_str())
-                    .collect();
-                bail!(
-                    "--at {id}: case {} applies to {}",
-                    case.id,
-                    names.join(", ")
-                )
-            }
+    let ev = recorded_event(
+        &EventRequest {
+            record: &args.record,
+            channel: args.channel.as_deref(),
+            case: &args.case,
+            at: args.at.as_deref(),
+            section: args.section.as_deref(),
+            event_at: args.event_at,
+            plant_file: &args.plant,
+            cases_file: &args.cases,
         },
-    };
-    let section = match &args.section {
-        None => 0,
-        Some(id) => match plant.sections.iter().position(|s| s.id == *id) {
-            Some(s) => s,
-            None => {
-                let names: Vec<&str> = plant.sections.iter().map(|s| s.id.as_str()).collect();
-                bail!(
-                    "--section {id}: no such section in {}; sections are: {}",
-                    args.plant.display(),
-                    names.join(", ")
-                )
-            }
-        },
-    };
-    let options = ReadOptions {
-        channel: args.channel.clone(),
-        ..ReadOptions::default()
-    };
-    let record = recording::read_frequency_record(&args.record, &options)
-        .with_context(|| format!("reading record {}", args.record.display()))?;
-    if let Some(f0) = record.nominal_hz {
-        if (f0 - plant.nominal_hz).abs() > 1e-6 {
-            bail!(
-                "{}: the record states a {} Hz system and {} a {} Hz plant; give the record of this plant",
-                args.record.display(),
-                fmt(f0, 0),
-                args.plant.display(),
-                fmt(plant.nominal_hz, 0)
-            );
-        }
-    }
-    // A record of another system (60 Hz against a 50 Hz plant) or in another unit (per unit,
-    // mHz of deviation) is refused before any comparison: its level is far from the plant's.
-    let mut sorted = record.frequency_hz.clone();
-    sorted.sort_by(f64::total_cmp);
-    if let Some(&median) = sorted.get(sorted.len() / 2) {
-        if (median - plant.nominal_hz).abs() > 0.1 * plant.nominal_hz {
-            bail!(
-                "{}: the record's frequency is mostly near {} Hz, far from the plant's nominal {} Hz; \
-                 check that the channel holds frequency in Hz (--channel) and that the record is of this plant",
-                args.record.display(),
-                fmt(median, 3),
-                fmt(plant.nominal_hz, 0)
-            );
-        }
-    }
-    let (event_at, event_how) = event_time(&args, &record)?;
-    let recorded = calibrate::align(&record.times_s, &record.frequency_hz, event_at, case)
-        .map_err(|e| match e {
-            calibrate::AlignError::TooFewSamples {
-                inside,
-                from_s,
-                to_s,
-            } => anyhow::anyhow!(
-                "{}: only {inside} sample(s) lie within the case once the event is placed at {} s \
-                 (the case covers {} s to {} s of the record); check --event-at and that the \
-                 record is of this event",
-                args.record.display(),
-                fmt(event_at, 3),
-                fmt(from_s, 3),
-                fmt(to_s, 3)
-            ),
-        })?;
+        &plant,
+        &cases,
+    )?;
+    let (case, op, section) = (&cases.cases[ev.case], ev.operating_point, ev.section);
+    let (record, recorded, event_at, event_how) =
+        (&ev.record, &ev.recorded, ev.event_at, &ev.event_how);
     let setup = Setup::new(&plant, case, op, &scheme, section);
     let window = plant.criteria.rocof_window_s;
     let before = calibrate::replay_at(&setup, &plant, &recorded.t_s).map_err(|status| {
@@ -340,9 +258,152 @@ pub fn run(args: CalibrateArgs) -> anyhow::Result<Outcome> {
     Ok(outcome)
 }
 
+/// Which record, case, point and section a comparison uses (the flags of `calibrate`, and of
+/// `report --record`).
+pub struct EventRequest<'a> {
+    pub record: &'a Path,
+    pub channel: Option<&'a str>,
+    pub case: &'a str,
+    pub at: Option<&'a str>,
+    pub section: Option<&'a str>,
+    pub event_at: Option<f64>,
+    pub plant_file: &'a Path,
+    pub cases_file: &'a Path,
+}
+
+/// A record read, checked against the plant, and aligned to its case.
+pub struct RecordedEvent {
+    /// Index into the cases.
+    pub case: usize,
+    pub operating_point: usize,
+    pub section: usize,
+    pub record: FrequencyRecord,
+    pub recorded: Recorded,
+    pub event_at: f64,
+    pub event_how: String,
+}
+
+/// Reads the record and places it on its case: every mistake is an error naming the flag or file
+/// and the fix.
+pub fn recorded_event(
+    req: &EventRequest,
+    plant: &nadir::model::Plant,
+    cases: &nadir::model::CaseSet,
+) -> anyhow::Result<RecordedEvent> {
+    if let Some(t) = req.event_at {
+        if !t.is_finite() {
+            bail!("--event-at {t}: give the event time as a finite number of seconds on the record's axis");
+        }
+    }
+    let Some(case_idx) = cases.cases.iter().position(|c| c.id == req.case) else {
+        let known: Vec<&str> = cases.cases.iter().map(|c| c.id.as_str()).collect();
+        bail!(
+            "--case {}: no such case in {}; cases are: {}",
+            req.case,
+            req.cases_file.display(),
+            known.join(", ")
+        );
+    };
+    let case = &cases.cases[case_idx];
+    let op = match req.at {
+        None => case.applies_to[0],
+        Some(id) => match case
+            .applies_to
+            .iter()
+            .find(|&&o| plant.operating_points[o].id == id)
+        {
+            Some(&o) => o,
+            None => {
+                let names: Vec<&str> = case
+                    .applies_to
+                    .iter()
+                    .map(|&o| plant.operating_points[o].id.as_str())
+                    .collect();
+                bail!(
+                    "--at {id}: case {} applies to {}",
+                    case.id,
+                    names.join(", ")
+                )
+            }
+        },
+    };
+    let section = match req.section {
+        None => 0,
+        Some(id) => match plant.sections.iter().position(|s| s.id == id) {
+            Some(s) => s,
+            None => {
+                let names: Vec<&str> = plant.sections.iter().map(|s| s.id.as_str()).collect();
+                bail!(
+                    "--section {id}: no such section in {}; sections are: {}",
+                    req.plant_file.display(),
+                    names.join(", ")
+                )
+            }
+        },
+    };
+    let options = ReadOptions {
+        channel: req.channel.map(str::to_string),
+        ..ReadOptions::default()
+    };
+    let record = recording::read_frequency_record(req.record, &options)
+        .with_context(|| format!("reading record {}", req.record.display()))?;
+    if let Some(f0) = record.nominal_hz {
+        if (f0 - plant.nominal_hz).abs() > 1e-6 {
+            bail!(
+                "{}: the record states a {} Hz system and {} a {} Hz plant; give the record of this plant",
+                req.record.display(),
+                fmt(f0, 0),
+                req.plant_file.display(),
+                fmt(plant.nominal_hz, 0)
+            );
+        }
+    }
+    // A record of another system (60 Hz against a 50 Hz plant) or in another unit (per unit,
+    // mHz of deviation) is refused before any comparison: its level is far from the plant's.
+    let mut sorted = record.frequency_hz.clone();
+    sorted.sort_by(f64::total_cmp);
+    if let Some(&median) = sorted.get(sorted.len() / 2) {
+        if (median - plant.nominal_hz).abs() > 0.1 * plant.nominal_hz {
+            bail!(
+                "{}: the record's frequency is mostly near {} Hz, far from the plant's nominal {} Hz; \
+                 check that the channel holds frequency in Hz (--channel) and that the record is of this plant",
+                req.record.display(),
+                fmt(median, 3),
+                fmt(plant.nominal_hz, 0)
+            );
+        }
+    }
+    let (event_at, event_how) = event_time(req, &record)?;
+    let recorded = calibrate::align(&record.times_s, &record.frequency_hz, event_at, case)
+        .map_err(|e| match e {
+            calibrate::AlignError::TooFewSamples {
+                inside,
+                from_s,
+                to_s,
+            } => anyhow::anyhow!(
+                "{}: only {inside} sample(s) lie within the case once the event is placed at {} s \
+                 (the case covers {} s to {} s of the record); check --event-at and that the \
+                 record is of this event",
+                req.record.display(),
+                fmt(event_at, 3),
+                fmt(from_s, 3),
+                fmt(to_s, 3)
+            ),
+        })?;
+    Ok(RecordedEvent {
+        case: case_idx,
+        operating_point: op,
+        section,
+        record,
+        recorded,
+        event_at,
+        event_how,
+    })
+}
+
 /// The event time on the record's axis and how it was found.
-fn event_time(args: &CalibrateArgs, record: &FrequencyRecord) -> anyhow::Result<(f64, String)> {
-    if let Some(t) = args.event_at {
+fn event_time(req: &EventRequest, record: &FrequencyRecord) -> anyhow::Result<(f64, String)> {
+    if let Some(t) = req.event_at {
         let (first, last) = (
             record.times_s.first().copied().unwrap_or(0.0),
             record.times_s.last().copied().unwrap_or(0.0),
@@ -373,7 +434,7 @@ fn event_time(args: &CalibrateArgs, record: &FrequencyRecord) -> anyhow::Result<
             "{}: no event found in the record (it needs at least {} s before the event, and a \
              departure of more than {} Hz from the level there); give the event time with \
              --event-at S (seconds on the record's axis)",
-            args.record.display(),
+            req.record.display(),
             fmt(calibrate::figures::PRE_EVENT_S, 1),
             fmt(calibrate::figures::MIN_DEPARTURE_HZ, 2)
         ),
