@@ -274,7 +274,9 @@ mod tests {
         .unwrap();
         assert!(out.starts_with("# calibrated\n#\nplant:"));
         assert!(out.contains("  # the main set\n"));
-        assert!(out.contains("    # fitted 3.25\n    inertia_s: 3.25   # nadir-ok: inertia-range\n"));
+        assert!(
+            out.contains("    # fitted 3.25\n    inertia_s: 3.25   # nadir-ok: inertia-range\n")
+        );
         assert!(out.contains("turbine_s: 0.8 }"));
         assert!(out.contains(
             "  # fitted 1.75\n  - { id: l1, section: a, p_mw: 4.9, rank: 1, freq_exp: 1.75 }"
