@@ -325,3 +325,72 @@ fn the_report_has_a_section_on_the_recorded_event() {
     ]);
     assert_eq!(r.code, 2, "--case without --record is a usage error");
 }
+
+/// A record whose time heading does not say its unit is refused with the flag that fixes it, and
+/// with that flag it reads exactly as the record with `time_s` does (the unit is never guessed:
+/// docs/files.md, "Records").
+#[test]
+fn a_time_column_without_its_unit_needs_the_time_unit_flag() {
+    let text = std::fs::read_to_string(RECORD).unwrap();
+    let unitless = text.replacen("time_s,frequency_hz", "time,frequency_hz", 1);
+    assert_ne!(text, unitless, "the demo record's time heading is time_s");
+    let path = out_dir().join("record-unitless-time.csv");
+    std::fs::write(&path, unitless).unwrap();
+    let path = path.to_str().unwrap();
+
+    let refused = nadir(&[
+        "calibrate",
+        PLANT,
+        SCHEME,
+        "--cases",
+        CASES,
+        "--case",
+        "utility-loss",
+        "--record",
+        path,
+    ]);
+    assert_eq!(refused.code, 2, "{}", refused.stderr);
+    assert!(refused.stderr.contains("--time-unit"), "{}", refused.stderr);
+
+    let read = nadir(&[
+        "calibrate",
+        PLANT,
+        SCHEME,
+        "--cases",
+        CASES,
+        "--case",
+        "utility-loss",
+        "--record",
+        path,
+        "--time-unit",
+        "s",
+    ]);
+    assert_eq!(read.code, 0, "{}", read.stderr);
+    let original = nadir(&demo_args(&[]));
+    let figures = |s: &str| {
+        s.lines()
+            .filter(|l| l.contains(" Hz"))
+            .map(str::to_string)
+            .collect::<Vec<_>>()
+    };
+    assert_eq!(figures(&read.stdout), figures(&original.stdout));
+
+    let wrong = nadir(&[
+        "calibrate",
+        PLANT,
+        SCHEME,
+        "--cases",
+        CASES,
+        "--case",
+        "utility-loss",
+        "--record",
+        RECORD,
+        "--time-unit",
+        "ms",
+    ]);
+    assert_eq!(
+        wrong.code, 2,
+        "a heading in s and a flag in ms disagree: {}",
+        wrong.stderr
+    );
+}

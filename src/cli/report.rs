@@ -51,6 +51,9 @@ pub struct ReportArgs {
     /// With --record: the record's channel to use.
     #[arg(long, value_name = "NAME", requires = "record")]
     pub channel: Option<String>,
+    /// With --record: how to read its time axis (--time-unit, --max-step).
+    #[command(flatten)]
+    pub record_axis: super::calibrate::RecordAxisArgs,
     /// With --record: when the event happened, seconds on the record's axis; default: the
     /// record's trigger, else the onset found in it.
     #[arg(
@@ -196,6 +199,7 @@ fn record_section(
         &super::calibrate::EventRequest {
             record: path,
             channel: args.channel.as_deref(),
+            axis: &args.record_axis,
             case: args.case.as_deref().unwrap_or_default(),
             at: args.at.as_deref(),
             section: args.section.as_deref(),
