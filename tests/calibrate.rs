@@ -394,3 +394,58 @@ fn a_time_column_without_its_unit_needs_the_time_unit_flag() {
         wrong.stderr
     );
 }
+
+/// The demo record written as a COMTRADE record (IEEE C37.111-1999, ASCII: one analog channel in
+/// mHz scaled by a = 0.001, 100 samples/s, trigger one second after the first sample) reads the
+/// same figures as the CSV record with the event placed at 1 s, and the trigger places the event.
+#[test]
+fn a_comtrade_record_is_compared_like_the_csv_and_its_trigger_places_the_event() {
+    let text = std::fs::read_to_string(RECORD).unwrap();
+    let samples: Vec<(f64, f64)> = text
+        .lines()
+        .filter(|l| !l.starts_with('#') && !l.starts_with("time"))
+        .map(|l| {
+            let (t, f) = l.split_once(',').unwrap();
+            (t.parse().unwrap(), f.parse().unwrap())
+        })
+        .collect();
+    assert!(samples.len() > 2000);
+    let dir = out_dir();
+    let cfg = format!(
+        "Demo substation,REC-1,1999\n1,1A,0D\n1,F,,,Hz,0.001,0,0,-99999999,99999999,1,1,P\n50\n1\n100,{}\n\
+         02/12/2026,10:00:00.000000\n02/12/2026,10:00:01.000000\nASCII\n1\n",
+        samples.len()
+    );
+    let mut dat = String::new();
+    for (k, (t, f)) in samples.iter().enumerate() {
+        dat += &format!("{},{},{}\n", k + 1, (t * 1e6).round(), (f * 1000.0).round());
+    }
+    std::fs::write(dir.join("record-comtrade.cfg"), cfg).unwrap();
+    std::fs::write(dir.join("record-comtrade.dat"), dat).unwrap();
+    let cfg_path = dir.join("record-comtrade.cfg");
+    let cfg_path = cfg_path.to_str().unwrap();
+
+    let comtrade = nadir(&[
+        "calibrate",
+        PLANT,
+        SCHEME,
+        "--cases",
+        CASES,
+        "--case",
+        "utility-loss",
+        "--record",
+        cfg_path,
+    ]);
+    assert_eq!(comtrade.code, 0, "{}", comtrade.stderr);
+    assert!(comtrade.stdout.contains("trigger"), "{}", comtrade.stdout);
+    let csv = nadir(&demo_args(&["--event-at", "1.0"]));
+    assert_eq!(csv.code, 0, "{}", csv.stderr);
+    let figures = |s: &str| {
+        s.lines()
+            .filter(|l| l.contains(" Hz"))
+            .map(str::to_string)
+            .collect::<Vec<_>>()
+    };
+    assert!(!figures(&csv.stdout).is_empty());
+    assert_eq!(figures(&comtrade.stdout), figures(&csv.stdout));
+}
