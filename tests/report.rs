@@ -150,7 +150,7 @@ fn one_plot_per_case_and_nothing_to_fetch() {
             "{point}"
         );
     }
-    assert!(first.contains("uf-1 49 Hz") && first.contains("minimum 47.5 Hz"));
+    assert!(first.contains("uf-1, uf-1-a 49 Hz") && first.contains("minimum 47.5 Hz"));
     // After the bus split each island is its own line (the over-frequency one included).
     let split = &html[html.find("<h3>bus-split-islanded</h3>").unwrap()..];
     let split = &split[..split.find("</figure>").unwrap()];

@@ -201,7 +201,9 @@ fn replay_prints_the_event_log_and_writes_csv_and_plot() {
     );
     let plot = std::fs::read_to_string(&svg).unwrap();
     assert!(
-        plot.starts_with("<svg") && plot.contains("uf-1 49 Hz") && plot.contains("minimum 47.5 Hz")
+        plot.starts_with("<svg")
+            && plot.contains("uf-1, uf-1-a 49 Hz")
+            && plot.contains("minimum 47.5 Hz")
     );
     let samples = std::fs::read_to_string(&csv).unwrap();
     assert!(samples.starts_with("t_s,mv-a_hz,mv-b_hz,shed_mw"));
