@@ -448,4 +448,41 @@ fn a_comtrade_record_is_compared_like_the_csv_and_its_trigger_places_the_event()
     };
     assert!(!figures(&csv.stdout).is_empty());
     assert_eq!(figures(&comtrade.stdout), figures(&csv.stdout));
+
+    // The report identifies the whole record: the configuration and its data file, each by the
+    // SHA-256 of its bytes (FIPS 180-4), computed here by the Python standard library.
+    let out = dir.join("report-comtrade.html");
+    let r = nadir(&[
+        "report",
+        PLANT,
+        SCHEME,
+        "--cases",
+        CASES,
+        "-o",
+        out.to_str().unwrap(),
+        "--force",
+        "--record",
+        cfg_path,
+        "--case",
+        "utility-loss",
+    ]);
+    assert!(r.code == 0 || r.code == 1, "{}", r.stderr);
+    let html = std::fs::read_to_string(&out).unwrap();
+    for name in ["record-comtrade.cfg", "record-comtrade.dat"] {
+        assert!(html.contains(name), "{name} not among the report's inputs");
+        let Some(python) = std::env::var_os("NADIR_PYTHON") else {
+            continue;
+        };
+        let digest = std::process::Command::new(python)
+            .args(["-c", "import hashlib,sys; print(hashlib.sha256(open(sys.argv[1],'rb').read()).hexdigest())"])
+            .arg(dir.join(name))
+            .output()
+            .unwrap();
+        let digest = String::from_utf8(digest.stdout).unwrap();
+        assert_eq!(digest.trim().len(), 64, "python printed {digest:?}");
+        assert!(
+            html.contains(digest.trim()),
+            "the SHA-256 of {name} is not in the report"
+        );
+    }
 }

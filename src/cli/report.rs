@@ -115,7 +115,7 @@ pub fn run(args: ReportArgs) -> anyhow::Result<Outcome> {
     };
     let mut files = vec![plant_file, cases_file, scheme_file];
     if let Some((_, f)) = &record {
-        files.push(f.clone());
+        files.extend(f.iter().cloned());
     }
     let text = html::render(&ReportInputs {
         plant: &plant,
@@ -193,7 +193,7 @@ fn record_section(
     plant: &Plant,
     cases: &CaseSet,
     scheme: &Scheme,
-) -> anyhow::Result<(RecordSection, InputFile)> {
+) -> anyhow::Result<(RecordSection, Vec<InputFile>)> {
     use nadir::calibrate::{self, Setup};
     let ev = super::calibrate::recorded_event(
         &super::calibrate::EventRequest {
@@ -256,9 +256,18 @@ fn record_section(
             format!("estimated from channel {channel}: {method}")
         }
     };
-    let bytes =
-        std::fs::read(path).with_context(|| format!("reading record {}", path.display()))?;
-    let file = InputFile::from_bytes("record", &relative_to_working_directory(path), &bytes);
+    // The whole record is identified: a COMTRADE configuration and its data file each by its bytes.
+    let mut record_files = Vec::new();
+    for (k, p) in nadir::recording::files_of(path).iter().enumerate() {
+        let bytes = std::fs::read(p).with_context(|| format!("reading record {}", p.display()))?;
+        let role = if k == 0 { "record" } else { "record data" };
+        record_files.push(InputFile::from_bytes(
+            role,
+            &relative_to_working_directory(p),
+            &bytes,
+        ));
+    }
+    let file = record_files[0].clone();
     Ok((
         RecordSection {
             file: file.path.clone(),
@@ -275,7 +284,7 @@ fn record_section(
             rocof_window_s: window,
             plot: drawn,
         },
-        file,
+        record_files,
     ))
 }
 
