@@ -144,6 +144,23 @@ fn demo_args<'a>(extra: &[&'a str]) -> Vec<&'a str> {
     v
 }
 
+/// `nadir calibrate` on the demo's utility-loss case against `record`, with `extra` flags.
+fn calibrate_on(record: &str, extra: &[&str]) -> binary::Run {
+    let mut args = demo_args(extra);
+    let at = args.iter().position(|a| *a == RECORD).unwrap();
+    args[at] = record;
+    nadir(&args)
+}
+
+/// The lines of a comparison that carry a figure in Hz (the record-and-model table).
+fn hz_lines(stdout: &str) -> Vec<String> {
+    stdout
+        .lines()
+        .filter(|l| l.contains(" Hz"))
+        .map(str::to_string)
+        .collect()
+}
+
 #[test]
 fn the_verb_compares_before_fitting_and_finds_the_event() {
     let r = nadir(&demo_args(&[]));
@@ -338,56 +355,16 @@ fn a_time_column_without_its_unit_needs_the_time_unit_flag() {
     std::fs::write(&path, unitless).unwrap();
     let path = path.to_str().unwrap();
 
-    let refused = nadir(&[
-        "calibrate",
-        PLANT,
-        SCHEME,
-        "--cases",
-        CASES,
-        "--case",
-        "utility-loss",
-        "--record",
-        path,
-    ]);
+    let refused = calibrate_on(path, &[]);
     assert_eq!(refused.code, 2, "{}", refused.stderr);
     assert!(refused.stderr.contains("--time-unit"), "{}", refused.stderr);
 
-    let read = nadir(&[
-        "calibrate",
-        PLANT,
-        SCHEME,
-        "--cases",
-        CASES,
-        "--case",
-        "utility-loss",
-        "--record",
-        path,
-        "--time-unit",
-        "s",
-    ]);
+    let read = calibrate_on(path, &["--time-unit", "s"]);
     assert_eq!(read.code, 0, "{}", read.stderr);
     let original = nadir(&demo_args(&[]));
-    let figures = |s: &str| {
-        s.lines()
-            .filter(|l| l.contains(" Hz"))
-            .map(str::to_string)
-            .collect::<Vec<_>>()
-    };
-    assert_eq!(figures(&read.stdout), figures(&original.stdout));
+    assert_eq!(hz_lines(&read.stdout), hz_lines(&original.stdout));
 
-    let wrong = nadir(&[
-        "calibrate",
-        PLANT,
-        SCHEME,
-        "--cases",
-        CASES,
-        "--case",
-        "utility-loss",
-        "--record",
-        RECORD,
-        "--time-unit",
-        "ms",
-    ]);
+    let wrong = calibrate_on(RECORD, &["--time-unit", "ms"]);
     assert_eq!(
         wrong.code, 2,
         "a heading in s and a flag in ms disagree: {}",
@@ -425,29 +402,13 @@ fn a_comtrade_record_is_compared_like_the_csv_and_its_trigger_places_the_event()
     let cfg_path = dir.join("record-comtrade.cfg");
     let cfg_path = cfg_path.to_str().unwrap();
 
-    let comtrade = nadir(&[
-        "calibrate",
-        PLANT,
-        SCHEME,
-        "--cases",
-        CASES,
-        "--case",
-        "utility-loss",
-        "--record",
-        cfg_path,
-    ]);
+    let comtrade = calibrate_on(cfg_path, &[]);
     assert_eq!(comtrade.code, 0, "{}", comtrade.stderr);
     assert!(comtrade.stdout.contains("trigger"), "{}", comtrade.stdout);
     let csv = nadir(&demo_args(&["--event-at", "1.0"]));
     assert_eq!(csv.code, 0, "{}", csv.stderr);
-    let figures = |s: &str| {
-        s.lines()
-            .filter(|l| l.contains(" Hz"))
-            .map(str::to_string)
-            .collect::<Vec<_>>()
-    };
-    assert!(!figures(&csv.stdout).is_empty());
-    assert_eq!(figures(&comtrade.stdout), figures(&csv.stdout));
+    assert!(!hz_lines(&csv.stdout).is_empty());
+    assert_eq!(hz_lines(&comtrade.stdout), hz_lines(&csv.stdout));
 
     // The report identifies the whole record: the configuration and its data file, each by the
     // SHA-256 of its bytes (FIPS 180-4), computed here by the Python standard library.
