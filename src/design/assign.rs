@@ -175,10 +175,10 @@ fn solve_with(p: &Problem, reach: &[bool]) -> Result<Solved, Pruned> {
         .map(|_| (0..s).map(|_| new_var(false)).collect())
         .collect();
 
-    // The objective, term by term in the order of the earlier expression-based model.
+    // The objective, each coefficient summed in the order the terms arise, x[j][k] by x[j][k].
     let mut obj = vec![0.0; counter];
-    for j in 0..n {
-        if let Some(yj) = &y_idx[j] {
+    for (j, yj) in y_idx.iter().enumerate() {
+        if let Some(yj) = yj {
             for k in 0..s {
                 let mut c = p.cost[j][k];
                 if p.change_cost > 0.0 && p.start[j] != Some(k) {
