@@ -464,15 +464,22 @@ mod tests {
                 .enumerate()
                 .map(|(i, &r)| (i, r))
                 .collect();
-            let mut mw = vec![vec![0.0; n]; 2];
-            for j in 0..n {
-                mw[0][j] = (0.1 + rng.unit()).round_to(2);
-                mw[1][j] = if j == 3 {
-                    0.0
-                } else {
-                    (0.1 + rng.unit()).round_to(2)
-                };
-            }
+            // MW at the two points; load 3 is switched off at the second.
+            let pairs: Vec<(f64, f64)> = (0..n)
+                .map(|j| {
+                    let first = (0.1 + rng.unit()).round_to(2);
+                    let second = if j == 3 {
+                        0.0
+                    } else {
+                        (0.1 + rng.unit()).round_to(2)
+                    };
+                    (first, second)
+                })
+                .collect();
+            let mw = vec![
+                pairs.iter().map(|p| p.0).collect::<Vec<f64>>(),
+                pairs.iter().map(|p| p.1).collect(),
+            ];
             let load_section: Vec<usize> = (0..n).map(|j| j % 2).collect();
             let measure: Vec<Option<usize>> = (0..s)
                 .map(|k| (k == s - 1 && trial % 2 == 0).then_some(1))
