@@ -19,6 +19,7 @@ pub mod dynamics;
 pub mod error;
 pub mod input;
 pub mod model;
+pub mod recording;
 pub mod relay;
 pub mod report;
 pub mod screening;

@@ -143,13 +143,35 @@ pub const DESIGN_GRID_POINTS: Limit = Limit {
     env: "NADIR_MAX_DESIGN_GRID_POINTS",
 };
 
+/// Largest recorded-event file (a COMTRADE data file or a CSV record), in bytes (256 MiB). Records
+/// are larger than the YAML inputs: a disturbance recorder at 10 kHz keeps 10 s of 16 channels in
+/// about 4 MiB of binary data and five times that as ASCII; the limit leaves room for long records
+/// and refuses a wrong file (a disk image, a video) before it is read.
+pub const RECORD_BYTES: Limit = Limit {
+    index: 13,
+    name: "max_record_bytes",
+    noun: "bytes",
+    default: 256 * 1024 * 1024,
+    env: "NADIR_MAX_RECORD_BYTES",
+};
+/// Samples in one recorded-event file (rows of a CSV record, samples of a COMTRADE record): 10 kHz
+/// for 400 s. The reader keeps only the channel it uses, so memory stays within a few times this
+/// count in 8-byte numbers.
+pub const RECORD_SAMPLES: Limit = Limit {
+    index: 14,
+    name: "max_record_samples",
+    noun: "samples",
+    default: 4_000_000,
+    env: "NADIR_MAX_RECORD_SAMPLES",
+};
+
 /// Diagnostics kept for one file; past this many, the rest are counted and summarised in one
 /// closing diagnostic. Not adjustable: a thousand messages already say "wrong file", and the cap
 /// keeps a generated file full of mistakes from costing time and memory in messages.
 pub const MAX_DIAGNOSTICS: usize = 1000;
 
 /// Every limit, in the order of their `index`.
-pub const ALL: [Limit; 13] = [
+pub const ALL: [Limit; 15] = [
     FILE_BYTES,
     LOADS,
     GENERATORS,
@@ -163,6 +185,8 @@ pub const ALL: [Limit; 13] = [
     STAGES,
     TRACE_SAMPLES,
     DESIGN_GRID_POINTS,
+    RECORD_BYTES,
+    RECORD_SAMPLES,
 ];
 
 /// Longest id (in characters) that the "did you mean" search compares with the known ids; a

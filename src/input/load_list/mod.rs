@@ -14,7 +14,7 @@ mod rows;
 mod splice;
 pub mod types;
 
-pub use rows::delimiter;
+pub use rows::{decimal_comma_help, delimiter, delimiter_hint};
 
 use super::limits::{self, Limits};
 use super::{Diagnostic, Loaded, Warning};

@@ -357,7 +357,7 @@ fn read_header(rec: &csv::StringRecord, line: Option<usize>, m: &mut Mistakes) -
 }
 
 /// When a single heading holds another separator, the list was saved with one nadir did not pick.
-fn delimiter_hint(cell: &str) -> Option<String> {
+pub fn delimiter_hint(cell: &str) -> Option<String> {
     [',', ';', '\t', '|'].iter().find(|&&c| cell.contains(c)).map(|c| {
         format!(
             "nadir found no separator it reads between the headings (it looked for comma, semicolon \
@@ -585,20 +585,26 @@ fn number(cell: &str, f: Field, bad: &mut dyn FnMut(Field, String, String)) -> O
     match cell.parse::<f64>() {
         Ok(v) if v.is_finite() => Some(v),
         _ => {
-            let help = if cell.contains(',') && cell.replace(',', ".").parse::<f64>().is_ok() {
-                format!(
-                    "write the number with a decimal point, `{}`, or save the sheet with a point as \
-                     decimal separator (a comma could also be a thousands separator, so nadir does \
-                     not guess)",
-                    cell.replace(',', ".")
-                )
-            } else {
-                format!("write a plain number{unit}, without units or text")
-            };
+            let help = decimal_comma_help(cell)
+                .unwrap_or_else(|| format!("write a plain number{unit}, without units or text"));
             bad(f, format!("`{}` is not a number", clip(cell)), help);
             None
         }
     }
+}
+
+/// The fix for a cell that would be a number with a point in place of its comma, if it is one:
+/// a decimal comma is refused rather than guessed (in `1,200` it could be a thousands separator).
+/// The one statement of this rule for every CSV nadir reads (load lists and records).
+pub fn decimal_comma_help(cell: &str) -> Option<String> {
+    (cell.contains(',') && cell.replace(',', ".").parse::<f64>().is_ok()).then(|| {
+        format!(
+            "write the number with a decimal point, `{}`, or save the sheet with a point as \
+             decimal separator (a comma could also be a thousands separator, so nadir does not \
+             guess)",
+            cell.replace(',', ".")
+        )
+    })
 }
 
 /// A whole number from 0 to 4294967295 (the plant reader says why 0 is not a rank).
