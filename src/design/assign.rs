@@ -1,5 +1,6 @@
-//! The assignment of loads to stages as a mixed-integer linear programme (good_lp with the
-//! pure-Rust microlp solver): the only file that knows good_lp.
+//! The assignment of loads to stages as a mixed-integer linear programme, solved by the pure-Rust
+//! microlp crate under a branch-and-bound node budget (a count, never a time): the only file that
+//! knows microlp.
 //!
 //! Variables are cumulative binaries y[i][k]: load i is opened by stage k or an earlier one
 //! (stages in operating order), so y[i][k] ≤ y[i][k+1] and the stage's own loads are
