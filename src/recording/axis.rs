@@ -14,6 +14,7 @@ pub fn check(
     times_s: &[f64],
     max_step_s: Option<f64>,
     place: &dyn Fn(usize) -> (Option<usize>, String),
+    gaps: bool,
 ) -> Result<(), Error> {
     if let Some(i) = times_s.iter().position(|t| !t.is_finite()) {
         let (line, at) = place(i);
@@ -45,6 +46,9 @@ pub fn check(
                     .to_string(),
             ));
         }
+    }
+    if !gaps {
+        return Ok(());
     }
     let Some(limit) = max_step_s.or_else(|| median_step(times_s).map(|m| 1.5 * m)) else {
         return Ok(());
@@ -117,24 +121,26 @@ mod tests {
         let even: Vec<f64> = (0..100)
             .map(|i| (i as f64 * 0.001 * 1e4).round() / 1e4)
             .collect();
-        assert!(check("r.csv", &even, None, &place).is_ok());
+        assert!(check("r.csv", &even, None, &place, true).is_ok());
         let mut lost = even.clone();
         lost.remove(50);
-        let e = check("r.csv", &lost, None, &place).unwrap_err().to_string();
+        let e = check("r.csv", &lost, None, &place, true)
+            .unwrap_err()
+            .to_string();
         assert!(
             e.contains("r.csv:52: row 52: a sampling gap of 0.002 s after the time 0.049 s, above 1.5 times the record's usual step of 0.001 s"),
             "{e}"
         );
-        assert!(check("r.csv", &lost, Some(0.0025), &place).is_ok());
+        assert!(check("r.csv", &lost, Some(0.0025), &place, true).is_ok());
     }
 
     #[test]
     fn repeated_and_backward_times_are_refused() {
-        let e = check("r.csv", &[0.0, 0.1, 0.1], None, &place)
+        let e = check("r.csv", &[0.0, 0.1, 0.1], None, &place, true)
             .unwrap_err()
             .to_string();
         assert!(e.contains("repeats the time"), "{e}");
-        let e = check("r.csv", &[0.0, 0.1, 0.05], None, &place)
+        let e = check("r.csv", &[0.0, 0.1, 0.05], None, &place, true)
             .unwrap_err()
             .to_string();
         assert!(e.contains("goes back in time"), "{e}");

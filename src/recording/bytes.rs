@@ -27,14 +27,14 @@ pub fn read(path: &Path, limits: &Limits) -> Result<Vec<u8>, Error> {
         ));
     }
     if meta.is_file() && meta.len() > max {
-        return Err(too_large(&file, limits, meta.len()));
+        return Err(too_large(&file, limits, meta.len(), ""));
     }
     let mut bytes = Vec::new();
     f.take(max.saturating_add(1))
         .read_to_end(&mut bytes)
         .map_err(io)?;
     if bytes.len() as u64 > max {
-        return Err(too_large(&file, limits, max + 1));
+        return Err(too_large(&file, limits, max + 1, " more than"));
     }
     Ok(bytes)
 }
@@ -48,12 +48,14 @@ pub fn text(bytes: Vec<u8>) -> String {
     }
 }
 
-fn too_large(file: &str, limits: &Limits, bytes: u64) -> Error {
+/// `more` is " more than" when only a lower bound of the size is known (a pipe read to the limit).
+fn too_large(file: &str, limits: &Limits, bytes: u64, more: &str) -> Error {
     let limit = limits::RECORD_BYTES;
+    let shown = if more.is_empty() { bytes } else { bytes - 1 };
     refuse(
         file,
         None,
-        limits::over_limit_message(limits, limit, "the record file has", bytes),
+        limits::over_limit_message(limits, limit, &format!("the record file has{more}"), shown),
         limits::over_limit_help(limit, bytes),
     )
 }

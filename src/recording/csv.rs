@@ -9,9 +9,7 @@
 //! decimal commas follow the load list (`input::load_list`), one place for each rule. Lines that
 //! start with `#` are comments.
 
-use super::{
-    axis, bytes, estimate, refuse, FrequencyOrigin, FrequencyRecord, ReadOptions, TimeUnit,
-};
+use super::{bytes, refuse, FrequencyRecord, ReadOptions, TimeUnit};
 use crate::error::Error;
 use crate::input::limits::{self, Limits};
 use crate::input::load_list::{columns, decimal_comma_help, delimiter, delimiter_hint};
@@ -255,53 +253,12 @@ pub fn read(path: &Path, options: &ReadOptions, limits: &Limits) -> Result<Frequ
         ));
     }
     let place = |i: usize| (Some(lines[i]), format!("row {}", lines[i]));
-    axis::check(&file, &times, options.max_step_s, &place)?;
-    let (times_s, frequency_hz, origin) = match channel_kind {
-        Kind::Frequency => {
-            super::check_hz(&file, &channel, &values, &place)?;
-            (times, values, FrequencyOrigin::Measured { channel })
-        }
-        _ => {
-            if let Some(i) = values.iter().position(|v| !v.is_finite()) {
-                let (line, at) = place(i);
-                return Err(refuse(
-                    &file,
-                    line,
-                    format!("{at}: the voltage in `{channel}` is not a finite number"),
-                    "the recorder lost this sample: cut the record before it, or fill it"
-                        .to_string(),
-                ));
-            }
-            let cycles = options.estimate_cycles;
-            let e = estimate::zero_crossings(&times, &values, cycles).map_err(|e| {
-                refuse(
-                    &file,
-                    None,
-                    format!("cannot estimate frequency from `{channel}`: {e}"),
-                    "give a record with a frequency column, or voltage samples of at least a few \
-                     cycles at a rate of 8 or more samples per cycle"
-                        .to_string(),
-                )
-            })?;
-            (
-                e.times_s,
-                e.frequency_hz,
-                FrequencyOrigin::Estimated {
-                    channel,
-                    method: estimate::method_text(cycles),
-                },
-            )
-        }
-    };
-    Ok(FrequencyRecord {
-        source: path.to_path_buf(),
-        times_s,
-        frequency_hz,
-        trigger_s: None,
-        origin,
-        nominal_hz: None,
-        start_time: None,
-    })
+    let measured = channel_kind == Kind::Frequency;
+    let mut record = super::series(
+        &file, path, times, values, channel, measured, &place, options, true,
+    )?;
+    record.trigger_s = None;
+    Ok(record)
 }
 
 /// The time column with its unit, and the channel column with its kind.

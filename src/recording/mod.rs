@@ -11,6 +11,7 @@
 
 mod axis;
 mod bytes;
+pub mod comtrade;
 mod csv;
 pub mod estimate;
 
@@ -119,6 +120,7 @@ pub fn read_frequency_record(path: &Path, options: &ReadOptions) -> Result<Frequ
         .unwrap_or_default();
     match ext.as_str() {
         "csv" | "txt" | "tsv" => csv::read(path, options, &limits),
+        "cfg" | "cff" => comtrade::read(path, options, &limits),
         "dat" => Err(Error::Input(vec![diagnostic(
             &file,
             None,
@@ -231,4 +233,71 @@ fn check_hz(
         ));
     }
     Ok(())
+}
+
+/// The record from one channel's samples: the time axis checked, then a frequency channel's
+/// values checked, or a voltage's frequency estimated. `place(i)` names sample `i`. `gaps` is false
+/// when the times come from declared sampling rates (COMTRADE), which may change mid-record and
+/// cannot leave a gap.
+#[allow(clippy::too_many_arguments)]
+fn series(
+    file: &str,
+    path: &Path,
+    times: Vec<f64>,
+    values: Vec<f64>,
+    channel: String,
+    measured: bool,
+    place: &dyn Fn(usize) -> (Option<usize>, String),
+    options: &ReadOptions,
+    gaps: bool,
+) -> Result<FrequencyRecord, Error> {
+    axis::check(
+        file,
+        &times,
+        options.max_step_s.filter(|_| gaps),
+        place,
+        gaps,
+    )?;
+    let (times_s, frequency_hz, origin) = if measured {
+        check_hz(file, &channel, &values, place)?;
+        (times, values, FrequencyOrigin::Measured { channel })
+    } else {
+        if let Some(i) = values.iter().position(|v| !v.is_finite()) {
+            let (line, at) = place(i);
+            return Err(refuse(
+                file,
+                line,
+                format!("{at}: the voltage in `{channel}` is not a finite number"),
+                "the recorder lost this sample: cut the record before it, or fill it".to_string(),
+            ));
+        }
+        let cycles = options.estimate_cycles;
+        let e = estimate::zero_crossings(&times, &values, cycles).map_err(|e| {
+            refuse(
+                file,
+                None,
+                format!("cannot estimate frequency from `{channel}`: {e}"),
+                "give a record with a frequency channel, or voltage samples of at least a few \
+                 cycles at a rate of 8 or more samples per cycle"
+                    .to_string(),
+            )
+        })?;
+        (
+            e.times_s,
+            e.frequency_hz,
+            FrequencyOrigin::Estimated {
+                channel,
+                method: estimate::method_text(cycles),
+            },
+        )
+    };
+    Ok(FrequencyRecord {
+        source: path.to_path_buf(),
+        times_s,
+        frequency_hz,
+        trigger_s: None,
+        origin,
+        nominal_hz: None,
+        start_time: None,
+    })
 }
