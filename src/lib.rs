@@ -14,6 +14,7 @@
 //! Results from this library can inform protection settings; they must be reviewed by a qualified
 //! protection engineer, coordinated with the grid operator, and conform to local codes.
 
+pub mod calibrate;
 pub mod design;
 pub mod dynamics;
 pub mod error;

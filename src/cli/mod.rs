@@ -9,6 +9,7 @@
 //! [`Command`] and one arm to [`run`].
 
 pub mod audit;
+pub mod calibrate;
 pub mod check;
 pub mod compare;
 pub mod design;
@@ -65,6 +66,9 @@ pub enum Command {
     /// The plant's loads to and from a CSV load list: `loads import PLANT LIST.csv` writes the
     /// plant file with the list's loads, `loads export PLANT` writes the list.
     Loads(loads::LoadsArgs),
+    /// Replay a case beside a recorded event (CSV or COMTRADE), compare nadir, ROCOF and
+    /// settling value, and fit the plant parameters you name to the record.
+    Calibrate(calibrate::CalibrateArgs),
 }
 
 /// How a verb that ran to the end came out.
@@ -92,6 +96,7 @@ pub fn run(cli: Cli) -> anyhow::Result<Outcome> {
         Command::Design(args) => design::run(args),
         Command::Sheet(args) => sheet::run(args),
         Command::Loads(args) => loads::run(args),
+        Command::Calibrate(args) => calibrate::run(args),
     }?;
     if !says_it_itself {
         if let Some(caveat) = load::verdict_caveat() {

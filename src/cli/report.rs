@@ -9,6 +9,7 @@ use anyhow::Context;
 use nadir::model::{CaseSet, Plant, Scheme};
 use nadir::report::html::{self, CasePlot, InputFile, ReportInputs};
 use nadir::report::plot::{self, RunAt};
+use nadir::report::record::RecordSection;
 use nadir::report::sheet;
 use nadir::verify::audit::{self, AuditRules};
 use nadir::verify::matrix::{self, sim_config_for, VerifyConfig};
@@ -34,18 +35,43 @@ pub struct ReportArgs {
     /// the output is replaced as a link; the file it points to is not written.
     #[arg(long)]
     pub force: bool,
+    /// A record of a real event (CSV or COMTRADE) to compare with the model in a section of its
+    /// own, as `nadir calibrate` compares them (needs --case).
+    #[arg(long, value_name = "FILE", requires = "case")]
+    pub record: Option<PathBuf>,
+    /// With --record: the case that describes the recorded event (its id).
+    #[arg(long, value_name = "ID", requires = "record")]
+    pub case: Option<String>,
+    /// With --record: the operating point before the event; default: the first the case applies to.
+    #[arg(long, value_name = "OPERATING_POINT", requires = "record")]
+    pub at: Option<String>,
+    /// With --record: the bus section the record measured; default: the first section.
+    #[arg(long, value_name = "SECTION", requires = "record")]
+    pub section: Option<String>,
+    /// With --record: the record's channel to use.
+    #[arg(long, value_name = "NAME", requires = "record")]
+    pub channel: Option<String>,
+    /// With --record: when the event happened, seconds on the record's axis; default: the
+    /// record's trigger, else the onset found in it.
+    #[arg(
+        long,
+        value_name = "S",
+        allow_negative_numbers = true,
+        requires = "record"
+    )]
+    pub event_at: Option<f64>,
 }
 
 pub fn run(args: ReportArgs) -> anyhow::Result<Outcome> {
-    let target = super::check_outputs(
-        &[args.output.as_path()],
-        &[
-            ("plant", args.plant.as_path()),
-            ("cases", args.cases.as_path()),
-            ("scheme", args.scheme.as_path()),
-        ],
-        args.force,
-    )?;
+    let mut inputs = vec![
+        ("plant", args.plant.as_path()),
+        ("cases", args.cases.as_path()),
+        ("scheme", args.scheme.as_path()),
+    ];
+    if let Some(r) = &args.record {
+        inputs.push(("record", r.as_path()));
+    }
+    let target = super::check_outputs(&[args.output.as_path()], &inputs, args.force)?;
     let (plant_text, plant_file) = read_input("plant", &args.plant)?;
     let plant = nadir::input::parse_plant_warned(&plant_text, &args.plant.display().to_string())
         .map_err(nadir::Error::Input)
@@ -80,7 +106,14 @@ pub fn run(args: ReportArgs) -> anyhow::Result<Outcome> {
 
     let generated_utc = html::utc_timestamp(run_time_unix_s()?);
     let setting_sheet = sheet::sheet(&plant, &scheme);
-    let files = [plant_file, cases_file, scheme_file];
+    let record = match &args.record {
+        Some(path) => Some(record_section(&args, path, &plant, &cases, &scheme)?),
+        None => None,
+    };
+    let mut files = vec![plant_file, cases_file, scheme_file];
+    if let Some((_, f)) = &record {
+        files.push(f.clone());
+    }
     let text = html::render(&ReportInputs {
         plant: &plant,
         scheme: &scheme,
@@ -94,6 +127,7 @@ pub fn run(args: ReportArgs) -> anyhow::Result<Outcome> {
         generated_utc: &generated_utc,
         tool_version: env!("CARGO_PKG_VERSION"),
         warnings: &super::load::warnings_seen(),
+        record: record.as_ref().map(|r| &r.0),
     });
     check_size(&text)?;
     target[0].write(text.as_bytes())?;
@@ -146,6 +180,99 @@ fn read_input(role: &str, path: &Path) -> anyhow::Result<(String, InputFile)> {
         .with_context(|| format!("reading {role} file {}", path.display()))?;
     let file = InputFile::from_bytes(role, &relative_to_working_directory(path), text.as_bytes());
     Ok((text, file))
+}
+
+/// The section on a recorded event: the record placed on its case and compared with the model,
+/// as `nadir calibrate` does it; and the record identified by its bytes for the inputs table.
+fn record_section(
+    args: &ReportArgs,
+    path: &Path,
+    plant: &Plant,
+    cases: &CaseSet,
+    scheme: &Scheme,
+) -> anyhow::Result<(RecordSection, InputFile)> {
+    use nadir::calibrate::{self, Setup};
+    let ev = super::calibrate::recorded_event(
+        &super::calibrate::EventRequest {
+            record: path,
+            channel: args.channel.as_deref(),
+            case: args.case.as_deref().unwrap_or_default(),
+            at: args.at.as_deref(),
+            section: args.section.as_deref(),
+            event_at: args.event_at,
+            plant_file: &args.plant,
+            cases_file: &args.cases,
+        },
+        plant,
+        cases,
+    )?;
+    let case = &cases.cases[ev.case];
+    let setup = Setup::new(plant, case, ev.operating_point, scheme, ev.section);
+    let model = calibrate::replay_at(&setup, plant, &ev.recorded.t_s).map_err(|status| {
+        anyhow::anyhow!(
+            "--record: the model of {} does not run to its end ({status}); no comparison can be made",
+            case.id
+        )
+    })?;
+    let window = plant.criteria.rocof_window_s;
+    let comparison = calibrate::compare(&ev.recorded, &model, window);
+    let run = nadir::sim::simulate(plant, case, ev.operating_point, scheme, &setup.config);
+    let point = plant.operating_points[ev.operating_point].id.clone();
+    let views = [RunAt {
+        point: "model",
+        run: &run,
+    }];
+    let mut drawn = plot::build(
+        plant,
+        scheme,
+        case,
+        &views,
+        format!("{} at {point} against the record", case.id),
+        true,
+    );
+    let shown: Vec<f64> = ev
+        .record
+        .times_s
+        .iter()
+        .map(|t| t - ev.recorded.shift_s)
+        .collect();
+    plot::record::add_record(
+        &mut drawn,
+        "record",
+        &shown,
+        &ev.record.frequency_hz,
+        calibrate::case_event_s(case),
+        "event in the record",
+    );
+    let origin = match &ev.record.origin {
+        nadir::recording::FrequencyOrigin::Measured { channel } => {
+            format!("channel {channel}, measured frequency")
+        }
+        nadir::recording::FrequencyOrigin::Estimated { channel, method } => {
+            format!("estimated from channel {channel}: {method}")
+        }
+    };
+    let bytes =
+        std::fs::read(path).with_context(|| format!("reading record {}", path.display()))?;
+    let file = InputFile::from_bytes("record", &relative_to_working_directory(path), &bytes);
+    Ok((
+        RecordSection {
+            file: file.path.clone(),
+            origin,
+            case: case.id.clone(),
+            point,
+            section: plant.sections[ev.section].id.clone(),
+            event: format!(
+                "at {:.3} s on the record's axis ({})",
+                ev.event_at, ev.event_how
+            ),
+            samples: ev.recorded.t_s.len(),
+            comparison,
+            rocof_window_s: window,
+            plot: drawn,
+        },
+        file,
+    ))
 }
 
 /// One plot per case, every operating point it applies to overlaid.

@@ -12,6 +12,7 @@ pub mod raw;
 mod read;
 mod validate;
 pub mod warn;
+mod write_plant;
 mod write_scheme;
 
 use crate::error::Error;
@@ -22,6 +23,7 @@ use std::fmt;
 use std::io::Read;
 use std::path::Path;
 pub use warn::{Code, Warning};
+pub use write_plant::{plant_with_values, ValueEdit};
 pub use write_scheme::scheme_yaml;
 
 /// A validated file with its plausibility warnings and notes (acknowledged ones included, marked).

@@ -74,6 +74,8 @@ pub struct ReportInputs<'a> {
     pub tool_version: &'a str,
     /// Plausibility warnings and notes of the input files, acknowledged ones included.
     pub warnings: &'a [Warning],
+    /// The model against a recorded event, when the report was given a record.
+    pub record: Option<&'a super::record::RecordSection>,
 }
 
 /// Lower-case hexadecimal SHA-256 of `bytes`.
@@ -149,6 +151,9 @@ pub fn render(r: &ReportInputs) -> String {
     audit_section(&mut h, r);
     matrix_section(&mut h, r);
     plots(&mut h, r);
+    if let Some(rec) = r.record {
+        super::record::section(&mut h, rec);
+    }
     sign_off(&mut h, r);
     h.push_str("</body>\n</html>\n");
     h
@@ -658,9 +663,11 @@ fn contents(h: &mut String, r: &ReportInputs) {
             esc(&p.case)
         );
     }
-    h.push_str(
-        "</ol></li>\n<li><a href=\"#sign-off\">Review and sign-off</a></li>\n</ol>\n</nav>\n",
-    );
+    h.push_str("</ol></li>\n");
+    if r.record.is_some() {
+        h.push_str("<li><a href=\"#record\">Model against a recorded event</a></li>\n");
+    }
+    h.push_str("<li><a href=\"#sign-off\">Review and sign-off</a></li>\n</ol>\n</nav>\n");
 }
 
 fn setting_sheet(h: &mut String, r: &ReportInputs) {

@@ -17,6 +17,7 @@ pub mod load_list;
 pub mod output;
 pub mod plot;
 pub mod png;
+pub mod record;
 pub mod sheet;
 pub mod thin;
 pub mod write;

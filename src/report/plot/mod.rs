@@ -20,6 +20,7 @@
 //! stretched after each event ([`axis::TimeAxis`]). This module formats runs; it computes no physics.
 
 pub mod axis;
+pub mod record;
 pub mod svg;
 
 use crate::model::{Action, Case, Plant, Scheme, StageTrigger};
