@@ -11,8 +11,10 @@
 //!    fastest relay the bound assumes, on the grid of pickups and delays);
 //! 2. the row with the disturbance margin only (the case grown by the required factor), then with
 //!    the model-error margin only: if one fails, that **margin** is the cause;
-//! 3. the rows that share the stages: if one of them fails, **one table serves every row** and that
-//!    row needs the load (with the margin named when that row holds as studied);
+//! 3. the rows whose runs go through the changed stages: if one of them fails, **one table serves
+//!    every row** and that row needs the step (with the margins named when it holds as studied);
+//!    if none fails but together they would shed more, in the objective, than this row saves, the
+//!    step is the cheaper table for them, and the row that would shed most more is named;
 //! 4. else the audit: the cheaper table breaks rank order in some event; or nothing forbids it, and
 //!    the sentence says the search stopped above this row's least shed.
 //!
@@ -138,7 +140,7 @@ fn reason(
             from,
         )
     };
-    let holds = |plant: &Plant, row: usize, with_margins: bool| {
+    let replay = |plant: &Plant, row: usize, with_margins: bool| {
         let (ci, op) = ctx.rows[row];
         evaluate(
             plant,
@@ -148,8 +150,18 @@ fn reason(
             &ctx.sim,
             with_margins,
         )
-        .verdict
-            == Verdict::Holds
+    };
+    let holds = |plant: &Plant, row: usize, with_margins: bool| {
+        replay(plant, row, with_margins).verdict == Verdict::Holds
+    };
+    // What a row's shed costs in the objective: case weight × rank weight × MW.
+    let cost = |row: usize, loads: &[usize]| {
+        let (ci, op) = ctx.rows[row];
+        ctx.cases.cases[ci].cost_weight()
+            * loads
+                .iter()
+                .map(|&l| ctx.plant.design.rank_weight(ctx.plant.loads[l].rank) * ctx.mw[op][l])
+                .sum::<f64>()
     };
     // 1. The row itself, as studied.
     if !holds(ctx.plant, r, false) {
@@ -183,26 +195,54 @@ fn reason(
             );
         }
     }
-    // 3. The rows that share the changed stages, the one with the largest bound first.
+    // 3. The rows whose runs went through the changed stages, the one with the largest bound
+    // first: one that fails without the step needs it; else the step is worth what the others
+    // would shed more without it.
     let mut sharing: Vec<usize> = (0..ctx.rows.len())
-        .filter(|&q| q != r && evals[q].operated.iter().any(|k| changed.contains(k)))
+        .filter(|&q| q != r && evals[q].touched.iter().any(|k| changed.contains(k)))
         .collect();
     sharing.sort_by(|&a, &b| realisable[b].total_cmp(&realisable[a]).then(a.cmp(&b)));
-    for q in sharing {
-        if holds(ctx.plant, q, ctx.margins) {
-            continue;
-        }
+    let row_name = |q: usize| {
         let (qc, qop) = ctx.rows[q];
-        let name = format!(
+        format!(
             "{} at {}",
             ctx.cases.cases[qc].id, ctx.plant.operating_points[qop].id
+        )
+    };
+    let mut saved =
+        cost(r, &evals[r].shed_loads) - cost(r, &replay(ctx.plant, r, false).shed_loads);
+    let mut most: Option<(usize, f64)> = None;
+    for q in sharing {
+        let e = replay(ctx.plant, q, ctx.margins);
+        if e.verdict != Verdict::Holds {
+            let larger = if ctx.margins && holds(ctx.plant, q, false) {
+                " with the required margins"
+            } else {
+                ""
+            };
+            return format!(
+                "{head}: one table serves every row — {step}, {} fails{larger}",
+                row_name(q)
+            );
+        }
+        let more = cost(q, &e.shed_loads) - cost(q, &evals[q].shed_loads);
+        saved -= more;
+        if more > 1e-9 && most.is_none_or(|(_, m)| more > m) {
+            most = Some((q, more));
+        }
+    }
+    if let (true, Some((q, _))) = (saved < -1e-9, most) {
+        let (_, qop) = ctx.rows[q];
+        let now: f64 = evals[q].shed_loads.iter().map(|&l| ctx.mw[qop][l]).sum();
+        let then: f64 = replay(ctx.plant, q, false)
+            .shed_loads
+            .iter()
+            .map(|&l| ctx.mw[qop][l])
+            .sum();
+        return format!(
+            "{head}: one table serves every row — {step}, {} would shed {then:.2} MW instead of {now:.2} MW, which costs more than this row saves",
+            row_name(q)
         );
-        let larger = if ctx.margins && holds(ctx.plant, q, false) {
-            " with the required margins"
-        } else {
-            ""
-        };
-        return format!("{head}: one table serves every row — {step}, {name} fails{larger}");
     }
     // 4. Nothing fails: the audit, or the search.
     if !ctx.rules_clean(&cheaper) {
