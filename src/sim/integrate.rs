@@ -70,6 +70,9 @@ pub struct StepOptions {
     pub max_step_s: f64,
     pub rtol: f64,
     pub atol: f64,
+    /// The first step to try (capped at `max_step_s`); 0 lets the solver estimate one
+    /// (Hairer, Nørsett & Wanner, *Solving ODEs I*, §II.4, two derivative evaluations).
+    pub first_step_s: f64,
 }
 
 /// One integrated segment.
@@ -441,7 +444,7 @@ macro_rules! dopri5_runner {
                 0.2,
                 10.0,
                 h_max,
-                0.0,
+                opt.first_step_s.clamp(0.0, h_max),
                 1_000_000,
                 u32::MAX,
                 OutputType::Continuous,
@@ -488,6 +491,15 @@ impl Segment {
 
     pub fn slope(&self, k: usize) -> &[f64] {
         &self.slopes[k * self.n..(k + 1) * self.n]
+    }
+
+    /// The segment's longest of its last two accepted steps (the very last one may have been
+    /// shortened to end the segment exactly); 0 without a step.
+    pub fn last_step_s(&self) -> f64 {
+        let t = &self.times;
+        let step = |k: usize| if k >= 1 && k < t.len() { t[k] - t[k - 1] } else { 0.0 };
+        let n = t.len();
+        step(n.wrapping_sub(1)).max(step(n.wrapping_sub(2)))
     }
 
     pub fn last_state(&self) -> &[f64] {
