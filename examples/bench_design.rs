@@ -1,8 +1,10 @@
-//! Benchmark of `nadir design` (not a timed test): wall time, layouts sized, replays, total shed,
-//! shed against the lower bound, and objective against the plain baseline, on the demo plant and
+//! Benchmark of `nadir design` (not a timed test): wall time, layouts sized, replays, assignment
+//! solves and the most branch-and-bound nodes any one took (marked `!` when a solve exhausted its
+//! node budget), total shed, shed against the lower bound, and objective against the plain baseline, on the demo plant and
 //! on a family of generated plants (examples/support/synthetic.rs).
 //!
-//! Run: `cargo run --release --example bench_design [-- quick | N | large] [--budget S]`.
+//! Run: `cargo run --release --example bench_design [-- quick | N | large] [--budget S]
+//! [--verbose]`; `--verbose` prints design's steps with the elapsed time to stderr.
 //! `quick` runs the demo and the small members only; a number N runs only the N-th generated
 //! member (from 0); `large` runs only the 500, 1,000 and 2,000-load members. Each member from 200
 //! loads up runs in a child process that is stopped after `--budget` seconds (default 180), so a
@@ -39,7 +41,7 @@ const CHILD: usize = 4;
 
 fn header() -> String {
     format!(
-        "{:<28} {:>5} {:>5} {:>4} {:>6} {:>8} {:>8} {:>8} {:>9} {:>9} {:>7} {:>10} {:>10} {:>7}",
+        "{:<28} {:>5} {:>5} {:>4} {:>6} {:>8} {:>8} {:>8} {:>6} {:>6} {:>9} {:>9} {:>7} {:>10} {:>10} {:>7}",
         "instance",
         "loads",
         "cases",
@@ -48,6 +50,8 @@ fn header() -> String {
         "wall s",
         "layouts",
         "replays",
+        "solves",
+        "nodes",
         "shed MW",
         "bound MW",
         "ratio",
@@ -133,11 +137,11 @@ fn member(n: usize) {
 /// `budget` seconds.
 fn in_child(n: usize, budget: u64) {
     let exe = std::env::current_exe().expect("the benchmark's own path");
-    let mut child = match Command::new(exe)
-        .args(["--child", &n.to_string()])
-        .stdout(Stdio::piped())
-        .spawn()
-    {
+    let mut args = vec!["--child".to_string(), n.to_string()];
+    if std::env::args().any(|a| a == "--verbose") {
+        args.push("--verbose".into());
+    }
+    let mut child = match Command::new(exe).args(&args).stdout(Stdio::piped()).spawn() {
         Ok(c) => c,
         Err(e) => {
             println!("{:<28} could not start: {e}", name(n));
@@ -176,7 +180,13 @@ fn in_child(n: usize, budget: u64) {
 
 fn run(name: &str, plant: &Plant, cases: &CaseSet) {
     let t = Instant::now();
-    let result = design::design(plant, cases, None, &|_| {});
+    let verbose = std::env::args().any(|a| a == "--verbose");
+    let progress = move |what: &str| {
+        if verbose {
+            eprintln!("  [{:7.1} s] {what}", t.elapsed().as_secs_f64());
+        }
+    };
+    let result = design::design(plant, cases, None, &progress);
     let wall = t.elapsed().as_secs_f64();
     let rows = nadir::verify::matrix::pairs(cases).len();
     match result {
@@ -196,7 +206,7 @@ fn print_row(name: &str, plant: &Plant, cases: &CaseSet, rows: usize, wall: f64,
         None => ("none".into(), "-".into()),
     };
     println!(
-        "{:<28} {:>5} {:>5} {:>4} {:>6} {:>8.1} {:>8} {:>8} {:>9.2} {:>9.2} {:>7} {:>10.2} {:>10} {:>7}",
+        "{:<28} {:>5} {:>5} {:>4} {:>6} {:>8.1} {:>8} {:>8} {:>6} {:>6} {:>9.2} {:>9.2} {:>7} {:>10.2} {:>10} {:>7}",
         name,
         plant.loads.len(),
         cases.cases.len(),
@@ -205,6 +215,12 @@ fn print_row(name: &str, plant: &Plant, cases: &CaseSet, rows: usize, wall: f64,
         wall,
         p.layouts_sized,
         p.replays,
+        p.solver.solves,
+        if p.solver.unsolved > 0 {
+            format!("{}!", p.solver.most_nodes)
+        } else {
+            p.solver.most_nodes.to_string()
+        },
         shed,
         bound,
         if bound > 1e-9 {

@@ -233,8 +233,18 @@ fn stage_table(plant: &nadir::model::Plant, p: &Proposal) -> String {
         ),
         _ => String::new(),
     };
+    let unsolved = if p.solver.unsolved > 0 {
+        format!(
+            "Warning: {} assignment solve(s) exhausted the solver's node budget ({} nodes) and \
+             their layouts were dropped: a better table may exist.\n",
+            p.solver.unsolved,
+            nadir::design::assign::NODE_LIMIT
+        )
+    } else {
+        String::new()
+    };
     format!(
-        "Proposed table, {source}:\n{}\n{backstop}{}",
+        "Proposed table, {source}:\n{}\n{backstop}{unsolved}{}",
         finish(b, 2..4 + 1 + plant.operating_points.len()),
         headroom_lines(p)
     )

@@ -117,6 +117,7 @@ pub(super) fn finish(
         unassigned,
         layouts_sized,
         replays: replays + best.runs,
+        solver: ctx.solver_summary(),
     }
 }
 

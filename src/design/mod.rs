@@ -58,6 +58,9 @@ pub struct Proposal {
     pub unassigned: Vec<String>,
     pub layouts_sized: usize,
     pub replays: usize,
+    /// What the assignment solves took; the output warns when any exhausted its node budget.
+    #[serde(skip)]
+    pub solver: sizing::SolverSummary,
 }
 
 /// Per operating point: how much sheddable load the table holds against the most any studied

@@ -14,6 +14,8 @@ use super::layout::{self, Layout};
 use crate::model::{CaseSet, Measurement, Plant, Scheme};
 use crate::sim::SimConfig;
 use rayon::prelude::*;
+use std::sync::atomic::{AtomicU64, AtomicUsize, Ordering};
+use std::sync::Arc;
 
 /// What every sizing of one design shares.
 #[derive(Debug, Clone)]
@@ -34,6 +36,28 @@ pub struct Context<'a> {
     /// Whether a row holds only with the plant's required margins too. The settings search
     /// sizes without them (`Context::without_margins`); the finalists are sized again with them.
     pub margins: bool,
+    /// The assignment solves of this design (shared by every clone of the context).
+    solver: Arc<SolverCounts>,
+}
+
+/// Counts of one design's assignment solves, kept across threads.
+#[derive(Debug, Default)]
+struct SolverCounts {
+    solves: AtomicUsize,
+    most_nodes: AtomicU64,
+    /// Solves that exhausted their node budget: each dropped the layout it was sizing.
+    unsolved: AtomicUsize,
+}
+
+/// What the assignment solves of one design took.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct SolverSummary {
+    pub solves: usize,
+    /// The most branch-and-bound nodes any one solve took.
+    pub most_nodes: u64,
+    /// Solves that exhausted the node budget (`assign::NODE_LIMIT`); each dropped the layout it
+    /// was sizing, so a proposal made with any is not known to be the search's best.
+    pub unsolved: usize,
 }
 
 impl<'a> Context<'a> {
@@ -69,6 +93,16 @@ impl<'a> Context<'a> {
             measurement,
             name: name.to_string(),
             margins: plant.criteria.margins_required(),
+            solver: Arc::new(SolverCounts::default()),
+        }
+    }
+
+    /// The assignment solves so far (counts only: the same on every run and thread count).
+    pub fn solver_summary(&self) -> SolverSummary {
+        SolverSummary {
+            solves: self.solver.solves.load(Ordering::Relaxed),
+            most_nodes: self.solver.most_nodes.load(Ordering::Relaxed),
+            unsolved: self.solver.unsolved.load(Ordering::Relaxed),
         }
     }
 
@@ -346,9 +380,23 @@ pub fn size(
             start: &keep,
             change_cost,
         };
-        assignment = match assign::solve(&problem) {
-            Ok(a) => a,
+        ctx.solver.solves.fetch_add(1, Ordering::Relaxed);
+        let solved = assign::solve(&problem);
+        let nodes = match &solved {
+            Ok(s) => s.nodes,
+            Err(AssignError::NodeLimit { nodes }) => *nodes,
+            Err(_) => 0,
+        };
+        ctx.solver.most_nodes.fetch_max(nodes, Ordering::Relaxed);
+        assignment = match solved {
+            Ok(s) => s.assignment,
             Err(AssignError::Infeasible) => return Err(NotSized::Infeasible),
+            Err(AssignError::NodeLimit { nodes }) => {
+                ctx.solver.unsolved.fetch_add(1, Ordering::Relaxed);
+                return Err(NotSized::Solver(format!(
+                    "the assignment model was not solved within {nodes} branch-and-bound nodes"
+                )));
+            }
             Err(AssignError::Solver(s)) => return Err(NotSized::Solver(s)),
         };
         if seen.contains(&assignment) {
