@@ -497,7 +497,13 @@ impl Segment {
     /// shortened to end the segment exactly); 0 without a step.
     pub fn last_step_s(&self) -> f64 {
         let t = &self.times;
-        let step = |k: usize| if k >= 1 && k < t.len() { t[k] - t[k - 1] } else { 0.0 };
+        let step = |k: usize| {
+            if k >= 1 && k < t.len() {
+                t[k] - t[k - 1]
+            } else {
+                0.0
+            }
+        };
         let n = t.len();
         step(n.wrapping_sub(1)).max(step(n.wrapping_sub(2)))
     }
