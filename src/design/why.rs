@@ -128,6 +128,11 @@ fn reason(
                 from.push(k);
             }
         }
+        if from.is_empty() {
+            // Opened through a stage that lists it for another (the first frequency stage lists
+            // the armed stages' loads): no one step to take back.
+            return head;
+        }
         let mw = ctx.mw[op][last];
         (
             s,
