@@ -129,8 +129,7 @@ fn reason(
             }
         }
         if from.is_empty() {
-            // Opened through a stage that lists it for another (the first frequency stage lists
-            // the armed stages' loads): no one step to take back.
+            // No stage the row operated lists it: no step to take back.
             return head;
         }
         let mw = ctx.mw[op][last];
