@@ -120,7 +120,7 @@ def build_case(true):
                        if "min_rocof_hz_per_s" in item else None}
         stages.append({"id": item["id"], "delay_s": float(item["delay_s"]),
                        "breaker_s": float(item["breaker_s"]), "sheds": sheds, "trigger": trigger})
-    assert len(stages) == 13, "scheme file changed"
+    assert len(stages) == 14, "scheme file changed"
     return {
         "id": "utility-loss", "f0": F0, "duration_s": DURATION_S, "collapse_fraction": 0.85,
         "n_sections": 2, "ties": [{"id": "bus-tie", "between": [0, 1], "closed": True}],

@@ -440,8 +440,9 @@ fn plant_design_highest_pickup_must_be_above_lowest() {
     );
 }
 
-/// 8 stages 0.1 Hz apart (the default coordination spacing) span 7 × 0.1 = 0.7 Hz; a band from
-/// 49.0 to 48.5 Hz holds 6 pickups on a 0.1 Hz grid (arithmetic).
+/// 8 stages 0.2 Hz apart (the default coordination spacing) span 7 × 0.2 = 1.4 Hz; a band from
+/// 49.0 to 48.5 Hz holds 3 pickups 0.2 Hz apart on a 0.1 Hz grid, 49.0, 48.8 and 48.6
+/// (arithmetic).
 #[test]
 fn plant_design_stage_count_must_fit_the_pickup_band() {
     check(
@@ -449,7 +450,7 @@ fn plant_design_stage_count_must_fit_the_pickup_band() {
         &[(
             7,
             "design.stages.max",
-            "8 stages at 0.1 Hz spacing need 0.7 Hz between highest and lowest; highest 49 Hz and lowest 48.5 Hz are 0.5 Hz apart, room for 6",
+            "8 stages at 0.2 Hz spacing need 1.4 Hz between highest and lowest; highest 49 Hz and lowest 48.5 Hz are 0.5 Hz apart, room for 3",
         )],
     );
     let d = diagnostics("plant_design_stages_for_band.yaml");
@@ -457,7 +458,7 @@ fn plant_design_stage_count_must_fit_the_pickup_band() {
         .help
         .as_deref()
         .unwrap()
-        .contains("lower stages.max to 6"));
+        .contains("lower stages.max to 3"));
 }
 
 #[test]

@@ -144,6 +144,23 @@ fn demo_args<'a>(extra: &[&'a str]) -> Vec<&'a str> {
     v
 }
 
+/// `nadir calibrate` on the demo's utility-loss case against `record`, with `extra` flags.
+fn calibrate_on(record: &str, extra: &[&str]) -> binary::Run {
+    let mut args = demo_args(extra);
+    let at = args.iter().position(|a| *a == RECORD).unwrap();
+    args[at] = record;
+    nadir(&args)
+}
+
+/// The lines of a comparison that carry a figure in Hz (the record-and-model table).
+fn hz_lines(stdout: &str) -> Vec<String> {
+    stdout
+        .lines()
+        .filter(|l| l.contains(" Hz"))
+        .map(str::to_string)
+        .collect()
+}
+
 #[test]
 fn the_verb_compares_before_fitting_and_finds_the_event() {
     let r = nadir(&demo_args(&[]));
@@ -324,4 +341,109 @@ fn the_report_has_a_section_on_the_recorded_event() {
         "utility-loss",
     ]);
     assert_eq!(r.code, 2, "--case without --record is a usage error");
+}
+
+/// A record whose time heading does not say its unit is refused with the flag that fixes it, and
+/// with that flag it reads exactly as the record with `time_s` does (the unit is never guessed:
+/// docs/files.md, "Records").
+#[test]
+fn a_time_column_without_its_unit_needs_the_time_unit_flag() {
+    let text = std::fs::read_to_string(RECORD).unwrap();
+    let unitless = text.replacen("time_s,frequency_hz", "time,frequency_hz", 1);
+    assert_ne!(text, unitless, "the demo record's time heading is time_s");
+    let path = out_dir().join("record-unitless-time.csv");
+    std::fs::write(&path, unitless).unwrap();
+    let path = path.to_str().unwrap();
+
+    let refused = calibrate_on(path, &[]);
+    assert_eq!(refused.code, 2, "{}", refused.stderr);
+    assert!(refused.stderr.contains("--time-unit"), "{}", refused.stderr);
+
+    let read = calibrate_on(path, &["--time-unit", "s"]);
+    assert_eq!(read.code, 0, "{}", read.stderr);
+    let original = nadir(&demo_args(&[]));
+    assert_eq!(hz_lines(&read.stdout), hz_lines(&original.stdout));
+
+    let wrong = calibrate_on(RECORD, &["--time-unit", "ms"]);
+    assert_eq!(
+        wrong.code, 2,
+        "a heading in s and a flag in ms disagree: {}",
+        wrong.stderr
+    );
+}
+
+/// The demo record written as a COMTRADE record (IEEE C37.111-1999, ASCII: one analog channel in
+/// mHz scaled by a = 0.001, 100 samples/s, trigger one second after the first sample) reads the
+/// same figures as the CSV record with the event placed at 1 s, and the trigger places the event.
+#[test]
+fn a_comtrade_record_is_compared_like_the_csv_and_its_trigger_places_the_event() {
+    let text = std::fs::read_to_string(RECORD).unwrap();
+    let samples: Vec<(f64, f64)> = text
+        .lines()
+        .filter(|l| !l.starts_with('#') && !l.starts_with("time"))
+        .map(|l| {
+            let (t, f) = l.split_once(',').unwrap();
+            (t.parse().unwrap(), f.parse().unwrap())
+        })
+        .collect();
+    assert!(samples.len() > 2000);
+    let dir = out_dir();
+    let cfg = format!(
+        "Demo substation,REC-1,1999\n1,1A,0D\n1,F,,,Hz,0.001,0,0,-99999999,99999999,1,1,P\n50\n1\n100,{}\n\
+         02/12/2026,10:00:00.000000\n02/12/2026,10:00:01.000000\nASCII\n1\n",
+        samples.len()
+    );
+    let mut dat = String::new();
+    for (k, (t, f)) in samples.iter().enumerate() {
+        dat += &format!("{},{},{}\n", k + 1, (t * 1e6).round(), (f * 1000.0).round());
+    }
+    std::fs::write(dir.join("record-comtrade.cfg"), cfg).unwrap();
+    std::fs::write(dir.join("record-comtrade.dat"), dat).unwrap();
+    let cfg_path = dir.join("record-comtrade.cfg");
+    let cfg_path = cfg_path.to_str().unwrap();
+
+    let comtrade = calibrate_on(cfg_path, &[]);
+    assert_eq!(comtrade.code, 0, "{}", comtrade.stderr);
+    assert!(comtrade.stdout.contains("trigger"), "{}", comtrade.stdout);
+    let csv = nadir(&demo_args(&["--event-at", "1.0"]));
+    assert_eq!(csv.code, 0, "{}", csv.stderr);
+    assert!(!hz_lines(&csv.stdout).is_empty());
+    assert_eq!(hz_lines(&comtrade.stdout), hz_lines(&csv.stdout));
+
+    // The report identifies the whole record: the configuration and its data file, each by the
+    // SHA-256 of its bytes (FIPS 180-4), computed here by the Python standard library.
+    let out = dir.join("report-comtrade.html");
+    let r = nadir(&[
+        "report",
+        PLANT,
+        SCHEME,
+        "--cases",
+        CASES,
+        "-o",
+        out.to_str().unwrap(),
+        "--force",
+        "--record",
+        cfg_path,
+        "--case",
+        "utility-loss",
+    ]);
+    assert!(r.code == 0 || r.code == 1, "{}", r.stderr);
+    let html = std::fs::read_to_string(&out).unwrap();
+    for name in ["record-comtrade.cfg", "record-comtrade.dat"] {
+        assert!(html.contains(name), "{name} not among the report's inputs");
+        let Some(python) = std::env::var_os("NADIR_PYTHON") else {
+            continue;
+        };
+        let digest = std::process::Command::new(python)
+            .args(["-c", "import hashlib,sys; print(hashlib.sha256(open(sys.argv[1],'rb').read()).hexdigest())"])
+            .arg(dir.join(name))
+            .output()
+            .unwrap();
+        let digest = String::from_utf8(digest.stdout).unwrap();
+        assert_eq!(digest.trim().len(), 64, "python printed {digest:?}");
+        assert!(
+            html.contains(digest.trim()),
+            "the SHA-256 of {name} is not in the report"
+        );
+    }
 }

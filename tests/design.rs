@@ -6,7 +6,7 @@ mod common;
 
 use common::{case, gen, load, plant};
 use nadir::design::{self, DesignError, FromOutcome, Source};
-use nadir::model::{Action, BreakerRef, CaseSet, Plant, PrimeMover, Start};
+use nadir::model::{Action, BreakerRef, CaseSet, Plant, PrimeMover, StageTrigger, Start};
 use nadir::verify::audit::{audit_cases, AuditRules};
 use nadir::verify::matrix::{verify, VerifyConfig};
 use std::path::Path;
@@ -55,6 +55,50 @@ fn demo_proposal_verifies_audits_clean_beats_the_baseline_and_is_thread_count_in
         &AuditRules::for_plant(&plant),
     );
     assert!(a.violations.is_empty(), "{:#?}", a.violations);
+    // Robust by default: the demo writes no required margin, so the defaults apply (1.2×
+    // disturbance, 10 % model error: common practice, no source; docs/files.md), and every row's
+    // margins, searched by verify, reach them.
+    assert!(!plant.criteria.margins_written);
+    assert_eq!(plant.criteria.required_disturbance_factor, 1.2);
+    assert_eq!(plant.criteria.required_model_error_pct, 10.0);
+    for r in &m.rows {
+        let margins = r.margins.expect("margins searched");
+        if let Some(v) = margins.disturbance_factor.value() {
+            assert!(v + 1e-9 >= 1.2, "{} at {}: {v}×", r.case, r.operating_point);
+        }
+        let v = margins.model_error_pct.value().unwrap();
+        assert!(
+            v + 1e-9 >= 10.0,
+            "{} at {}: {v} %",
+            r.case,
+            r.operating_point
+        );
+    }
+    // Coordination spacing (default 0.2 Hz, the step of published plans; docs/files.md): any two
+    // frequency stages with different settings are at least that far apart in pickup, or at
+    // least min_spacing_s apart in delay.
+    let settings: Vec<(f64, f64)> = two
+        .scheme
+        .stages
+        .iter()
+        .filter_map(|s| match s.trigger {
+            StageTrigger::Frequency { pickup_hz, .. } => Some((pickup_hz, s.delay_s)),
+            _ => None,
+        })
+        .collect();
+    assert_eq!(plant.criteria.min_spacing_hz, 0.2);
+    for (i, a) in settings.iter().enumerate() {
+        for b in &settings[i + 1..] {
+            let df = (a.0 - b.0).abs();
+            let dt = (a.1 - b.1).abs();
+            assert!(
+                a == b
+                    || df + 1e-9 >= plant.criteria.min_spacing_hz
+                    || dt + 1e-9 >= plant.criteria.min_spacing_s,
+                "stages at {a:?} and {b:?} are not coordinated"
+            );
+        }
+    }
     // The backstop: every sheddable load is in some stage.
     assert!(
         two.unassigned.is_empty(),
@@ -104,48 +148,6 @@ fn demo_proposal_verifies_audits_clean_beats_the_baseline_and_is_thread_count_in
     }
 }
 
-/// A plant that requires margins (here the demo with a 1.2× disturbance and 10 % model-error
-/// margin written, values chosen for the test) gets a proposal that verify passes with those
-/// margins judged by its own margin searches, that audits clean and leaves no load unassigned;
-/// the search sizes without margins and sizes its finalists again with them, so a margin the
-/// search's tables miss is still met.
-#[test]
-fn a_plant_that_requires_margins_gets_a_proposal_that_meets_them() {
-    let (mut plant, cases) = demo();
-    plant.criteria.required_disturbance_factor = 1.2;
-    plant.criteria.required_model_error_pct = 10.0;
-    plant.criteria.margins_written = true;
-    let p = design::design(&plant, &cases, None, &quiet).unwrap();
-    let m = verify(&plant, &cases, &p.scheme, &VerifyConfig::default(), &|| {});
-    let failing: Vec<_> = m.rows.iter().filter(|r| !r.pass).collect();
-    assert!(failing.is_empty(), "proposal fails: {failing:#?}");
-    // Every row's margins were searched and reach the requirement.
-    for r in &m.rows {
-        let margins = r.margins.expect("margins searched");
-        if let Some(v) = margins.disturbance_factor.value() {
-            assert!(v + 1e-9 >= 1.2, "{} at {}: {v}×", r.case, r.operating_point);
-        }
-        let v = margins.model_error_pct.value().unwrap();
-        assert!(
-            v + 1e-9 >= 10.0,
-            "{} at {}: {v} %",
-            r.case,
-            r.operating_point
-        );
-    }
-    let a = audit_cases(
-        &plant,
-        &p.scheme,
-        Some(&cases),
-        &AuditRules::for_plant(&plant),
-    );
-    assert!(a.violations.is_empty(), "{:#?}", a.violations);
-    assert!(p.unassigned.is_empty(), "{:?}", p.unassigned);
-    if let Some(b) = p.baseline.as_ref().filter(|b| b.rules_clean) {
-        assert!(p.objective <= b.objective + 1e-9);
-    }
-}
-
 /// A table that already holds every case is kept as it is, under its own name; beside it, what
 /// a fresh design would cost (the comparison the command line prints).
 #[test]
@@ -159,9 +161,11 @@ fn an_existing_table_that_holds_is_kept_unchanged() {
     assert_eq!(p.scheme.stages, existing.stages);
     assert_eq!(p.scheme.name, existing.name);
     let fresh = p.fresh.as_ref().expect("a fresh design to compare with");
+    // The first table holds the default margins with nothing to spare in its objective: on the
+    // demo a fresh design sheds no less than it does.
     assert!(
-        fresh.objective < p.objective,
-        "on the demo a fresh design is cheaper than the first table: {} against {}",
+        fresh.objective <= p.objective + 1e-9,
+        "a fresh design costs more than the first table: {} against {}",
         fresh.objective,
         p.objective
     );
@@ -170,7 +174,7 @@ fn an_existing_table_that_holds_is_kept_unchanged() {
 /// A new never-shed process line raises the import: the existing settings are kept and only a
 /// few loads move; the result verifies.
 #[test]
-#[ignore = "the demo's first table now lists per-section df/dt stages at one pickup, which design's reassignment (one rank order over stage positions) cannot keep: it designs afresh instead (issue 12, --from on multi-section tables)"]
+#[ignore = "the demo's first table lists per-section stages at one pickup, which design's reassignment (one rank order over stage positions) cannot keep: it designs afresh instead (issue 12, --from on multi-section tables)"]
 fn a_new_process_line_moves_few_loads_and_keeps_the_settings() {
     let text = std::fs::read_to_string("examples/biorefinery/plant.yaml").unwrap();
     let grown = text
@@ -187,16 +191,10 @@ fn a_new_process_line_moves_few_loads_and_keeps_the_settings() {
         nadir::input::load_cases(Path::new("examples/biorefinery/cases.yaml"), &plant).unwrap();
     let existing =
         nadir::input::load_scheme(Path::new("schemes/biorefinery.yaml"), &plant).unwrap();
-    let before = verify(
-        &plant,
-        &cases,
-        &existing,
-        &VerifyConfig {
-            margins: false,
-            ..Default::default()
-        },
-        &|| {},
-    );
+    // The grown import is 6.4 / 5.8 = 1.10× the old one; the table held the old plant's
+    // islanding with the engine trip up to 1.23×, short of the 1.2× the grown plant requires of
+    // its own (larger) import.
+    let before = verify(&plant, &cases, &existing, &VerifyConfig::default(), &|| {});
     assert!(
         !before.all_pass(),
         "the grown plant should break the old table"

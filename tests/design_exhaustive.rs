@@ -9,7 +9,8 @@
 //! `verify::audit`; it calls nothing inside `src/design` except the entry point it checks and
 //! `EXHAUSTIVE_LAYOUTS` (to keep each instance in design's exhaustive-over-settings regime).
 //!
-//! The plants and cases are invented for the test; they describe no real site. Their design
+//! The plants and cases are invented for the test; they describe no real site. They write their
+//! required margins as none (the enumeration judges the criteria without margins). Their design
 //! blocks turn the backstop off (`backstop: false`): the enumeration's tables may leave loads in
 //! no stage, and the backstop is a step after the search, not part of what is compared.
 //!
@@ -81,6 +82,11 @@ operating_points:
     load_scale: 0.7
     dispatch: { st-1: 6.0, eng-1: 2.0 }
     import_mw: 3.2
+
+# The enumeration judges tables without margins, so the plant requires none (the defaults would
+# ask 1.2× and 10 %).
+criteria:
+  required_margin: { disturbance_factor: 1.0, model_error_pct: 0 }
 
 design:
   stages: { min: 1, max: 3 }
@@ -185,6 +191,11 @@ operating_points:
     load_scale: 0.75
     dispatch: { st-1: 6.0, st-2: 3.5, eng-1: 1.5 }
     import_mw: 2.35
+
+# The enumeration judges tables without margins, so the plant requires none (the defaults would
+# ask 1.2× and 10 %).
+criteria:
+  required_margin: { disturbance_factor: 1.0, model_error_pct: 0 }
 
 design:
   stages: { min: 1, max: 3 }

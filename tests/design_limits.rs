@@ -53,6 +53,7 @@ fn demo_plant_block_reads_as_written() {
             rocof_supervision_hz_per_s: Some(0.5),
             rank_weights: Vec::new(),
             backstop: true,
+            long_delay: None,
         }
     );
 }
@@ -94,6 +95,7 @@ fn full_block_on_the_demo_plant_resolves_breakers_and_weights() {
             // In rank order, whatever the order written.
             rank_weights: vec![(1, 1.5), (2, 2.0), (10, 25.0)],
             backstop: false,
+            long_delay: None,
         }
     );
     assert_eq!(d.rank_weight(10), 25.0);

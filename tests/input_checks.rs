@@ -77,10 +77,7 @@ fn a_rating_in_kva_is_warned_before_any_result_and_the_verdict_says_so() {
         ),
     );
     let p = plant.to_str().unwrap();
-    let (code, out) = nadir_merged(
-        "kva",
-        &["verify", p, SCHEME, "--cases", CASES, "--no-margins"],
-    );
+    let (code, out) = nadir_merged("kva", &["verify", p, SCHEME, "--cases", CASES]);
     assert_eq!(code, 0, "{out}");
     let expected = format!("{p}:40:17: {KVA_WARNING}\n");
     assert!(out.starts_with(&expected), "got:\n{out}");

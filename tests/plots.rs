@@ -171,7 +171,10 @@ fn events_armed_trips_stage_steps_and_a_supervised_stage_that_did_not_operate() 
     assert!(d.label("event", "bge-1 trips").is_some());
     assert!(d.label("event", "armed-utility (armed) trips").is_some());
     assert!(d.label("shed", "armed-utility 1.65 MW").is_some());
-    assert!(d.label("shed", "uf-1 2 MW").is_some());
+    // uf-1 opens the hammer mills (2.0 MW) and dryer 1's heaters (0.6 MW; its fans went with the
+    // armed stage); uf-1-a chip-conveyors (0.6 MW): schemes/biorefinery.yaml.
+    assert!(d.label("shed", "uf-1 2.6 MW").is_some());
+    assert!(d.label("shed", "uf-1-a 0.6 MW").is_some());
     // The df/dt-supervised stages (49.2 Hz, df/dt ≤ −1 Hz/s) are crossed on the slow fall after
     // the engine trips and do not operate: the plot says why.
     assert_eq!(

@@ -150,7 +150,7 @@ fn one_plot_per_case_and_nothing_to_fetch() {
             "{point}"
         );
     }
-    assert!(first.contains("uf-1 49 Hz") && first.contains("minimum 47.5 Hz"));
+    assert!(first.contains("uf-1, uf-1-a 49 Hz") && first.contains("minimum 47.5 Hz"));
     // After the bus split each island is its own line (the over-frequency one included).
     let split = &html[html.find("<h3>bus-split-islanded</h3>").unwrap()..];
     let split = &split[..split.find("</figure>").unwrap()];
@@ -245,7 +245,7 @@ fn an_existing_report_is_kept_unless_forced() {
 fn a_failing_table_still_gets_its_report_and_exit_code_1() {
     let dir = scratch_dir("failing");
     let path = dir.join("report.html");
-    // The proposal without the armed stage fails one case (README, `nadir compare`).
+    // The proposal with a smaller 49.0 Hz step fails one case (README, `nadir compare`).
     let o = Command::new(env!("CARGO_BIN_EXE_nadir"))
         .args([
             "report",
@@ -266,7 +266,7 @@ fn a_failing_table_still_gets_its_report_and_exit_code_1() {
     assert!(html.contains("One of twelve case × operating-point runs FAIL (eleven pass)"));
     assert!(html.contains("<tr class=\"fail\">"));
     assert!(html.contains(">FAIL</td>"));
-    assert!(html.contains("did not recover above 49.5 Hz"));
+    assert!(html.contains("holds only up to 1.08× its disturbance; 1.20× is required"));
 }
 
 #[test]

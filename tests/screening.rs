@@ -443,8 +443,11 @@ fn demo_scheme_stage_sizes() {
     // Full rate: armed 0.35 + 0.10 + 1.20 = 1.65 MW. The df/dt step lists the armed stage's loads
     // again as its backup: uf-fast-a 0.35 + 0.10 + 0.60 = 1.05 MW of which only chip-conveyors
     // (0.60) is new, uf-fast-b 1.20 + 0.60 = 1.80 MW of which only dryer-1-heaters (0.60) is new;
-    // the cumulative counts each load once: 1.65 + 0.60 + 0.60 = 2.85 MW; uf-1 2.0 MW → 4.85 MW =
-    // 21.0 % of 23.1 MW. Turndown scales every load by 0.7.
+    // the cumulative counts each load once: 1.65 + 0.60 + 0.60 = 2.85 MW; uf-1 lists the hammer
+    // mills (2.0 MW, new) and dryer 1 again (1.8 MW): 3.8 MW, cumulative 4.85 MW = 21.0 % of
+    // 23.1 MW; uf-1-a adds nothing new. The backstop (uf-6-a, uf-6-b) brings every sheddable
+    // load in: 13.95 MW up to rank 21 plus 0.35 + 0.40 + 0.45 + 0.25 + 0.60 + 0.90 + 0.20 =
+    // 3.15 MW of ranks 22–28, 17.10 MW. Turndown scales every load by 0.7.
     let (plant, _, scheme) = demo();
     let s = screen_scheme(&plant, &scheme);
     let ids: Vec<&str> = s.stages.iter().map(|x| x.stage.as_str()).collect();
@@ -455,6 +458,7 @@ fn demo_scheme_stage_sizes() {
             "uf-fast-a",
             "uf-fast-b",
             "uf-1",
+            "uf-1-a",
             "uf-2",
             "uf-3-a",
             "uf-3-b",
@@ -481,6 +485,12 @@ fn demo_scheme_stage_sizes() {
         1e-9,
         "% of load",
     );
-    close(s.stages[3].mw[1], 0.7 * 2.0, 1e-9, "uf-1 at turndown");
-    close(s.stages[12].cumulative_mw[0], 13.95, 1e-9, "whole table");
+    close(s.stages[3].mw[1], 0.7 * 3.8, 1e-9, "uf-1 at turndown");
+    close(
+        s.stages[4].cumulative_mw[0],
+        4.85,
+        1e-9,
+        "uf-1-a adds nothing",
+    );
+    close(s.stages[13].cumulative_mw[0], 17.10, 1e-9, "whole table");
 }

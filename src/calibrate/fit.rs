@@ -3,8 +3,8 @@
 //! interval and the correlation between the estimates.
 //!
 //! Owns the one use of the `levenberg-marquardt` crate (MINPACK's Levenberg–Marquardt:
-//! J. J. Moré, "The Levenberg–Marquardt algorithm: implementation and theory", Lecture Notes in
-//! Mathematics 630, 1978). Bounds by the sine transform p = lo + (hi − lo)(1 + sin u)/2 of
+//! J. J. Moré, "The Levenberg–Marquardt algorithm: implementation and theory", in Numerical Analysis,
+//! Springer LNM 630, 1978). Bounds by the sine transform p = lo + (hi − lo)(1 + sin u)/2 of
 //! F. James, MINUIT Reference Manual (CERN Program Library D506), "parameter limits": the
 //! optimiser works on an unbounded u, and every p it tries lies within the bounds.
 //! Confidence from the Jacobian at the solution, in the parameters' own units:

@@ -7,7 +7,7 @@ use super::verify::wrap_text;
 use super::{load, Outcome};
 use anyhow::{bail, Context};
 use nadir::calibrate::{self, fit, params, Comparison, Recorded, Setup};
-use nadir::recording::{self, FrequencyOrigin, FrequencyRecord, ReadOptions};
+use nadir::recording::{self, FrequencyOrigin, FrequencyRecord, ReadOptions, TimeUnit};
 use nadir::report::plot::{self, RunAt};
 use std::path::{Path, PathBuf};
 use tabled::builder::Builder;
@@ -44,6 +44,8 @@ pub struct CalibrateArgs {
     /// else its first voltage channel.
     #[arg(long, value_name = "NAME")]
     pub channel: Option<String>,
+    #[command(flatten)]
+    pub axis: RecordAxisArgs,
     /// The bus section the record measured (its id); default: the first section.
     #[arg(long, value_name = "SECTION")]
     pub section: Option<String>,
@@ -121,6 +123,7 @@ pub fn run(args: CalibrateArgs) -> anyhow::Result<Outcome> {
         &EventRequest {
             record: &args.record,
             channel: args.channel.as_deref(),
+            axis: &args.axis,
             case: &args.case,
             at: args.at.as_deref(),
             section: args.section.as_deref(),
@@ -258,11 +261,47 @@ pub fn run(args: CalibrateArgs) -> anyhow::Result<Outcome> {
     Ok(outcome)
 }
 
+/// How to read a record's time axis: the flags of `calibrate` and of `report --record`, named as
+/// the record reader's fix texts name them.
+#[derive(Debug, Clone, Default, clap::Args)]
+pub struct RecordAxisArgs {
+    /// Unit of a CSV record's time column when its heading does not say it (`time` rather than
+    /// `time_s` or `time [ms]`); when the heading says it too, the two must agree.
+    #[arg(long, value_enum, value_name = "UNIT")]
+    pub time_unit: Option<TimeUnitArg>,
+    /// Largest step between two samples that is not a sampling gap, seconds; default: 1.5 times
+    /// the record's median step.
+    #[arg(long, value_name = "S")]
+    pub max_step: Option<f64>,
+}
+
+/// A record's time unit as typed on the command line.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum TimeUnitArg {
+    /// Seconds.
+    S,
+    /// Milliseconds.
+    Ms,
+    /// Microseconds.
+    Us,
+}
+
+impl From<TimeUnitArg> for TimeUnit {
+    fn from(u: TimeUnitArg) -> TimeUnit {
+        match u {
+            TimeUnitArg::S => TimeUnit::Seconds,
+            TimeUnitArg::Ms => TimeUnit::Milliseconds,
+            TimeUnitArg::Us => TimeUnit::Microseconds,
+        }
+    }
+}
+
 /// Which record, case, point and section a comparison uses (the flags of `calibrate`, and of
 /// `report --record`).
 pub struct EventRequest<'a> {
     pub record: &'a Path,
     pub channel: Option<&'a str>,
+    pub axis: &'a RecordAxisArgs,
     pub case: &'a str,
     pub at: Option<&'a str>,
     pub section: Option<&'a str>,
@@ -343,6 +382,8 @@ pub fn recorded_event(
     };
     let options = ReadOptions {
         channel: req.channel.map(str::to_string),
+        time_unit: req.axis.time_unit.map(TimeUnit::from),
+        max_step_s: req.axis.max_step,
         ..ReadOptions::default()
     };
     let record = recording::read_frequency_record(req.record, &options)

@@ -51,6 +51,9 @@ pub struct ReportArgs {
     /// With --record: the record's channel to use.
     #[arg(long, value_name = "NAME", requires = "record")]
     pub channel: Option<String>,
+    /// With --record: how to read its time axis (--time-unit, --max-step).
+    #[command(flatten)]
+    pub record_axis: super::calibrate::RecordAxisArgs,
     /// With --record: when the event happened, seconds on the record's axis; default: the
     /// record's trigger, else the onset found in it.
     #[arg(
@@ -112,7 +115,7 @@ pub fn run(args: ReportArgs) -> anyhow::Result<Outcome> {
     };
     let mut files = vec![plant_file, cases_file, scheme_file];
     if let Some((_, f)) = &record {
-        files.push(f.clone());
+        files.extend(f.iter().cloned());
     }
     let text = html::render(&ReportInputs {
         plant: &plant,
@@ -190,12 +193,13 @@ fn record_section(
     plant: &Plant,
     cases: &CaseSet,
     scheme: &Scheme,
-) -> anyhow::Result<(RecordSection, InputFile)> {
+) -> anyhow::Result<(RecordSection, Vec<InputFile>)> {
     use nadir::calibrate::{self, Setup};
     let ev = super::calibrate::recorded_event(
         &super::calibrate::EventRequest {
             record: path,
             channel: args.channel.as_deref(),
+            axis: &args.record_axis,
             case: args.case.as_deref().unwrap_or_default(),
             at: args.at.as_deref(),
             section: args.section.as_deref(),
@@ -252,9 +256,18 @@ fn record_section(
             format!("estimated from channel {channel}: {method}")
         }
     };
-    let bytes =
-        std::fs::read(path).with_context(|| format!("reading record {}", path.display()))?;
-    let file = InputFile::from_bytes("record", &relative_to_working_directory(path), &bytes);
+    // The whole record is identified: a COMTRADE configuration and its data file each by its bytes.
+    let mut record_files = Vec::new();
+    for (k, p) in nadir::recording::files_of(path).iter().enumerate() {
+        let bytes = std::fs::read(p).with_context(|| format!("reading record {}", p.display()))?;
+        let role = if k == 0 { "record" } else { "record data" };
+        record_files.push(InputFile::from_bytes(
+            role,
+            &relative_to_working_directory(p),
+            &bytes,
+        ));
+    }
+    let file = record_files[0].clone();
     Ok((
         RecordSection {
             file: file.path.clone(),
@@ -271,7 +284,7 @@ fn record_section(
             rocof_window_s: window,
             plot: drawn,
         },
-        file,
+        record_files,
     ))
 }
 

@@ -110,6 +110,7 @@ pub fn add(ctx: &Context, best: &mut Sized) -> Backstop {
                 delay_s: delay,
                 breaker_s: limits.breaker_s,
                 section: None,
+                long_delay: false,
             });
             let k = l.stages.len() - 1;
             let mut a = best.assignment.clone();

@@ -116,12 +116,9 @@ pub fn bound(plant: &Plant, case: &Case, op: usize, cfg: &SimConfig) -> Result<B
 fn falling_sections(plant: &Plant, case: &Case, op: usize, run: &sim::Run) -> Vec<usize> {
     let _ = (case, op);
     let low = plant.criteria.normal_low_hz;
-    let mut out: Vec<usize> = match &run.trace {
-        Some(trace) => (0..plant.sections.len())
-            .filter(|&s| trace.section_hz[s].iter().any(|&f| f < low))
-            .collect(),
-        None => Vec::new(),
-    };
+    let mut out: Vec<usize> = (0..plant.sections.len())
+        .filter(|&s| run.trajectory.first_grid_below(&[s], 0.0, low).is_some())
+        .collect();
     if out.is_empty() {
         out = (0..plant.sections.len()).collect();
     }
@@ -336,13 +333,7 @@ pub fn realisable(
 
 /// The first time at or after `from` that frequency in any of `sections` is below `hz`.
 fn first_below(run: &sim::Run, sections: &[usize], from: f64, hz: f64) -> Option<f64> {
-    let trace = run.trace.as_ref()?;
-    trace
-        .t_s
-        .iter()
-        .enumerate()
-        .find(|&(k, &t)| t >= from && sections.iter().any(|&s| trace.section_hz[s][k] < hz))
-        .map(|(_, &t)| t)
+    run.trajectory.first_grid_below(sections, from, hz)
 }
 
 /// The least MW of whole loads in rank order (in `sections`, switched on at `op`) that reaches

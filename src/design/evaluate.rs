@@ -127,7 +127,9 @@ pub fn verdict_of(plant: &Plant, case: &Case, op: usize, run: &Run) -> Verdict {
             Verdict::Short
         };
     }
-    let rocof_rising = steepest_window_rises(run, c.rocof_window_s);
+    // The sampled trace is built only when a ROCOF failure asks which way it went.
+    let rocof_rising = failures.iter().any(|f| f.criterion == "rocof")
+        && steepest_window_rises(run, c.rocof_window_s);
     let too_high = failures.iter().any(|f| match f.criterion {
         "max_hz" => true,
         "rocof" => rocof_rising,
@@ -170,21 +172,15 @@ fn first_cascade_on_rise(plant: &Plant, run: &Run) -> Option<bool> {
         _ => None,
     })?;
     let section = plant.generators[plant.generator_index(generator)?].section;
-    let trace = run.trace.as_ref()?;
-    let f = &trace.section_hz[section];
-    let at = |t: f64| {
-        let k = trace.t_s.partition_point(|&x| x <= t);
-        f[k.saturating_sub(1).min(f.len().saturating_sub(1))]
-    };
+    let path = &run.trajectory;
+    let at = |t: f64| path.grid_hz(section, path.grid_at_or_before(t));
     Some(at(at_s) > at(at_s - 0.1))
 }
 
 /// Whether the steepest frequency change over `window_s` (on the sampled trace, any section) is
 /// a rise: a ROCOF failure on a rise comes from shedding too much at once.
 fn steepest_window_rises(run: &Run, window_s: f64) -> bool {
-    let Some(trace) = &run.trace else {
-        return false;
-    };
+    let trace = run.sampled_trace();
     let mut best = (0.0_f64, false);
     for section in &trace.section_hz {
         let mut back = 0;

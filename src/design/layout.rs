@@ -2,7 +2,9 @@
 //! triggers and delays; the grid they are chosen on; and the table a layout and an assignment of
 //! loads make together.
 
-use crate::model::{BreakerRef, DesignLimits, Measurement, Plant, Scheme, Stage, StageTrigger};
+use crate::model::{
+    BreakerRef, DesignLimits, LongDelayGrid, Measurement, Plant, Scheme, Stage, StageTrigger,
+};
 
 /// The settings of one stage.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -14,6 +16,9 @@ pub struct Setting {
     /// its first listed load's section, so a load of this section is listed first); `None`:
     /// wherever the stage's lowest-ranked load is.
     pub section: Option<usize>,
+    /// The long-delay stage of the plant's `long_delay` grid (pickup near the recovery level, a
+    /// delay of seconds); it comes first among the frequency stages.
+    pub long_delay: bool,
 }
 
 /// Stages in operating order: armed stages first, then frequency stages by falling pickup.
@@ -50,6 +55,16 @@ pub fn pickup_grid(limits: &DesignLimits) -> Vec<f64> {
 /// The delay grid, shortest first.
 pub fn delay_grid(limits: &DesignLimits) -> Vec<f64> {
     grid(limits.min_delay_s, limits.max_delay_s, limits.delay_step_s)
+}
+
+/// The long-delay stage's pickup grid, highest first.
+pub fn long_pickup_grid(g: &LongDelayGrid) -> Vec<f64> {
+    grid(g.highest_pickup_hz, g.lowest_pickup_hz, -g.pickup_step_hz)
+}
+
+/// The long-delay stage's delay grid, shortest first.
+pub fn long_delay_grid(g: &LongDelayGrid) -> Vec<f64> {
+    grid(g.min_delay_s, g.max_delay_s, g.delay_step_s)
 }
 
 /// Points from `from` towards `to` in steps of `step`, rounded to 1e-6 so that grid values print
@@ -116,6 +131,7 @@ pub fn build(
             delay_s,
             breaker_s,
             section: None,
+            long_delay: false,
         })
         .collect();
     stages.extend(
@@ -129,6 +145,7 @@ pub fn build(
                 delay_s,
                 breaker_s,
                 section: None,
+                long_delay: false,
             }),
     );
     Layout {
@@ -156,6 +173,7 @@ pub fn of_scheme(plant: &Plant, scheme: &Scheme) -> (Layout, Vec<usize>) {
                     }
                     StageTrigger::Breaker(_) => None,
                 },
+                long_delay: false,
             }
         })
         .collect();
@@ -209,6 +227,7 @@ pub fn scheme(
                         format!("armed-{what}-{armed}")
                     }
                 }
+                StageTrigger::Frequency { .. } if st.long_delay => "uf-long".to_string(),
                 StageTrigger::Frequency { .. } => {
                     uf += 1;
                     format!("uf-{uf}")
@@ -252,11 +271,15 @@ pub fn scheme(
                 }
             }
         }
-    } else if let Some(f) = first_frequency(layout) {
-        let armed: Vec<usize> = (0..f).flat_map(|k| stages[k].sheds.clone()).collect();
-        for l in armed {
-            if !stages[f].sheds.contains(&l) {
-                stages[f].sheds.push(l);
+    } else {
+        // A fast fall reaches the first ordinary stage before a long delay runs out: that stage
+        // also lists the long-delay stage's loads (and, through it, the armed stages').
+        for f in listing_stages(layout) {
+            let earlier: Vec<usize> = (0..f).flat_map(|k| stages[k].sheds.clone()).collect();
+            for l in earlier {
+                if !stages[f].sheds.contains(&l) {
+                    stages[f].sheds.push(l);
+                }
             }
         }
     }
@@ -277,11 +300,37 @@ pub fn first_frequency(layout: &Layout) -> Option<usize> {
         .position(|s| matches!(s.trigger, StageTrigger::Frequency { .. }))
 }
 
+/// The frequency stages that also list the loads of every stage before them: the first
+/// frequency stage (after the armed stages), and the first ordinary stage when a long-delay
+/// stage comes before it.
+fn listing_stages(layout: &Layout) -> Vec<usize> {
+    let mut out = Vec::new();
+    if let Some(f) = first_frequency(layout) {
+        out.push(f);
+        if layout.stages[f].long_delay
+            && layout
+                .stages
+                .get(f + 1)
+                .is_some_and(|s| matches!(s.trigger, StageTrigger::Frequency { .. }))
+        {
+            out.push(f + 1);
+        }
+    }
+    out
+}
+
 /// The stage positions whose loads open when the stages `operated` operate: with the first
-/// frequency stage, the armed stages' loads too (it lists them).
+/// frequency stage, the armed stages' loads too (it lists them); with the first ordinary stage
+/// after a long-delay stage, the long-delay stage's loads as well.
 pub fn effective(layout: &Layout, operated: &[usize]) -> Vec<usize> {
     let mut out = operated.to_vec();
-    if let Some(f) = first_frequency(layout) {
+    if layout.extra.is_empty() {
+        for f in listing_stages(layout) {
+            if operated.contains(&f) {
+                out.extend(0..f);
+            }
+        }
+    } else if let Some(f) = first_frequency(layout) {
         if operated.contains(&f) {
             out.extend(0..f);
         }

@@ -6,7 +6,7 @@
 use super::layout::{self, Layout};
 use super::sizing::{self, Context, Sized};
 use super::Progress;
-use crate::model::{Action, BreakerRef, StageTrigger};
+use crate::model::{Action, BreakerRef, DesignLimits, LongDelayGrid, StageTrigger};
 use rayon::prelude::*;
 
 /// Layout counts up to which every layout on the grid is sized (an exhaustive search over
@@ -197,6 +197,24 @@ pub fn starting_layouts(ctx: &Context) -> (Vec<Layout>, bool) {
             Some(_) => vec![0, 1],
         }
     };
+    // The long-delay stage: none, or (exhaustive) every point of its grid, or (heuristic) its
+    // highest pickup at the middle of its delays.
+    let long_grid = limits
+        .long_delay
+        .map(|g| (layout::long_pickup_grid(&g), layout::long_delay_grid(&g)));
+    let long_all: Vec<Option<(f64, f64)>> = std::iter::once(None)
+        .chain(long_grid.iter().flat_map(|(ps, ds)| {
+            ps.iter()
+                .flat_map(move |&p| ds.iter().map(move |&d| Some((p, d))))
+        }))
+        .collect();
+    let long_few: Vec<Option<(f64, f64)>> = std::iter::once(None)
+        .chain(
+            long_grid
+                .iter()
+                .map(|(ps, ds)| Some((ps[0], ds[ds.len() / 2]))),
+        )
+        .collect();
     let max_k = limits.max_stages.min(ctx.loads.len());
     let min_k = limits.min_stages.max(1).min(max_k);
 
@@ -210,8 +228,11 @@ pub fn starting_layouts(ctx: &Context) -> (Vec<Layout>, bool) {
                 .saturating_mul(rocof_masks(k, true).len()),
         );
     }
-    let exhaustive =
-        breakers.len() < 16 && count.saturating_mul(1 << breakers.len()) <= EXHAUSTIVE_LAYOUTS;
+    let exhaustive = breakers.len() < 16
+        && count
+            .saturating_mul(1 << breakers.len())
+            .saturating_mul(long_all.len())
+            <= EXHAUSTIVE_LAYOUTS;
     let with_rocof = |j: usize, mask: u32| rocof.filter(|_| mask & (1 << j) != 0);
     if exhaustive {
         for k in min_k..=max_k {
@@ -264,12 +285,19 @@ pub fn starting_layouts(ctx: &Context) -> (Vec<Layout>, bool) {
     } else {
         few
     };
+    let long_options = if exhaustive { long_all } else { long_few };
     let mut out = Vec::new();
     for armed in &armed_options {
         let armed: Vec<(BreakerRef, f64)> =
             armed.iter().map(|&b| (b, limits.min_delay_s)).collect();
-        for f in &all {
-            out.push(layout::build(limits, &armed, f));
+        for long in &long_options {
+            for f in &all {
+                let mut l = layout::build(limits, &armed, f);
+                if let Some((p, d)) = *long {
+                    l.stages.insert(armed.len(), long_setting(limits, p, d));
+                }
+                out.push(l);
+            }
         }
     }
     (out, exhaustive)
@@ -298,11 +326,21 @@ fn neighbours(ctx: &Context, layout: &Layout) -> Vec<Layout> {
         }
     };
     let mut out = Vec::new();
+    // Ordinary frequency stages (the long-delay stage has moves of its own, below).
     let frequency: Vec<usize> = (0..layout.stages.len())
-        .filter(|&k| matches!(layout.stages[k].trigger, StageTrigger::Frequency { .. }))
+        .filter(|&k| {
+            matches!(layout.stages[k].trigger, StageTrigger::Frequency { .. })
+                && !layout.stages[k].long_delay
+        })
         .collect();
+    if let Some(g) = limits.long_delay {
+        long_moves(limits, &g, layout, &mut out);
+    }
     for k in 0..layout.stages.len() {
         let st = layout.stages[k];
+        if st.long_delay {
+            continue;
+        }
         if let StageTrigger::Frequency {
             pickup_hz,
             min_rocof_hz_per_s,
@@ -389,6 +427,7 @@ fn neighbours(ctx: &Context, layout: &Layout) -> Vec<Layout> {
                             delay_s: delays[0],
                             breaker_s: limits.breaker_s,
                             section: None,
+                            long_delay: false,
                         });
                         out.push(l);
                     }
@@ -426,6 +465,7 @@ fn neighbours(ctx: &Context, layout: &Layout) -> Vec<Layout> {
                     delay_s: limits.min_delay_s,
                     breaker_s: limits.breaker_s,
                     section: None,
+                    long_delay: false,
                 },
             );
         }
@@ -434,6 +474,60 @@ fn neighbours(ctx: &Context, layout: &Layout) -> Vec<Layout> {
     out.retain(|l| spaced(l, &pickups, gap) && l.frequency_stages() >= 1);
     out.dedup();
     out
+}
+
+/// The long-delay stage at pickup `pickup_hz` and delay `delay_s`.
+fn long_setting(limits: &DesignLimits, pickup_hz: f64, delay_s: f64) -> layout::Setting {
+    layout::Setting {
+        trigger: StageTrigger::Frequency {
+            pickup_hz,
+            min_rocof_hz_per_s: None,
+        },
+        delay_s,
+        breaker_s: limits.breaker_s,
+        section: None,
+        long_delay: true,
+    }
+}
+
+/// Moves of the long-delay stage: removed when the layout has one, else added (first among the
+/// frequency stages, at its highest pickup and middle delay); its pickup one step either way on
+/// its grid, and its delay at any other point of its grid.
+fn long_moves(limits: &DesignLimits, g: &LongDelayGrid, layout: &Layout, out: &mut Vec<Layout>) {
+    let pickups = layout::long_pickup_grid(g);
+    let delays = layout::long_delay_grid(g);
+    let Some(k) = layout.stages.iter().position(|s| s.long_delay) else {
+        let at = layout::first_frequency(layout).unwrap_or(layout.stages.len());
+        let mut l = layout.clone();
+        l.stages.insert(
+            at,
+            long_setting(limits, pickups[0], delays[delays.len() / 2]),
+        );
+        out.push(l);
+        return;
+    };
+    let mut l = layout.clone();
+    l.stages.remove(k);
+    out.push(l);
+    let st = layout.stages[k];
+    if let StageTrigger::Frequency { pickup_hz, .. } = st.trigger {
+        if let Some(p) = pickups.iter().position(|g| (g - pickup_hz).abs() < 1e-6) {
+            for q in [p.wrapping_sub(1), p + 1] {
+                if q < pickups.len() {
+                    let mut l = layout.clone();
+                    l.stages[k] = long_setting(limits, pickups[q], st.delay_s);
+                    out.push(l);
+                }
+            }
+        }
+        for &d in &delays {
+            if (d - st.delay_s).abs() > 1e-9 {
+                let mut l = layout.clone();
+                l.stages[k] = long_setting(limits, pickup_hz, d);
+                out.push(l);
+            }
+        }
+    }
 }
 
 /// Whether the frequency stages of a layout are in falling order, at least `gap` grid steps

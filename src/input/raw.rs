@@ -452,6 +452,21 @@ pub struct RawDesign {
     /// Assign every sheddable load that no studied case needs to a backstop at the lowest pickup (default true).
     #[serde(default)]
     pub backstop: Option<bool>,
+    /// A long-delay stage the design may add, for a frequency that hangs below the recovery level: its pickup and delay grids (default: none; `{}` for the default grid).
+    #[serde(default)]
+    pub long_delay: Option<RawLongDelay>,
+}
+
+/// Grid of the long-delay stage: pickups near the recovery level, delays of seconds.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawLongDelay {
+    /// Band and grid of its pickup, Hz (default 0.988·f0 down to 0.984·f0 in steps of 0.002·f0).
+    #[serde(default)]
+    pub pickup_hz: Option<RawPickupGrid>,
+    /// Grid of its delay, s (default 2 s to 8 s in steps of 2 s).
+    #[serde(default)]
+    pub delay_s: Option<RawDelayGrid>,
 }
 
 /// How many under-frequency stages a proposal may have.

@@ -32,6 +32,54 @@ pub struct DesignLimits {
     /// Every sheddable load no studied case needs shed is still assigned, to a backstop at the
     /// lowest pickup (beyond-design events get the whole sheddable load, in rank order).
     pub backstop: bool,
+    /// A long-delay stage the design may add (`None`: not offered): pickup near the recovery
+    /// level and a delay of seconds, for a frequency that hangs below the recovery level with
+    /// the governors at their limits.
+    pub long_delay: Option<LongDelayGrid>,
+}
+
+/// The grid of the long-delay stage: pickups from `highest_pickup_hz` down to
+/// `lowest_pickup_hz` in `pickup_step_hz`, delays from `min_delay_s` up to `max_delay_s` in
+/// `delay_step_s`.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct LongDelayGrid {
+    pub highest_pickup_hz: f64,
+    pub lowest_pickup_hz: f64,
+    pub pickup_step_hz: f64,
+    pub min_delay_s: f64,
+    pub max_delay_s: f64,
+    pub delay_step_s: f64,
+}
+
+/// Most points (pickups × delays) the long-delay grid may have: each is one more layout to try
+/// in an exhaustive search (a bound on the search, not a rule of the trade).
+pub const MAX_LONG_DELAY_POINTS: f64 = 100.0;
+
+impl LongDelayGrid {
+    /// Defaults scaled from nominal frequency (docs/files.md gives their basis): pickups
+    /// 0.988·f0 down to 0.984·f0 in 0.002·f0 steps (49.4–49.2 Hz at 50 Hz, just under the
+    /// default 49.5 Hz recovery level), delays 2–8 s in 2 s steps.
+    pub fn defaults(nominal_hz: f64) -> LongDelayGrid {
+        LongDelayGrid {
+            highest_pickup_hz: 0.988 * nominal_hz,
+            lowest_pickup_hz: 0.984 * nominal_hz,
+            pickup_step_hz: 0.002 * nominal_hz,
+            min_delay_s: 2.0,
+            max_delay_s: 8.0,
+            delay_step_s: 2.0,
+        }
+    }
+
+    /// Points of the pickup grid and of the delay grid (see [`DesignLimits::grid_points`]).
+    pub fn grid_points(&self) -> (f64, f64) {
+        (
+            axis_points(
+                self.highest_pickup_hz - self.lowest_pickup_hz,
+                self.pickup_step_hz,
+            ),
+            axis_points(self.max_delay_s - self.min_delay_s, self.delay_step_s),
+        )
+    }
 }
 
 impl DesignLimits {
@@ -57,6 +105,7 @@ impl DesignLimits {
             rocof_supervision_hz_per_s: None,
             rank_weights: Vec::new(),
             backstop: true,
+            long_delay: None,
         }
     }
 

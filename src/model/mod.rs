@@ -11,7 +11,10 @@ mod plant;
 mod scheme;
 
 pub use case::{disturbance_span, Action, Case, CaseEvent, CaseSet, Start};
-pub use design::{axis_points as design_axis_points, DesignLimits, GRID_POINTS_CEILING};
+pub use design::{
+    axis_points as design_axis_points, DesignLimits, LongDelayGrid, GRID_POINTS_CEILING,
+    MAX_LONG_DELAY_POINTS,
+};
 pub use plant::{
     Criteria, FrequencyTrip, Generator, Governor, Load, OffFrequencyLimit, OperatingPoint, Plant,
     PressureControl, PrimeMover, Section, Tie, UndervoltageTrip, Utility, INSTANT_LAG_S,

@@ -236,12 +236,15 @@ pub struct Criteria {
 /// enough to see a governed frequency stay put, short enough for the default 30 s run).
 pub const MIN_JUDGED_S: f64 = 5.0;
 
-/// Default required disturbance margin (1.0: none required).
-pub const DEFAULT_DISTURBANCE_FACTOR: f64 = 1.0;
-/// Default required model-error margin, % (0: none required).
-pub const DEFAULT_MODEL_ERROR_PCT: f64 = 0.0;
-/// Default coordination spacing between frequency stages, Hz (common practice, no source).
-pub const DEFAULT_MIN_SPACING_HZ: f64 = 0.1;
+/// Default required disturbance margin: every case holds with its lost import, generation or
+/// load step 20 % larger (common practice, no source; docs/files.md). A plant may write 1.0.
+pub const DEFAULT_DISTURBANCE_FACTOR: f64 = 1.2;
+/// Default required model-error margin, %: every case holds with inertia constants and load
+/// frequency exponents 10 % lower (common practice, no source; docs/files.md). A plant may write 0.
+pub const DEFAULT_MODEL_ERROR_PCT: f64 = 10.0;
+/// Default coordination spacing between frequency stages, Hz: the 0.2 Hz steps of published
+/// under-frequency plans (docs/files.md gives the examples).
+pub const DEFAULT_MIN_SPACING_HZ: f64 = 0.2;
 
 impl Criteria {
     /// The plant asks for a disturbance or model-error margin, so a verification without the

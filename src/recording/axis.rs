@@ -73,8 +73,8 @@ pub fn check(
                     num(w[0])
                 ),
                 "samples are missing here: cut the record before the gap, or, if the recorder \
-                 samples unevenly on purpose, allow the largest step you expect (the max-step \
-                 option)"
+                 samples unevenly on purpose, allow the largest step you expect (--max-step \
+                 SECONDS)"
                     .to_string(),
             ));
         }

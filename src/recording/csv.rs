@@ -339,7 +339,7 @@ fn choose_columns(
                     unit_name(a),
                     unit_name(b)
                 ),
-                "drop the time-unit option, or correct the heading".to_string(),
+                "drop --time-unit, or correct the heading".to_string(),
             ))
         }
         (Some(a), _) | (None, Some(a)) => a,
@@ -350,8 +350,8 @@ fn choose_columns(
                     "the time column `{}` does not say its unit",
                     header[time_col].trim()
                 ),
-                "name it `time_s` or `time_ms` (or `time [s]`, `time [ms]`), or give the time \
-                 unit as an option; nadir does not guess it, since seconds read as milliseconds \
+                "name it `time_s` or `time_ms` (or `time [s]`, `time [ms]`), or give \
+                 --time-unit s|ms|us; nadir does not guess it, since seconds read as milliseconds \
                  make every rate of change a thousand times too steep"
                     .to_string(),
             ))

@@ -93,6 +93,21 @@ impl Default for ReadOptions {
     }
 }
 
+/// Every file the reader takes for the record at `path`: the file itself and, for a COMTRADE
+/// configuration (`.cfg`), the data file beside it, so that a report can identify the whole record
+/// by its bytes.
+pub fn files_of(path: &Path) -> Vec<std::path::PathBuf> {
+    let mut files = vec![path.to_path_buf()];
+    let is_cfg = path
+        .extension()
+        .and_then(|e| e.to_str())
+        .is_some_and(|e| e.eq_ignore_ascii_case("cfg"));
+    if is_cfg {
+        files.extend(comtrade::data_path(path));
+    }
+    files
+}
+
 /// Reads a recorded event's frequency from `path`: a CSV record (`.csv`, `.txt`), or a COMTRADE
 /// record by its configuration file (`.cfg`, with the `.dat` beside it) or its single file
 /// (`.cff`). Every problem is a diagnostic naming the file, the line or sample, and the fix.

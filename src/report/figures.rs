@@ -179,7 +179,12 @@ mod tests {
             settle.words,
             "stays within 49.5–50.5 Hz from 20 s after the disturbance starts to the end of the run"
         );
-        assert!(words.iter().all(|w| w.key != "margin"));
+        // The default margins (1.2× disturbance, 10 % model error) are criteria too.
+        assert!(words.iter().any(|w| w.key == "margin"));
+        let mut none = Criteria::defaults(50.0);
+        none.required_disturbance_factor = 1.0;
+        none.required_model_error_pct = 0.0;
+        assert!(criteria_words(&none).iter().all(|w| w.key != "margin"));
         let mut c = Criteria::defaults(60.0);
         c.required_disturbance_factor = 1.2;
         let words = criteria_words(&c);

@@ -25,7 +25,7 @@ protection engineer, coordinated with the grid operator, and conform to local co
 /// One input file as the report identifies it.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct InputFile {
-    /// `plant`, `cases` or `scheme`.
+    /// `plant`, `cases`, `scheme`, `record` or `record data` (a COMTRADE data file).
     pub role: String,
     /// The path as the report shows it (relative to the working directory).
     pub path: String,

@@ -155,6 +155,31 @@ fn crosses_level(level: f64, h: f64, y0: f64, d0: f64, y1: f64, d1: f64) -> bool
         .any(|v| (v < level) != below0)
 }
 
+/// The stationary point of the step's cubic Hermite interpolant where its slope changes sign
+/// (a fraction of the step in (0, 1)), for a step whose end slopes `d0`, `d1` have opposite signs.
+pub fn hermite_stationary(h: f64, y0: f64, d0: f64, y1: f64, d1: f64) -> Option<f64> {
+    // Slope of the cubic in θ ∈ [0, 1]: a·θ² + b·θ + c with a, b, c as in `hermite_extrema`;
+    // the root between the end slopes' signs is the one the sign change brackets.
+    let dy = y0 - y1;
+    let a = 6.0 * dy + 3.0 * h * (d0 + d1);
+    let b = -6.0 * dy - 4.0 * h * d0 - 2.0 * h * d1;
+    let c = h * d0;
+    let slope = |th: f64| (a * th + b) * th + c;
+    let (mut lo, mut hi) = (0.0_f64, 1.0_f64);
+    if slope(lo) * slope(hi) >= 0.0 {
+        return None;
+    }
+    for _ in 0..60 {
+        let mid = 0.5 * (lo + hi);
+        if slope(mid) * slope(lo) > 0.0 {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    Some(0.5 * (lo + hi))
+}
+
 /// Values of the cubic Hermite interpolant at its interior stationary points (at most two).
 fn hermite_extrema(h: f64, y0: f64, d0: f64, y1: f64, d1: f64) -> [Option<f64>; 2] {
     let dy = y0 - y1;

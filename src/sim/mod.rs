@@ -10,6 +10,9 @@ pub mod event;
 pub mod integrate;
 mod record;
 pub mod rhs;
+mod trajectory;
+
+pub use trajectory::Trajectory;
 
 use crate::model::{Case, Plant, Scheme};
 use serde::Serialize;
@@ -37,6 +40,11 @@ pub struct SimConfig {
     pub collapse_fraction: f64,
     /// Window of the reported ROCOF (|f(t) − f(t − W)|/W on the samples), seconds (0.5).
     pub rocof_window_s: f64,
+    /// A separated island whose frequency falls below this level (Hz) is stopped there as
+    /// collapsed, like one below the collapse floor (`None`: no such level). A search that asks
+    /// only whether a run holds sets it to the criteria's minimum frequency: a run that goes
+    /// below it fails whatever follows, so the rest need not be simulated.
+    pub stop_below_hz: Option<f64>,
     /// Level for [`Run::recovered_above_at_s`]; `None` means 0.99 of nominal.
     pub recover_above_hz: Option<f64>,
     /// Crossing-location tolerance, seconds (1e-6).
@@ -57,6 +65,18 @@ impl SimConfig {
     pub fn overspeed_pu(&self) -> f64 {
         1.0 - self.collapse_fraction
     }
+
+    /// The lowest speed deviation (pu) a separated island may reach before it is stopped: the
+    /// collapse floor, or [`SimConfig::stop_below_hz`] when that is higher.
+    pub fn floor_pu(&self, nominal_hz: f64) -> f64 {
+        let collapse = self.collapse_fraction - 1.0;
+        match self.stop_below_hz {
+            Some(hz) if nominal_hz > 0.0 && (hz - nominal_hz) / nominal_hz > collapse => {
+                (hz - nominal_hz) / nominal_hz
+            }
+            _ => collapse,
+        }
+    }
 }
 
 impl Default for SimConfig {
@@ -71,6 +91,7 @@ impl Default for SimConfig {
             collapse_fraction: 0.85,
             rocof_window_s: 0.5,
             recover_above_hz: None,
+            stop_below_hz: None,
             locate_tol_s: 1e-6,
             max_events: 1000,
             max_kept_values: 5_000_000,
@@ -163,7 +184,23 @@ pub struct Run {
     pub shed_mw: f64,
     /// Load dropped by its own undervoltage release during a dip, MW at nominal frequency.
     pub dropped_mw: f64,
+    /// The sampled trace, kept when [`SimConfig::record_trace`] asks for it.
     pub trace: Option<Trace>,
+    /// The run's path (knots and dense output): criteria read the sample grid from it without
+    /// the trace, and [`Run::sampled_trace`] builds the trace from it on request.
+    #[serde(skip)]
+    pub trajectory: Trajectory,
+}
+
+impl Run {
+    /// The sampled trace: the one kept by the run, or built now from its trajectory (same
+    /// values).
+    pub fn sampled_trace(&self) -> std::borrow::Cow<'_, Trace> {
+        match &self.trace {
+            Some(t) => std::borrow::Cow::Borrowed(t),
+            None => std::borrow::Cow::Owned(self.trajectory.trace()),
+        }
+    }
 }
 
 /// One island over its lifetime (an island is new whenever its sections or its utility

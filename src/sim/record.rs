@@ -15,6 +15,7 @@
 
 use super::integrate::Segment;
 use super::rhs::speed_index;
+use super::trajectory::{Kept, Recorded, Trajectory};
 use std::collections::VecDeque;
 
 /// Grid points are tested for skipping in blocks of this many.
@@ -24,27 +25,16 @@ pub struct Recorder {
     pub nominal_hz: f64,
     pub sample_interval_s: f64,
     n_sections: usize,
-    y0: Vec<f64>,
-    /// Kept segments in time order, each valid on (from, to].
-    kept: Vec<Kept>,
+    /// The start state, the kept segments and the knots (handed to the run at its end).
+    path: Recorded,
     /// Per section: (t, Hz) at segment ends and stationary points.
     pub candidates: Vec<Vec<(f64, f64)>>,
-    /// Per section, time-ordered: (t, Hz) at the start, every step end, every stationary point
-    /// and every segment end. Between two consecutive knots the frequency is monotone.
-    knots: Vec<Vec<(f64, f64)>>,
     recover_pu: f64,
     below: Vec<bool>,
     /// Per section: was below the recovery level at some time.
     ever_below: Vec<bool>,
     /// Per section: last time it came back above the recovery level.
     pub last_up_s: Vec<Option<f64>>,
-}
-
-struct Kept {
-    seg: Segment,
-    to: f64,
-    y_to: Vec<f64>,
-    shed_mw: f64,
 }
 
 /// Grid samples evaluated on demand.
@@ -66,10 +56,8 @@ impl Recorder {
             nominal_hz,
             sample_interval_s,
             n_sections,
-            y0: Vec::new(),
-            kept: Vec::new(),
+            path: Recorded::new(nominal_hz, sample_interval_s, n_sections),
             candidates: vec![Vec::new(); n_sections],
-            knots: vec![Vec::new(); n_sections],
             recover_pu: (recover_hz - nominal_hz) / nominal_hz,
             below: vec![false; n_sections],
             ever_below: vec![false; n_sections],
@@ -83,14 +71,14 @@ impl Recorder {
 
     /// The state at the start of the run.
     pub fn start(&mut self, y0: &[f64]) {
-        self.y0 = y0.to_vec();
+        self.path.y0 = y0.to_vec();
         for s in 0..self.n_sections {
             let dw = y0[speed_index(s)];
             self.below[s] = dw < self.recover_pu;
             self.ever_below[s] = self.below[s];
             let v = self.hz(dw);
             self.candidates[s].push((0.0, v));
-            self.knots[s].push((0.0, v));
+            self.path.knots[s].push((0.0, v));
         }
     }
 
@@ -126,14 +114,14 @@ impl Recorder {
                 let (da, db) = (da[iw], db[iw]);
                 if da * db < 0.0 {
                     let minimum = da < 0.0;
-                    let (t, v) = golden(&seg, iw, ta, tb, minimum);
+                    let (t, v) = extremum(&seg, iw, (ta, ya[iw], da), (tb, yb[iw], db), minimum);
                     let hz = self.hz(v);
                     self.candidates[s].push((t, hz));
-                    self.knots[s].push((t, hz));
+                    self.path.knots[s].push((t, hz));
                 }
                 if k < n_before {
                     let hz = self.hz(yb[iw]);
-                    self.knots[s].push((tb, hz));
+                    self.path.knots[s].push((tb, hz));
                 }
                 let below_b = yb[iw] < self.recover_pu;
                 if below_b != self.below[s] {
@@ -158,9 +146,9 @@ impl Recorder {
             }
             let hz = self.hz(y_stop[iw]);
             self.candidates[s].push((t_stop, hz));
-            self.knots[s].push((t_stop, hz));
+            self.path.knots[s].push((t_stop, hz));
         }
-        self.kept.push(Kept {
+        self.path.kept.push(Kept {
             seg,
             to: t_stop,
             y_to: y_stop.to_vec(),
@@ -183,7 +171,7 @@ impl Recorder {
     /// from its first rise on the highest value is taken. `None` when it never rose.
     pub fn peak_after(&self, s: usize, after: f64, from: f64, to: f64) -> Option<(f64, f64)> {
         let lo = after.max(from);
-        let knots: Vec<(f64, f64)> = self.knots[s]
+        let knots: Vec<(f64, f64)> = self.path.knots[s]
             .iter()
             .copied()
             .filter(|(t, _)| *t >= lo - 1e-12 && *t <= to + 1e-12)
@@ -212,30 +200,9 @@ impl Recorder {
         }
     }
 
-    /// The kept segment a grid time belongs to (the first one ending at or after it).
-    fn kept_at(&self, t: f64) -> Option<&Kept> {
-        let i = self.kept.partition_point(|k| k.to + 1e-12 < t);
-        self.kept.get(i)
-    }
-
-    fn state_component_at(&self, t: f64, i: usize) -> f64 {
-        if t <= 0.0 {
-            return self.y0[i];
-        }
-        match self.kept_at(t) {
-            Some(k) if t >= k.to => k.y_to[i],
-            Some(k) => k.seg.component_at(t, i),
-            None => self.kept.last().map_or(self.y0[i], |k| k.y_to[i]),
-        }
-    }
-
-    fn shed_at(&self, t: f64) -> f64 {
-        if t <= 0.0 {
-            return 0.0;
-        }
-        self.kept_at(t)
-            .or(self.kept.last())
-            .map_or(0.0, |k| k.shed_mw)
+    /// The run's trajectory: what it keeps of its path for reading after the end.
+    pub fn into_trajectory(self, t_end: f64) -> Trajectory {
+        Trajectory::new(self.path, t_end)
     }
 }
 
@@ -254,13 +221,9 @@ impl Samples<'_> {
             return v;
         }
         let t = self.time(k);
-        let v = self.rec.hz(self.rec.state_component_at(t, speed_index(s)));
+        let v = self.rec.hz(self.rec.path.component_at(t, speed_index(s)));
         self.cache[s][k] = v;
         v
-    }
-
-    pub fn shed_mw(&self, k: usize) -> f64 {
-        self.rec.shed_at(self.time(k))
     }
 
     /// Max over grid points `t` with `W ≤ t`, `from < t ≤ to` of |f(t) − f(t − W)|/W on section
@@ -274,7 +237,7 @@ impl Samples<'_> {
             (lo, p - lo as f64)
         };
         let included = |t: f64| !(t < window - 1e-12 || t <= from || t > to + 1e-12);
-        let knots = &self.rec.knots[s];
+        let knots = &self.rec.path.knots[s];
         let mut best: f64 = 0.0;
         // Sliding max/min of knot values over knot index windows whose ends only move forward.
         let mut maxq: VecDeque<usize> = VecDeque::new();
@@ -339,6 +302,45 @@ impl Samples<'_> {
         }
         best
     }
+}
+
+/// The extremum of component `i` inside the step (a, b), whose end values and slopes are given:
+/// Newton's method on the dense output's slope, started at the stationary point of the step's
+/// Hermite cubic; the slope and curvature are central differences of the dense output (a
+/// polynomial inside the step, so they are exact to rounding). Falls back to golden-section
+/// search when Newton leaves the step, meets the wrong curvature or does not settle.
+fn extremum(
+    seg: &Segment,
+    i: usize,
+    (a, ya, da): (f64, f64, f64),
+    (b, yb, db): (f64, f64, f64),
+    minimum: bool,
+) -> (f64, f64) {
+    let h = b - a;
+    let sign = if minimum { 1.0 } else { -1.0 };
+    let f = |t: f64| sign * seg.component_at(t, i);
+    let start = super::integrate::hermite_stationary(h, ya, da, yb, db);
+    if let Some(theta) = start {
+        let delta = (1e-4 * h).clamp(1e-9, 1e-5);
+        let mut t = a + theta * h;
+        for _ in 0..8 {
+            let (lo, mid, hi) = (f(t - delta), f(t), f(t + delta));
+            let curvature = (hi - 2.0 * mid + lo) / (delta * delta);
+            if curvature.partial_cmp(&0.0) != Some(std::cmp::Ordering::Greater) {
+                break;
+            }
+            let step = -((hi - lo) / (2.0 * delta)) / curvature;
+            let next = t + step;
+            if !(next > a && next < b) {
+                break;
+            }
+            t = next;
+            if step.abs() < 1e-8 {
+                return (t, seg.component_at(t, i));
+            }
+        }
+    }
+    golden(seg, i, a, b, minimum)
 }
 
 /// Golden-section search for the extremum of component `i` on [a, b].

@@ -130,8 +130,8 @@ struct IslandEquations {
     energy_mws: f64,
     /// Load that does not depend on frequency (exponent 0, constant-power steps), MW.
     constant_mw: f64,
-    /// (frequency exponent, Σ P0·v² of the connected loads with it), MW.
-    by_exponent: Vec<(f64, f64)>,
+    /// (frequency exponent, its form for computing, Σ P0·v² of the connected loads with it), MW.
+    by_exponent: Vec<(f64, load::Exponent, f64)>,
     /// Speed index of the island's first section (all its sections carry the same value).
     speed: usize,
 }
@@ -182,9 +182,10 @@ impl SegmentEquations {
             if ld.freq_exp == 0.0 {
                 island.constant_mw += p;
             } else if let Some(g) = island.by_exponent.iter_mut().find(|g| g.0 == ld.freq_exp) {
-                g.1 += p;
+                g.2 += p;
             } else {
-                island.by_exponent.push((ld.freq_exp, p));
+                let form = load::Exponent::of(ld.freq_exp);
+                island.by_exponent.push((ld.freq_exp, form, p));
             }
         }
         for s in 0..eq.n_sections {
@@ -219,9 +220,9 @@ impl SegmentEquations {
         for m in &self.machines {
             let xs = &y[m.offset..m.offset + m.n];
             let dw = y[m.speed];
-            m.governor
-                .derivatives(dw, xs, &mut dy[m.offset..m.offset + m.n]);
-            pm[m.island] += m.governor.power_mw(dw, xs);
+            pm[m.island] +=
+                m.governor
+                    .derivatives_and_power(dw, xs, &mut dy[m.offset..m.offset + m.n]);
         }
         for (i, isl) in self.islands.iter().enumerate() {
             let dw_dt = match isl.mode {
@@ -229,11 +230,13 @@ impl SegmentEquations {
                 IslandMode::Utility { slope_pu_per_s } => slope_pu_per_s,
                 IslandMode::Free if isl.energy_mws > 0.0 => {
                     let dw = y[isl.speed];
+                    // As `load::power_mw(p, k, dw, 1.0)`, with the exponent's form chosen once.
+                    let ratio = (1.0 + dw).max(0.0);
                     let pe = isl
                         .by_exponent
                         .iter()
-                        .fold(isl.constant_mw, |acc, &(k, p)| {
-                            acc + load::power_mw(p, k, dw, 1.0)
+                        .fold(isl.constant_mw, |acc, &(_, form, p)| {
+                            acc + p * form.factor(ratio)
                         });
                     swing::acceleration_pu_per_s(pm[i], pe, isl.energy_mws)
                 }

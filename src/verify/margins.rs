@@ -8,6 +8,10 @@
 //!   (machines and motor loads) and every load frequency exponent is lower than written.
 //!
 //! Voltage dips and bus-tie openings have no single ΔP; their disturbance margin is not applicable.
+//!
+//! The searches start from the row's own run. A probe is simulated with
+//! [`SimConfig::stop_below_hz`] at the criteria's minimum frequency: once a separated island falls
+//! below it the probe fails whatever follows, so its run stops there.
 
 use super::matrix::passes;
 use crate::model::{Action, BreakerRef, Case, CaseEvent, Criteria, Plant, Scheme};
@@ -88,13 +92,19 @@ pub fn search_from(
             model_error_pct: Margin::FailsAsIs,
         };
     }
+    // A probe stops as soon as a separated island falls below the minimum frequency: it fails
+    // then whatever follows, and only pass or fail is asked of it.
+    let probe = SimConfig {
+        stop_below_hz: Some(plant.criteria.min_hz),
+        ..*config
+    };
     let disturbance_factor = if has_scalable_event(case) {
         bisect(1.0, MAX_DISTURBANCE_FACTOR, FACTOR_RESOLUTION, |k| {
             let grown = grow_disturbance(plant, case, op, k);
             passes(
                 plant,
                 &grown,
-                &sim::simulate(plant, &grown, op, scheme, config),
+                &sim::simulate(plant, &grown, op, scheme, &probe),
             )
         })
     } else {
@@ -105,7 +115,7 @@ pub fn search_from(
         passes(
             &weaker,
             case,
-            &sim::simulate(&weaker, case, op, scheme, config),
+            &sim::simulate(&weaker, case, op, scheme, &probe),
         )
     });
     Margins {

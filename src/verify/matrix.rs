@@ -200,13 +200,13 @@ pub fn verify_one(
     }
 }
 
-/// The simulator settings a verification needs: the criteria's ROCOF window and recovery level,
-/// and a trace for the settling check.
+/// The simulator settings a verification needs: the criteria's ROCOF window and recovery level.
+/// The settling check reads the run's trajectory, so no sampled trace is asked for (`base`
+/// keeps its own choice).
 pub fn sim_config_for(plant: &Plant, base: &SimConfig) -> SimConfig {
     SimConfig {
         rocof_window_s: plant.criteria.rocof_window_s,
         recover_above_hz: Some(plant.criteria.recover_above_hz),
-        record_trace: true,
         ..*base
     }
 }
@@ -235,22 +235,9 @@ pub fn observe(run: &Run, case: &Case, criteria: &Criteria) -> Observed {
         (t - from).max(0.0)
     });
     let settle_from = first_event_s + criteria.settle_within_s;
-    let settle_range_hz = run.trace.as_ref().and_then(|trace| {
-        let mut range: Option<(f64, f64)> = None;
-        for (k, &t) in trace.t_s.iter().enumerate() {
-            if t + 1e-9 < settle_from {
-                continue;
-            }
-            for section in &trace.section_hz {
-                let f = section[k];
-                range = Some(match range {
-                    None => (f, f),
-                    Some((lo, hi)) => (lo.min(f), hi.max(f)),
-                });
-            }
-        }
-        range
-    });
+    // On the sample grid, from the run's knots and dense output (the same values the sampled
+    // trace would hold there).
+    let settle_range_hz = run.trajectory.grid_range_from(settle_from);
     let abnormal_end = run.stop.status();
     Observed {
         first_event_s,

@@ -65,13 +65,11 @@ impl BandTime {
 }
 
 /// Time each generator running at `op` spent in each of its declared bands (or the defaults),
-/// while connected; bands with no time are left out. Needs the run's trace; without one the
-/// result is empty.
+/// while connected; bands with no time are left out. Read on the sample grid from the run's
+/// trajectory (the dense output is evaluated only where a band edge lies between two knots).
 pub fn band_times(plant: &Plant, op: usize, run: &Run) -> Vec<BandTime> {
     let defaults = default_bands(plant.nominal_hz);
-    let Some(trace) = &run.trace else {
-        return Vec::new();
-    };
+    let path = &run.trajectory;
     let mut out = Vec::new();
     for (g, gen) in plant.generators.iter().enumerate() {
         if !plant.operating_points[op].online[g] {
@@ -83,7 +81,6 @@ pub fn band_times(plant: &Plant, op: usize, run: &Run) -> Vec<BandTime> {
             .find(|e| matches!(&e.what, EventKind::GeneratorTripped { generator, .. } if *generator == gen.id))
             .map(|e| e.at_s)
             .unwrap_or(f64::INFINITY);
-        let hz = &trace.section_hz[gen.section];
         let bands = if gen.off_frequency_limits.is_empty() {
             &defaults
         } else {
@@ -91,13 +88,14 @@ pub fn band_times(plant: &Plant, op: usize, run: &Run) -> Vec<BandTime> {
         };
         for band in bands {
             let mut time_s = 0.0;
-            for k in 1..trace.t_s.len() {
-                let (t0, t1) = (trace.t_s[k - 1], trace.t_s[k].min(tripped_at));
+            let inside = path.grid_in_band(gen.section, band.low_hz, band.high_hz);
+            for k in 1..path.grid_len() {
+                let (t0, t1) = (path.grid_time(k - 1), path.grid_time(k).min(tripped_at));
                 if t1 <= t0 {
                     continue;
                 }
                 // Each interval counts with the frequency at its start.
-                if hz[k - 1] >= band.low_hz && hz[k - 1] < band.high_hz {
+                if inside[k - 1] {
                     time_s += t1 - t0;
                 }
             }

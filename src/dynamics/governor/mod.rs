@@ -63,6 +63,20 @@ impl Limits {
     }
 }
 
+/// One arm per model, each calling the same method of its [`PrimeMoverDynamics`] impl.
+macro_rules! dispatch {
+    ($model:expr, $m:ident => $call:expr) => {
+        match $model {
+            Model::Steam($m) => $call,
+            Model::SteamReheat($m) => $call,
+            Model::Hydro($m) => $call,
+            Model::GasTurbine($m) => $call,
+            Model::Engine($m) => $call,
+            Model::Fixed($m) => $call,
+        }
+    };
+}
+
 /// The enum over every model (closed set; one arm per file).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Model {
@@ -132,15 +146,22 @@ impl Model {
         }
     }
 
-    fn inner(&self) -> &dyn PrimeMoverDynamics {
-        match self {
-            Model::Steam(m) => m,
-            Model::SteamReheat(m) => m,
-            Model::Hydro(m) => m,
-            Model::GasTurbine(m) => m,
-            Model::Engine(m) => m,
-            Model::Fixed(m) => m,
-        }
+    /// Number of states of the prime-mover model (static dispatch: one `match`, no trait object,
+    /// so the model's equations inline into the derivative function).
+    fn n_model_states(&self) -> usize {
+        dispatch!(self, m => m.n_states())
+    }
+
+    fn init(&self, command_mw: f64, lim: &Limits, x: &mut [f64]) {
+        dispatch!(self, m => m.init(command_mw, lim, x))
+    }
+
+    fn derivatives(&self, command_mw: f64, lim: &Limits, x: &[f64], dx: &mut [f64]) {
+        dispatch!(self, m => m.derivatives(command_mw, lim, x, dx))
+    }
+
+    fn power_mw(&self, command_mw: f64, lim: &Limits, x: &[f64]) -> f64 {
+        dispatch!(self, m => m.power_mw(command_mw, lim, x))
     }
 
     pub fn is_governed(&self) -> bool {
@@ -219,7 +240,7 @@ impl Governor {
     /// Total states: the model's, then one isochronous integral when isochronous, then the
     /// headers' available extra when pressure controlled.
     pub fn n_states(&self) -> usize {
-        self.model.inner().n_states()
+        self.model.n_model_states()
             + usize::from(self.isochronous)
             + usize::from(self.pressure.is_some())
     }
@@ -267,13 +288,13 @@ impl Governor {
     }
 
     fn integral(&self, x: &[f64], lim: &Limits) -> f64 {
-        let z = x[self.model.inner().n_states()];
+        let z = x[self.model.n_model_states()];
         z.max(lim.min_mw - self.p_ref_mw)
             .min(lim.max_mw - self.p_ref_mw)
     }
 
     fn model_states<'a>(&self, x: &'a [f64]) -> &'a [f64] {
-        &x[..self.model.inner().n_states()]
+        &x[..self.model.n_model_states()]
     }
 
     /// Steady state at a constant speed deviation with a zero integral.
@@ -293,17 +314,28 @@ impl Governor {
         } else {
             self.p_ref_mw
         };
-        let n = self.model.inner().n_states();
-        self.model.inner().init(c, &lim, &mut x[..n]);
+        let n = self.model.n_model_states();
+        self.model.init(c, &lim, &mut x[..n]);
     }
 
     pub fn derivatives(&self, delta_omega_pu: f64, x: &[f64], dx: &mut [f64]) {
         let lim = self.limits_at(x);
         let c = self.command(delta_omega_pu, x, &lim);
-        let n = self.model.inner().n_states();
-        self.model
-            .inner()
-            .derivatives(c, &lim, &x[..n], &mut dx[..n]);
+        let n = self.model.n_model_states();
+        self.model.derivatives(c, &lim, &x[..n], &mut dx[..n]);
+        self.tail_derivatives(delta_omega_pu, x, dx, &lim, n);
+    }
+
+    /// Derivatives of the isochronous integral and the headers' extra (the states after the
+    /// model's own `n`).
+    fn tail_derivatives(
+        &self,
+        delta_omega_pu: f64,
+        x: &[f64],
+        dx: &mut [f64],
+        lim: &Limits,
+        n: usize,
+    ) {
         if self.isochronous {
             let z = x[n];
             let d = if self.in_speed_control() {
@@ -327,7 +359,18 @@ impl Governor {
     pub fn power_mw(&self, delta_omega_pu: f64, x: &[f64]) -> f64 {
         let lim = self.limits_at(x);
         let c = self.command(delta_omega_pu, x, &lim);
-        self.model.inner().power_mw(c, &lim, self.model_states(x))
+        self.model.power_mw(c, &lim, self.model_states(x))
+    }
+
+    /// [`Governor::derivatives`] and [`Governor::power_mw`] in one call (the limits and the
+    /// command are worked out once); same values as the two calls.
+    pub fn derivatives_and_power(&self, delta_omega_pu: f64, x: &[f64], dx: &mut [f64]) -> f64 {
+        let lim = self.limits_at(x);
+        let c = self.command(delta_omega_pu, x, &lim);
+        let n = self.model.n_model_states();
+        self.model.derivatives(c, &lim, &x[..n], &mut dx[..n]);
+        self.tail_derivatives(delta_omega_pu, x, dx, &lim, n);
+        self.model.power_mw(c, &lim, &x[..n])
     }
 }
 

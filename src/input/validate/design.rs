@@ -77,6 +77,17 @@ pub(super) fn limits(
     if let Some(b) = raw.backstop {
         lim.backstop = b;
     }
+    if let Some(ld) = &raw.long_delay {
+        lim.long_delay = long_delay(
+            r,
+            &p.key("long_delay"),
+            ld,
+            nominal,
+            criteria,
+            &lim,
+            pickups_ok && delays_ok,
+        );
+    }
     for (&rank, &weight) in &raw.rank_weights {
         let wp = p.key("rank_weights").key(&rank.to_string());
         if rank == 0 {
@@ -113,6 +124,165 @@ pub(super) fn limits(
         }
     }
     lim
+}
+
+/// The long-delay stage's grid: pickups below the normal band's lower edge and above the
+/// ordinary stages' highest pickup, delays longer than theirs and shorter than the recovery
+/// time (a later stage could not help the recovery criterion), at most
+/// [`MAX_LONG_DELAY_POINTS`] points. `None` when any value is wrong (the error is reported).
+fn long_delay(
+    r: &mut Reader,
+    p: &FieldPath,
+    raw: &RawLongDelay,
+    nominal: Option<f64>,
+    criteria: Option<&Criteria>,
+    lim: &DesignLimits,
+    grid_ok: bool,
+) -> Option<LongDelayGrid> {
+    let mut g = LongDelayGrid::defaults(nominal.unwrap_or(50.0));
+    let mut ok = true;
+    let pp = p.key("pickup_hz");
+    let dp = p.key("delay_s");
+    if let Some(raw_p) = &raw.pickup_hz {
+        for (key, value, slot) in [
+            ("highest", raw_p.highest, &mut g.highest_pickup_hz),
+            ("lowest", raw_p.lowest, &mut g.lowest_pickup_hz),
+        ] {
+            let Some(v) = value else {
+                continue;
+            };
+            ok &= match nominal {
+                Some(f0) => num(
+                    r,
+                    &pp.key(key),
+                    v,
+                    Lo::AtLeast(0.8 * f0),
+                    Hi::Below(f0),
+                    " Hz",
+                ),
+                None => num(r, &pp.key(key), v, Lo::Above(0.0), Hi::Any, " Hz"),
+            };
+            *slot = v;
+        }
+        if let Some(v) = raw_p.step {
+            ok &= num(r, &pp.key("step"), v, Lo::Above(0.0), Hi::Any, " Hz");
+            g.pickup_step_hz = v;
+        }
+    }
+    if let Some(raw_d) = &raw.delay_s {
+        for (key, value, slot) in [
+            ("min", raw_d.min, &mut g.min_delay_s),
+            ("max", raw_d.max, &mut g.max_delay_s),
+        ] {
+            if let Some(v) = value {
+                ok &= delay(r, &dp.key(key), v);
+                *slot = v;
+            }
+        }
+        if let Some(v) = raw_d.step {
+            ok &= time_constant(r, &dp.key("step"), v);
+            g.delay_step_s = v;
+        }
+    }
+    if !ok {
+        return None;
+    }
+    let written = |r: &Reader, keys: &[FieldPath]| {
+        let mut all = keys.to_vec();
+        all.push(p.clone());
+        first_written(r, &all)
+    };
+    if g.highest_pickup_hz + EPS < g.lowest_pickup_hz {
+        r.error(
+            &written(r, &[pp.key("highest"), pp.key("lowest")]),
+            format!(
+                "long_delay.pickup_hz.highest {} Hz is below long_delay.pickup_hz.lowest {} Hz",
+                g.highest_pickup_hz, g.lowest_pickup_hz
+            ),
+            "write highest ≥ lowest; highest = lowest fixes the long-delay pickup".to_string(),
+        );
+        ok = false;
+    }
+    if g.min_delay_s > g.max_delay_s + EPS {
+        r.error(
+            &written(r, &[dp.key("min"), dp.key("max")]),
+            format!(
+                "long_delay.delay_s.min {} s is above long_delay.delay_s.max {} s",
+                g.min_delay_s, g.max_delay_s
+            ),
+            "write min ≤ max; min = max fixes the long delay".to_string(),
+        );
+        ok = false;
+    }
+    if grid_ok && g.lowest_pickup_hz <= lim.highest_pickup_hz + EPS {
+        r.error(
+            &written(r, &[pp.key("lowest"), pp.clone()]),
+            format!(
+                "long_delay.pickup_hz.lowest {} Hz is not above pickup_hz.highest {} Hz, the \
+                 ordinary stages' highest pickup",
+                g.lowest_pickup_hz, lim.highest_pickup_hz
+            ),
+            "the long-delay stage picks up near the recovery level, above every ordinary stage: \
+             raise long_delay.pickup_hz.lowest or lower pickup_hz.highest"
+                .to_string(),
+        );
+        ok = false;
+    }
+    if grid_ok && g.min_delay_s <= lim.max_delay_s + EPS {
+        r.error(
+            &written(r, &[dp.key("min"), dp.clone()]),
+            format!(
+                "long_delay.delay_s.min {} s is not longer than delay_s.max {} s, the ordinary \
+                 stages' longest delay",
+                g.min_delay_s, lim.max_delay_s
+            ),
+            "a long-delay stage waits seconds, longer than any ordinary stage: raise \
+             long_delay.delay_s.min"
+                .to_string(),
+        );
+        ok = false;
+    }
+    if let Some(c) = criteria {
+        if g.highest_pickup_hz > c.normal_low_hz + EPS {
+            r.error(
+                &written(r, &[pp.key("highest"), pp.clone()]),
+                format!(
+                    "long_delay.pickup_hz.highest {} Hz is above criteria.coordination.normal_low_hz {} Hz; a stage there could shed in normal operation",
+                    g.highest_pickup_hz, c.normal_low_hz
+                ),
+                format!("lower it to {} Hz or less", c.normal_low_hz),
+            );
+            ok = false;
+        }
+        if g.max_delay_s + EPS >= c.recover_within_s {
+            r.error(
+                &written(r, &[dp.key("max"), dp.clone()]),
+                format!(
+                    "long_delay.delay_s.max {} s is not shorter than criteria.recover.within_s {} s; a stage that waits that long cannot bring frequency back in time",
+                    g.max_delay_s, c.recover_within_s
+                ),
+                format!(
+                    "write a delay_s.max below {} s, leaving the island time to recover after the stage opens",
+                    c.recover_within_s
+                ),
+            );
+            ok = false;
+        }
+    }
+    let (pickups, delays) = g.grid_points();
+    if pickups * delays > MAX_LONG_DELAY_POINTS {
+        r.error(
+            &written(r, &[pp.key("step"), dp.key("step")]),
+            format!(
+                "the long-delay grid has {} pickups × {} delays, above the {MAX_LONG_DELAY_POINTS} points the design tries",
+                limits::count_text(pickups),
+                limits::count_text(delays)
+            ),
+            "use coarser steps (long_delay.pickup_hz.step, long_delay.delay_s.step)".to_string(),
+        );
+        ok = false;
+    }
+    ok.then_some(g)
 }
 
 /// The breakers of a written `armed_by`, resolved as a scheme's `armed_by` is; `None` when the

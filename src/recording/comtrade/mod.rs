@@ -75,7 +75,7 @@ pub fn read(path: &Path, options: &ReadOptions, limits: &Limits) -> Result<Frequ
 
 /// The `.dat` beside a `.cfg`, in the configuration's case or the other (`REC.CFG` with
 /// `REC.DAT`).
-fn data_path(cfg: &Path) -> Option<PathBuf> {
+pub fn data_path(cfg: &Path) -> Option<PathBuf> {
     ["dat", "DAT", "Dat"]
         .iter()
         .map(|e| cfg.with_extension(e))

@@ -400,7 +400,7 @@ fn case_events(case: &Case, runs: &[RunAt]) -> Vec<EventMark> {
 
 /// Group the run's sections into islands (same frequency at every sample) and add one thinned line each.
 fn add_lines(plot: &mut Plot, plant: &Plant, r: &RunAt, several: bool, events_s: &[f64]) {
-    let Some(trace) = &r.run.trace else { return };
+    let trace = r.run.sampled_trace();
     let mut groups: Vec<Vec<usize>> = Vec::new();
     for s in 0..trace.section_hz.len() {
         match groups

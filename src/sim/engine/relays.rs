@@ -126,7 +126,7 @@ impl Engine<'_> {
                 _ => {}
             }
         }
-        let floor = self.cfg.collapse_fraction - 1.0;
+        let floor = self.cfg.floor_pu(self.f0);
         let ceiling = self.cfg.overspeed_pu();
         for i in 0..self.islands.len() {
             let s0 = self.islands[i].sections[0];

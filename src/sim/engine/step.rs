@@ -148,7 +148,7 @@ impl Engine<'_> {
             if !isl.on_utility && !self.frozen[s0] {
                 out.push(StateGuard {
                     index: speed_index(s0),
-                    level: self.cfg.collapse_fraction - 1.0,
+                    level: self.cfg.floor_pu(self.f0),
                 });
                 out.push(StateGuard {
                     index: speed_index(s0),

@@ -1,13 +1,13 @@
 //! The end of a run: island summaries, the worst nadir, peak, recovery and ROCOF, and the trace,
-//! gathered into a [`Run`].
+//! gathered into a [`Run`] with the run's trajectory (and the sampled trace when asked for).
 
 use super::Engine;
-use crate::sim::{IslandEnd, IslandSummary, Run, StopReason, Trace};
+use crate::sim::{IslandEnd, IslandSummary, Run, StopReason};
 
 impl Engine<'_> {
     pub(super) fn finish(self) -> Run {
-        let rec = &self.rec;
         let t_end = self.t;
+        let rec = &self.rec;
         let (disturbance_s, _) = self.case.disturbance_span();
         let window = self.cfg.rocof_window_s.max(rec.sample_interval_s);
         let mut samples = rec.samples(t_end);
@@ -115,13 +115,10 @@ impl Engine<'_> {
             .clone()
             .or_else(|| self.first_failure.clone())
             .unwrap_or(StopReason::EndTime);
-        let trace = self.cfg.record_trace.then(|| Trace {
-            t_s: (0..samples.len).map(|k| samples.time(k)).collect(),
-            section_hz: (0..self.eq.n_sections)
-                .map(|s| (0..samples.len).map(|k| samples.hz(s, k)).collect())
-                .collect(),
-            shed_mw: (0..samples.len).map(|k| samples.shed_mw(k)).collect(),
-        });
+        let went_below_recover_level = rec.went_below();
+        drop(samples);
+        let trajectory = self.rec.into_trajectory(t_end);
+        let trace = self.cfg.record_trace.then(|| trajectory.trace());
         Run {
             stop,
             islands,
@@ -129,7 +126,7 @@ impl Engine<'_> {
             nadir_at_s,
             peak_hz: peak.map(|p| p.1),
             peak_at_s: peak.map(|p| p.0),
-            went_below_recover_level: rec.went_below(),
+            went_below_recover_level,
             max_rocof_hz_per_s,
             final_hz,
             recovered_above_at_s,
@@ -137,6 +134,7 @@ impl Engine<'_> {
             shed_mw: self.shed_mw,
             dropped_mw: self.dropped_mw,
             trace,
+            trajectory,
         }
     }
 }
