@@ -320,3 +320,70 @@ opens at 0.00 s, at full, night)"
         r.stdout
     );
 }
+
+/// A long-delay stage overtaken by a faster lower stage. A definite-time under-frequency element
+/// trips when frequency stays below its pickup for its whole delay and resets when frequency
+/// returns above it (IEEE Std C37.117-2007, guide for abnormal-frequency load shedding, the
+/// definite-time element; from memory), so on a fall fast enough the 0.2 s stage at 49.0 Hz times
+/// out before the 5 s stage at 49.4 Hz. The simulator shows it on the test plant: uf-1 opens
+/// ranks 3–4, frequency recovers above 49.4 Hz and uf-long resets, leaving ranks 1–2 connected,
+/// with every criterion held, so verify passes. The audit, which walked the stages by pickup
+/// only, passed it too; it must flag it, naming both stages and the loads.
+#[test]
+fn a_long_delay_stage_overtaken_by_a_faster_lower_stage_breaks_rank_order() {
+    let replay = nadir(&[
+        "replay",
+        PLANT,
+        &scheme("long-delay-overtaken"),
+        "--cases",
+        CASES,
+        "--case",
+        "grid-loss",
+        "--at",
+        "full",
+    ]);
+    assert_eq!(replay.code, 0, "{}{}", replay.stdout, replay.stderr);
+    for line in [
+        "stage uf-1 opens w-fans, e-pumps (2.00 MW)",
+        "stage uf-long resets",
+        "Result: every criterion holds.",
+    ] {
+        assert!(replay.stdout.contains(line), "{line}: {}", replay.stdout);
+    }
+    assert!(!replay.stdout.contains("stage uf-long opens"));
+
+    for cases in [Some(CASES), None] {
+        let r = audit(PLANT, &scheme("long-delay-overtaken"), cases);
+        assert_eq!(r.code, 1, "{}{}", r.stdout, r.stderr);
+        assert!(
+            r.stdout.contains(
+                "[rank-order] stage uf-1 opens w-fans (rank 3), e-pumps (rank 4) while lower-ranked \
+w-lights (rank 1), e-hvac (rank 2) of the same island are still connected on a fall fast enough \
+for it to act before the slower uf-long (49.40 Hz, delay 5.00 s, breaker 0.08 s), uf-1 having \
+0.20 s and 0.08 s; list them in uf-1 too, or make the slower stage's delay and breaker time no \
+longer than uf-1's"
+            ),
+            "{}",
+            r.stdout
+        );
+        // uf-1's delay is no longer than uf-2's, so uf-1 always opens first; uf-long may not.
+        assert!(
+            r.stdout
+                .contains("[rank-order] stage uf-2 opens w-mill (rank 5), e-press (rank 6)"),
+            "{}",
+            r.stdout
+        );
+        assert!(r.stdout.contains("2 violation(s):"), "{}", r.stdout);
+    }
+    let with_cases = audit(PLANT, &scheme("long-delay-overtaken"), Some(CASES));
+    assert!(with_cases
+        .stdout
+        .contains("(case grid-loss, grid opens at 0.00 s, at full)"));
+
+    // The fix design applies: the faster stage lists the long-delay stage's loads as well.
+    for cases in [Some(CASES), None] {
+        let r = audit(PLANT, &scheme("long-delay-listed"), cases);
+        assert_eq!(r.code, 0, "{}{}", r.stdout, r.stderr);
+        assert!(r.stdout.contains("No violation."), "{}", r.stdout);
+    }
+}

@@ -1,6 +1,6 @@
-//! The assignment of loads to stages as a mixed-integer linear programme, solved by the pure-Rust
-//! microlp crate under a branch-and-bound node budget (a count, never a time): the only file that
-//! knows microlp.
+//! The assignment of loads to stages as a mixed-integer linear programme, built with good_lp and
+//! solved by its pure-Rust microlp backend under a branch-and-bound node budget (a count, never a
+//! time): the only file that knows good_lp and microlp.
 //!
 //! Variables are cumulative binaries y[i][k]: load i is opened by stage k or an earlier one
 //! (stages in operating order), so y[i][k] ≤ y[i][k+1] and the stage's own loads are
@@ -13,7 +13,9 @@
 //! windows per tier was several times slower to solve). Loads past any requirement's reach are
 //! fixed out before the model is built.
 
-use microlp::{ComparisonOp, LinearExpr, OptimizationDirection, SolveOptions, TerminationReason};
+use good_lp::solvers::microlp::MicroLpProblem;
+use good_lp::{variable, Expression, ProblemVariables, SolverModel, Variable};
+use microlp::{SolveOptions, TerminationReason};
 
 /// A requirement on the MW that a set of stages opens at one operating point.
 #[derive(Debug, Clone, PartialEq)]
@@ -41,8 +43,8 @@ pub struct Problem<'a> {
     pub requirements: &'a [Requirement],
     /// Cost of load `loads[j]` in stage k: `cost[j][k]`.
     pub cost: &'a [Vec<f64>],
-    /// A starting assignment (stage position per candidate load), used as a warm start and, with
-    /// `change_cost`, as the assignment to stay close to.
+    /// A starting assignment (stage position per candidate load): with `change_cost`, the
+    /// assignment to stay close to; its loads are always among the candidates the model keeps.
     pub start: &'a [Option<usize>],
     /// Extra cost of each candidate load whose stage differs from `start` (0: none).
     pub change_cost: f64,
@@ -107,11 +109,12 @@ enum Pruned {
 struct Row(Vec<(usize, f64)>);
 
 impl Row {
-    fn add(&mut self, var: microlp::Variable, coef: f64) {
-        self.0.push((var.idx(), coef));
+    /// `coef` times the variable created `var`-th.
+    fn add(&mut self, var: usize, coef: f64) {
+        self.0.push((var, coef));
     }
     /// `x(j, k)` times `coef`: the cumulative difference y[j][k] − y[j][k−1].
-    fn add_x(&mut self, yj: &[microlp::Variable], k: usize, coef: f64) {
+    fn add_x(&mut self, yj: &[usize], k: usize, coef: f64) {
         self.add(yj[k], coef);
         if k > 0 {
             self.add(yj[k - 1], -coef);
@@ -131,14 +134,16 @@ impl Row {
 }
 
 /// The model's variables in creation order, to turn merged rows back into expressions.
-struct Vars(Vec<microlp::Variable>);
+struct Vars(Vec<Variable>);
 
 impl Vars {
-    fn expr(&self, row: Row) -> LinearExpr {
-        row.merged()
-            .into_iter()
-            .map(|(v, c)| (self.0[v], c))
-            .collect()
+    fn expr(&self, row: Row) -> Expression {
+        let merged = row.merged();
+        let mut e = Expression::with_capacity(merged.len());
+        for (v, c) in merged {
+            e.add_mul(c, self.0[v]);
+        }
+        e
     }
 }
 
@@ -146,12 +151,10 @@ fn solve_with(p: &Problem, reach: &[bool]) -> Result<Solved, Pruned> {
     let n = p.loads.len();
     let s = p.stages;
     // Variables in creation order: y[j][k] first, then the continuous variables between tiers.
-    let mut created: Vec<(bool, usize)> = Vec::new(); // (binary, index in `created`)
-    let mut counter = 0usize;
+    let mut created: Vec<bool> = Vec::new(); // binary?
     let mut new_var = |binary: bool| {
-        created.push((binary, counter));
-        counter += 1;
-        counter - 1
+        created.push(binary);
+        created.len() - 1
     };
     // y[j][k]: load j is opened by stage k or an earlier one (cumulative, so y[j][k] ≤ y[j][k+1]).
     let y_idx: Vec<Option<Vec<usize>>> = (0..n)
@@ -175,6 +178,7 @@ fn solve_with(p: &Problem, reach: &[bool]) -> Result<Solved, Pruned> {
     let between_idx: Vec<Vec<usize>> = (0..tiers.len().saturating_sub(1))
         .map(|_| (0..s).map(|_| new_var(false)).collect())
         .collect();
+    let counter = created.len();
 
     // The objective, each coefficient summed in the order the terms arise, x[j][k] by x[j][k].
     let mut obj = vec![0.0; counter];
@@ -197,33 +201,28 @@ fn solve_with(p: &Problem, reach: &[bool]) -> Result<Solved, Pruned> {
             }
         }
     }
-    let mut model = microlp::Problem::new(OptimizationDirection::Minimize);
+    let mut problem_vars = ProblemVariables::new();
     let vars = Vars(
         created
             .iter()
-            .map(|&(binary, i)| {
-                if binary {
-                    model.add_integer_var(obj[i], (0, 1))
+            .map(|&binary| {
+                problem_vars.add(if binary {
+                    variable().binary()
                 } else {
-                    model.add_var(obj[i], (0.0, 1.0))
-                }
+                    variable().min(0.0).max(1.0)
+                })
             })
             .collect(),
     );
-    let y: Vec<Option<Vec<microlp::Variable>>> = y_idx
-        .iter()
-        .map(|yj| {
-            yj.as_ref()
-                .map(|yj| yj.iter().map(|&i| vars.0[i]).collect())
-        })
-        .collect();
-    let between: Vec<Vec<microlp::Variable>> = between_idx
-        .iter()
-        .map(|c| c.iter().map(|&i| vars.0[i]).collect())
-        .collect();
+    let mut objective = Expression::with_capacity(counter);
+    for (i, &c) in obj.iter().enumerate() {
+        objective.add_mul(c, vars.0[i]);
+    }
+    let mut model = problem_vars.minimise(objective).using(good_lp::microlp);
+    let (y, between) = (y_idx, between_idx);
     // Every row as `expression ≤ rhs`.
-    let le = |model: &mut microlp::Problem, row: Row, rhs: f64| {
-        model.add_constraint(vars.expr(row), ComparisonOp::Le, rhs);
+    let le = |model: &mut MicroLpProblem, row: Row, rhs: f64| {
+        model.add_constraint(vars.expr(row).leq(rhs));
     };
 
     for yj in y.iter().flatten() {
@@ -299,21 +298,14 @@ fn solve_with(p: &Problem, reach: &[bool]) -> Result<Solved, Pruned> {
         le(&mut model, r, rhs);
     }
 
+    // good_lp builds the model; the solve goes to its microlp backend directly, because good_lp
+    // offers that backend only a wall-clock limit and design needs a node budget (a count, the
+    // same on every machine). microlp numbers variables in creation order, which is good_lp's
+    // order (`Variable::index`), so values are read back by position.
     let mut options = SolveOptions::default();
     options.mip_gap = MIP_GAP;
     options.node_limit = Some(NODE_LIMIT);
-    options.warm_start = Some(
-        (0..n)
-            .filter_map(|j| y[j].as_ref().map(|yj| (j, yj)))
-            .flat_map(|(j, yj)| {
-                (0..s).map(move |k| {
-                    let on = p.start[j].is_some_and(|st| st <= k);
-                    (yj[k], if on { 1.0 } else { 0.0 })
-                })
-            })
-            .collect(),
-    );
-    let solution = match model.solve_with(options) {
+    let solution = match model.as_inner().solve_with(options) {
         Ok(outcome) => match outcome.into_solution() {
             Ok(sol) if sol.termination_reason() == TerminationReason::NodeLimit => {
                 return Err(Pruned::Other(AssignError::NodeLimit {
@@ -331,10 +323,17 @@ fn solve_with(p: &Problem, reach: &[bool]) -> Result<Solved, Pruned> {
         Err(microlp::Error::Infeasible) => return Err(Pruned::Infeasible(0)),
         Err(other) => return Err(Pruned::Other(AssignError::Solver(other.to_string()))),
     };
+    let values: Vec<f64> = solution.iter().map(|(_, value)| value).collect();
+    if values.len() != counter {
+        return Err(Pruned::Other(AssignError::Solver(format!(
+            "the solver returned {} values for {counter} variables",
+            values.len()
+        ))));
+    }
     let assignment = (0..n)
         .map(|j| {
             y[j].as_ref()
-                .and_then(|yj| (0..s).find(|&k| solution.var_value(yj[k]) > 0.5))
+                .and_then(|yj| (0..s).find(|&k| values[yj[k]] > 0.5))
         })
         .collect();
     Ok(Solved {

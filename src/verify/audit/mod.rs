@@ -7,7 +7,9 @@
 //! One function computes the findings, [`audit_cases`]; `nadir audit`, the report and `nadir
 //! design` all call it, so they agree on every plant.
 
+mod events;
 pub mod rank;
+pub mod timing;
 
 use crate::model::{
     Allowance, BreakerRef, CaseSet, FrequencyTrip, OverAction, Plant, Scheme, Sizing, Stage,

@@ -11,6 +11,12 @@
 //! first) may still be connected. Loads in other islands are not counted. Stages armed by
 //! breakers that no single event opens are never compared with each other.
 //!
+//! Picking up is not opening: a stage earlier in that walk whose delay (or delay plus breaker
+//! time) is longer than a later stage's may open its loads after it, on a fall fast enough, or
+//! never, if frequency recovers first. For each stage, the loads that only such slower stages
+//! open are therefore still connected when it opens its own ([`super::timing`]); a lower-ranked
+//! one among them is a rank-order violation that names the slower stage.
+//!
 //! What "can operate" means here, without simulating:
 //! - an armed stage operates when its breaker opens in this event and was closed before it (a
 //!   breaker already open, or a generator not running, arms nothing, as in the simulator);
@@ -30,327 +36,21 @@
 //! When no cases are given, each breaker (the utility, each tie closed at the point, each running
 //! generator) is taken as opening alone, from the plant connected to the utility.
 
-use super::Finding;
-use crate::model::{
-    Action, BreakerRef, Candidate, Case, CaseSet, Plant, Scheme, Sizing, StageTrigger, Start,
-};
-use crate::topology::{flow_before_opening, islands, BreakerState, Island};
+use super::events::{for_each_event, pick_words, Event};
+use super::{timing, Finding};
+use crate::model::{CaseSet, Plant, Scheme, StageTrigger};
+use crate::topology::Island;
 use std::cmp::Reverse;
 use std::collections::{BTreeSet, BinaryHeap};
 
 /// How many places a finding names before it says "and N more".
 const PLACES_SHOWN: usize = 3;
 
-/// One event at one operating point: the islands after it and the stages it arms.
-struct Event {
-    /// "case utility-loss, utility opens at 0.00 s" or "utility opens alone".
-    label: String,
-    op: usize,
-    islands: Vec<Island>,
-    /// Stages armed by a breaker this event opens.
-    armed: Vec<usize>,
-    /// What each flow-sized stage among `armed` opens, with the flow and allowance that sized it.
-    picked: Vec<Pick>,
-    /// Loads opened by armed stages at an earlier event of the same case.
-    already_open: Vec<bool>,
-    /// The case's lowest utility frequency, when it falls below nominal.
-    grid_low_hz: Option<f64>,
-}
-
-/// What a flow-sized stage opens at one event.
-#[derive(Debug, Clone)]
-struct Pick {
-    stage: usize,
-    loads: Vec<usize>,
-    flow_mw: f64,
-    allowance_mw: f64,
-}
-
 /// The loads a stage opens at an event: for a flow-sized stage its pick, else every load listed.
 fn opens<'a>(scheme: &'a Scheme, event: &'a Event, stage: usize) -> &'a [usize] {
     match event.picked.iter().find(|p| p.stage == stage) {
         Some(p) => &p.loads,
         None => &scheme.stages[stage].sheds,
-    }
-}
-
-/// The picks of the flow-sized stages armed by `breaker`, which opens at breaker state `before`
-/// with `running` machines, load `steps` (MW by section) and loads `already_open`: the flow from
-/// the operating point's dispatch and demand.
-#[allow(clippy::too_many_arguments)]
-fn flow_picks(
-    plant: &Plant,
-    scheme: &Scheme,
-    op: usize,
-    before: &BreakerState,
-    running: &[bool],
-    steps: &[f64],
-    already_open: &[bool],
-    breaker: BreakerRef,
-) -> Vec<Pick> {
-    let point = &plant.operating_points[op];
-    let sized: Vec<usize> = armed_by(scheme, breaker)
-        .filter(|&i| matches!(scheme.stages[i].sizing, Sizing::Flow(_)))
-        .collect();
-    if sized.is_empty() {
-        return Vec::new();
-    }
-    let load_on = |l: usize| point.load_mw[l] > 0.0 && !already_open[l];
-    let mut net = steps.to_vec();
-    for (l, load) in plant.loads.iter().enumerate() {
-        if load_on(l) {
-            net[load.section] += point.load_mw[l];
-        }
-    }
-    let gen_mw: Vec<f64> = (0..plant.generators.len())
-        .map(|g| if running[g] { point.output_mw[g] } else { 0.0 })
-        .collect();
-    for (g, gen) in plant.generators.iter().enumerate() {
-        net[gen.section] -= gen_mw[g];
-    }
-    let Some(cut) = flow_before_opening(plant, before, breaker, &net, &gen_mw) else {
-        return Vec::new();
-    };
-    let reserve: f64 = plant
-        .generators
-        .iter()
-        .enumerate()
-        .filter(|&(g, gen)| {
-            running[g]
-                && breaker != BreakerRef::Generator(g)
-                && cut.sections.binary_search(&gen.section).is_ok()
-        })
-        .map(|(g, gen)| (gen.upper_mw(gen_mw[g]) - gen_mw[g]).max(0.0))
-        .sum();
-    sized
-        .into_iter()
-        .map(|i| {
-            let stage = &scheme.stages[i];
-            let candidates: Vec<Candidate> = stage
-                .sheds
-                .iter()
-                .filter(|&&l| {
-                    load_on(l) && cut.sections.binary_search(&plant.loads[l].section).is_ok()
-                })
-                .map(|&l| Candidate {
-                    load: l,
-                    mw: point.load_mw[l],
-                })
-                .collect();
-            let allowance_mw = match stage.sizing {
-                Sizing::Flow(a) => a.mw(reserve),
-                Sizing::All => 0.0,
-            };
-            Pick {
-                stage: i,
-                loads: stage.flow_pick(plant, &candidates, cut.flow_mw, allowance_mw),
-                flow_mw: cut.flow_mw,
-                allowance_mw,
-            }
-        })
-        .collect()
-}
-
-/// Calls `visit` with each event judged: from the cases, or each breaker opening alone. Returns
-/// which, in words. Events are made one at a time, so memory does not grow with their number.
-fn for_each_event(
-    plant: &Plant,
-    scheme: &Scheme,
-    cases: Option<&CaseSet>,
-    points: &[usize],
-    visit: &mut dyn FnMut(&Event),
-) -> String {
-    match cases {
-        Some(set) => {
-            for case in &set.cases {
-                for &op in case.applies_to.iter().filter(|op| points.contains(op)) {
-                    case_events(plant, scheme, case, op, visit);
-                }
-            }
-            format!(
-                "each event of the {} case(s) at each operating point it applies to",
-                set.cases.len()
-            )
-        }
-        None => {
-            alone_events(plant, scheme, points, visit);
-            "each breaker opening alone (no cases given; give the cases file to judge the studied events)"
-                .to_string()
-        }
-    }
-}
-
-fn armed_by(scheme: &Scheme, breaker: BreakerRef) -> impl Iterator<Item = usize> + '_ {
-    scheme
-        .stages
-        .iter()
-        .enumerate()
-        .filter(move |(_, s)| s.trigger == StageTrigger::Breaker(breaker))
-        .map(|(i, _)| i)
-}
-
-fn case_events(
-    plant: &Plant,
-    scheme: &Scheme,
-    case: &Case,
-    op: usize,
-    out: &mut dyn FnMut(&Event),
-) {
-    let f0 = plant.nominal_hz;
-    let grid_low_hz = case
-        .utility_profile
-        .iter()
-        .map(|p| p.1)
-        .min_by(f64::total_cmp)
-        .filter(|&hz| hz < f0);
-    let mut state = BreakerState::initial(plant, op, case.start == Start::Connected);
-    let mut running = plant.operating_points[op].online.clone();
-    let mut already_open = vec![false; plant.loads.len()];
-    let mut steps = vec![0.0; plant.sections.len()];
-    let mut k = 0;
-    while k < case.events.len() {
-        let at_s = case.events[k].at_s;
-        let mut what = Vec::new();
-        let mut armed = Vec::new();
-        let mut picked = Vec::new();
-        while k < case.events.len() && case.events[k].at_s == at_s {
-            let action = &case.events[k].action;
-            k += 1;
-            match *action {
-                Action::Open(b) => {
-                    let picks = flow_picks(
-                        plant,
-                        scheme,
-                        op,
-                        &state,
-                        &running,
-                        &steps,
-                        &already_open,
-                        b,
-                    );
-                    let was_closed = match b {
-                        BreakerRef::Utility => std::mem::replace(&mut state.utility_closed, false),
-                        BreakerRef::Tie(t) => state
-                            .tie_closed
-                            .get_mut(t)
-                            .is_some_and(|c| std::mem::replace(c, false)),
-                        BreakerRef::Generator(g) => running
-                            .get_mut(g)
-                            .is_some_and(|r| std::mem::replace(r, false)),
-                    };
-                    let name = super::breaker_name(plant, b);
-                    what.push(match b {
-                        BreakerRef::Generator(_) => format!("{name} trips"),
-                        _ => format!("{name} opens"),
-                    });
-                    if was_closed {
-                        armed.extend(armed_by(scheme, b));
-                        picked.extend(picks);
-                    }
-                }
-                Action::LoadStep { section, mw } => {
-                    steps[section] += mw;
-                    what.push(format!("load step on {}", plant.sections[section].id))
-                }
-                Action::VoltageDip { section, .. } => {
-                    what.push(format!("voltage dip on {}", plant.sections[section].id))
-                }
-            }
-        }
-        armed.sort_unstable();
-        armed.dedup();
-        out(&Event {
-            label: format!("case {}, {} at {at_s:.2} s", case.id, what.join(" and ")),
-            op,
-            islands: islands(plant, &state),
-            armed: armed.clone(),
-            picked: picked.clone(),
-            already_open: already_open.clone(),
-            grid_low_hz,
-        });
-        for &s in &armed {
-            let opened = match picked.iter().find(|p| p.stage == s) {
-                Some(p) => &p.loads,
-                None => &scheme.stages[s].sheds,
-            };
-            for &l in opened {
-                already_open[l] = true;
-            }
-        }
-    }
-    // A grid-wide event: no action, the utility frequency itself falls.
-    if case.events.is_empty() {
-        if let Some(low) = grid_low_hz {
-            out(&Event {
-                label: format!("case {}, utility frequency falls to {low:.2} Hz", case.id),
-                op,
-                islands: islands(plant, &state),
-                armed: vec![],
-                picked: vec![],
-                already_open,
-                grid_low_hz,
-            });
-        }
-    }
-}
-
-fn alone_events(plant: &Plant, scheme: &Scheme, points: &[usize], out: &mut dyn FnMut(&Event)) {
-    for &op in points {
-        let start = BreakerState::initial(plant, op, true);
-        let mut breakers = Vec::new();
-        if start.utility_closed {
-            breakers.push(BreakerRef::Utility);
-        }
-        for (t, &closed) in start.tie_closed.iter().enumerate() {
-            if closed {
-                breakers.push(BreakerRef::Tie(t));
-            }
-        }
-        for (g, &on) in plant.operating_points[op].online.iter().enumerate() {
-            if on {
-                breakers.push(BreakerRef::Generator(g));
-            }
-        }
-        if breakers.is_empty() {
-            // Nothing to open (an islanded plant without ties or machines to trip): frequency can
-            // still fall, on a load step say.
-            out(&Event {
-                label: "any disturbance".to_string(),
-                op,
-                islands: islands(plant, &start),
-                armed: vec![],
-                picked: vec![],
-                already_open: vec![false; plant.loads.len()],
-                grid_low_hz: None,
-            });
-        }
-        let running = plant.operating_points[op].online.clone();
-        let no_steps = vec![0.0; plant.sections.len()];
-        let none_open = vec![false; plant.loads.len()];
-        for b in breakers {
-            let picked = flow_picks(
-                plant, scheme, op, &start, &running, &no_steps, &none_open, b,
-            );
-            let mut state = start.clone();
-            match b {
-                BreakerRef::Utility => state.utility_closed = false,
-                BreakerRef::Tie(t) => state.tie_closed[t] = false,
-                BreakerRef::Generator(_) => {}
-            }
-            let name = super::breaker_name(plant, b);
-            out(&Event {
-                label: match b {
-                    BreakerRef::Generator(_) => format!("{name} trips alone"),
-                    _ => format!("{name} opens alone"),
-                },
-                op,
-                islands: islands(plant, &state),
-                armed: armed_by(scheme, b).collect(),
-                picked,
-                already_open: vec![false; plant.loads.len()],
-                grid_low_hz: None,
-            });
-        }
     }
 }
 
@@ -404,6 +104,8 @@ struct Gathered {
     places: Vec<(String, Vec<usize>)>,
     /// Further (event, operating point) pairs where it also happens.
     more: usize,
+    /// Rule 3: the slower stages earlier in the walk that list the loads left connected.
+    slower: BTreeSet<usize>,
 }
 
 impl Gathered {
@@ -419,6 +121,10 @@ impl Gathered {
         }
     }
 }
+
+/// Findings per stage: rank order (0), a lower-ranked load in no stage (1), the df/dt-supervised
+/// note (2), and rank order on a fast fall that lets the stage act before a slower one (3).
+const RULES: usize = 4;
 
 /// How many left-connected loads a finding names before it says "and more".
 const LOADS_SHOWN: usize = 12;
@@ -463,11 +169,12 @@ pub fn rank_order(
         .iter()
         .map(|s| s.measuring_section(plant))
         .collect();
-    // Keyed by (stage position in operating order, rule) for a stable order.
-    // By stage position in operating order × 3 + rule, so the findings come out in that order.
-    // Rule 2 is the note on df/dt-supervised stages that a slow fall skips.
-    let mut found: Vec<Option<Gathered>> = (0..3 * order.len()).map(|_| None).collect();
+    // By stage position in operating order × RULES + rule, so the findings come out in that
+    // order. Rule 2 is the note on df/dt-supervised stages that a slow fall skips; rule 3 a stage
+    // that a fast fall lets act before a slower stage earlier in the walk ([`timing`]).
+    let mut found: Vec<Option<Gathered>> = (0..RULES * order.len()).map(|_| None).collect();
     let mut sup_opened = vec![false; n_loads];
+    let mut mark = vec![false; n_loads];
     let mut backed = vec![false; n_loads];
     let mut touched_flag = vec![false; found.len()];
     // By stage: loads it opens in another island than the one it measures in, and where first.
@@ -552,7 +259,29 @@ pub fn rank_order(
             // slower than their setting those stages do not operate and the loads stay on.
             let mut skippable: BinaryHeap<Reverse<(u32, usize)>> = BinaryHeap::new();
             let mut reset: Vec<usize> = Vec::new();
-            for group in walk_order(scheme, &order, &measures, event, island) {
+            let groups = walk_order(scheme, &order, &measures, event, island);
+            // Before the walk opens anything: `on` marks exactly the island's staged loads.
+            let opens_at = |s: usize| opens(scheme, event, s);
+            for o in timing::overtaken(&scheme.stages, &groups, &opens_at, &on, &rank, &mut mark) {
+                let key = RULES * position[o.stage] + 3;
+                let g = found[key].get_or_insert_with(|| Gathered {
+                    opened: vec![false; n_loads],
+                    ..Gathered::default()
+                });
+                for &l in &o.opened {
+                    g.opened[l] = true;
+                }
+                for &m in &o.left_on {
+                    if g.left_on.len() <= LOADS_SHOWN {
+                        g.left_on.insert((rank[m], m));
+                    }
+                }
+                g.slower.extend(o.slower);
+                if !std::mem::replace(&mut touched_flag[key], true) {
+                    touched.push(key);
+                }
+            }
+            for group in groups {
                 let opened: Vec<(usize, usize)> = group
                     .iter()
                     .flat_map(|&s| opens(scheme, event, s).iter().map(move |&l| (s, l)))
@@ -588,7 +317,7 @@ pub fn rank_order(
                         for &s in &group {
                             for &l in &scheme.stages[s].sheds {
                                 if (on[l] || sup_opened[l]) && rank[l] > low {
-                                    let key = 3 * position[s] + 2;
+                                    let key = RULES * position[s] + 2;
                                     let g = found[key].get_or_insert_with(|| Gathered {
                                         opened: vec![false; n_loads],
                                         ..Gathered::default()
@@ -631,7 +360,7 @@ pub fn rank_order(
                         if !first.is_some_and(|m| rank[m] < rank_l) {
                             continue;
                         }
-                        let key = 3 * position[s] + usize::from(rule);
+                        let key = RULES * position[s] + usize::from(rule);
                         let g = found[key].get_or_insert_with(|| Gathered {
                             opened: vec![false; n_loads],
                             ..Gathered::default()
@@ -692,7 +421,7 @@ pub fn rank_order(
     let findings = found
         .into_iter()
         .enumerate()
-        .filter_map(|(key, g)| g.map(|g| (key / 3, key % 3, g)))
+        .filter_map(|(key, g)| g.map(|g| (key / RULES, key % RULES, g)))
         .map(|(pos, rule, g)| {
             let opened: BTreeSet<(u32, usize)> = (0..n_loads)
                 .filter(|&l| g.opened[l])
@@ -704,6 +433,26 @@ pub fn rank_order(
                 1 => (
                     "unassigned-lower-rank",
                     format!("{verb} connected and in no stage"),
+                ),
+                3 => (
+                    "rank-order",
+                    format!(
+                        "{verb} still connected on a fall fast enough for it to act before the slower {}, {me} having {:.2} s and {:.2} s; list them in {me} too, or make the slower stage's delay and breaker time no longer than {me}'s",
+                        g.slower
+                            .iter()
+                            .map(|&a| format!(
+                                "{} ({}, delay {:.2} s, breaker {:.2} s)",
+                                scheme.stages[a].id,
+                                super::describe_trigger(plant, &scheme.stages[a].trigger),
+                                scheme.stages[a].delay_s,
+                                scheme.stages[a].breaker_s
+                            ))
+                            .collect::<Vec<_>>()
+                            .join(", "),
+                        scheme.stages[order[pos]].delay_s,
+                        scheme.stages[order[pos]].breaker_s,
+                        me = scheme.stages[order[pos]].id,
+                    ),
                 ),
                 _ => (
                     "df/dt-supervised",
@@ -781,38 +530,4 @@ pub fn rank_order(
         }))
         .collect();
     (findings, notes, basis)
-}
-
-/// What a flow-sized stage opens at one event, in words: "at case X, utility opens at 1.00 s,
-/// at normal: 8.00 MW flowed in, less 0 MW allowance; opens a, b (9.00 MW)".
-fn pick_words(plant: &Plant, event: &Event, pick: &Pick) -> String {
-    let point = &plant.operating_points[event.op];
-    let opened: f64 = pick.loads.iter().map(|&l| point.load_mw[l]).sum();
-    let flow = if pick.flow_mw > 0.0 {
-        format!("{:.2} MW flowed in", pick.flow_mw)
-    } else {
-        "no flow in (it went the other way)".to_string()
-    };
-    let what = if pick.loads.is_empty() {
-        "opens nothing".to_string()
-    } else {
-        let names: Vec<&str> = pick
-            .loads
-            .iter()
-            .map(|&l| plant.loads[l].id.as_str())
-            .collect();
-        let short = if pick.flow_mw - pick.allowance_mw > opened + 1e-9 {
-            format!(
-                ", short of the {:.2} MW needed: its loads there are all it has",
-                pick.flow_mw - pick.allowance_mw
-            )
-        } else {
-            String::new()
-        };
-        format!("opens {} ({opened:.2} MW){short}", names.join(", "))
-    };
-    format!(
-        "{}, at {}: {flow}, less {:.2} MW allowance; {what}",
-        event.label, point.id, pick.allowance_mw
-    )
 }
