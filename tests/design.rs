@@ -142,6 +142,67 @@ fn demo_proposal_verifies_audits_clean_beats_the_baseline_and_is_thread_count_in
         .rows
         .iter()
         .any(|r| r.why.contains("one table serves every row")));
+    // The reason names the cause it found by replaying: on the demo the islanding followed by the
+    // engine trip at full rate sheds 1.00 MW above its realisable bound for the 1.2× disturbance
+    // margin (docs/design.md). Checked against verify's own margin search (a different path,
+    // verify/margins.rs): with that load out of its stage, the row holds as studied and fails
+    // with the margins, its disturbance margin below 1.2.
+    let row = two
+        .rows
+        .iter()
+        .find(|r| r.case == "utility-loss-then-engine-trip" && r.operating_point == "full-rate")
+        .unwrap();
+    assert!(
+        row.why.contains("the 1.20× disturbance margin — without "),
+        "{}",
+        row.why
+    );
+    let named = |after: &str| {
+        row.why
+            .split(after)
+            .nth(1)
+            .and_then(|t| t.split([' ', ',']).next())
+            .unwrap()
+            .to_string()
+    };
+    let (load, stage) = (named("without "), named(" MW) in "));
+    let li = plant.load_index(&load).unwrap();
+    let mut cheaper = two.scheme.clone();
+    let k = cheaper.stage_index(&stage).unwrap();
+    cheaper.stages[k].sheds.retain(|&l| l != li);
+    let (ci, case) = cases
+        .cases
+        .iter()
+        .enumerate()
+        .find(|(_, c)| c.id == row.case)
+        .unwrap();
+    let op = plant
+        .operating_points
+        .iter()
+        .position(|o| o.id == row.operating_point)
+        .unwrap();
+    let as_studied = nadir::verify::matrix::verify_one(
+        &plant,
+        case,
+        ci,
+        op,
+        &cheaper,
+        &VerifyConfig {
+            margins: false,
+            ..VerifyConfig::default()
+        },
+    );
+    assert!(as_studied.pass, "{:?}", as_studied.failures);
+    let with_margins =
+        nadir::verify::matrix::verify_one(&plant, case, ci, op, &cheaper, &VerifyConfig::default());
+    assert!(!with_margins.pass);
+    let factor = with_margins
+        .margins
+        .unwrap()
+        .disturbance_factor
+        .value()
+        .unwrap_or(0.0);
+    assert!(factor < 1.2, "disturbance margin {factor}");
     // Never-shed loads stay connected.
     for s in &two.scheme.stages {
         assert!(s.sheds.iter().all(|&l| !plant.loads[l].never_shed));
@@ -169,68 +230,6 @@ fn an_existing_table_that_holds_is_kept_unchanged() {
         fresh.objective,
         p.objective
     );
-}
-
-/// A new never-shed process line raises the import: the existing settings are kept and only a
-/// few loads move; the result verifies.
-#[test]
-#[ignore = "the demo's first table lists per-section stages at one pickup, which design's reassignment (one rank order over stage positions) cannot keep: it designs afresh instead (issue 12, --from on multi-section tables)"]
-fn a_new_process_line_moves_few_loads_and_keeps_the_settings() {
-    let text = std::fs::read_to_string("examples/biorefinery/plant.yaml").unwrap();
-    let grown = text
-        .replace(
-            "  - { id: ups-dcs-b,",
-            "  - { id: ethanol-line-2, section: mv-a, p_mw: 0.6, rank: 37, never_shed: true, freq_exp: 2.5, description: \"New line\" }\n  - { id: ups-dcs-b,",
-        )
-        .replace("import_mw: 5.8 ", "import_mw: 6.4 ")
-        .replace("import_mw: 3.07", "import_mw: 3.49")
-        .replace("import_mw: 2.788", "import_mw: 3.076");
-    assert_ne!(grown, text);
-    let plant = nadir::input::parse_plant(&grown, "grown.yaml").unwrap();
-    let cases =
-        nadir::input::load_cases(Path::new("examples/biorefinery/cases.yaml"), &plant).unwrap();
-    let existing =
-        nadir::input::load_scheme(Path::new("schemes/biorefinery.yaml"), &plant).unwrap();
-    // The grown import is 6.4 / 5.8 = 1.10× the old one; the table held the old plant's
-    // islanding with the engine trip up to 1.23×, short of the 1.2× the grown plant requires of
-    // its own (larger) import.
-    let before = verify(&plant, &cases, &existing, &VerifyConfig::default(), &|| {});
-    assert!(
-        !before.all_pass(),
-        "the grown plant should break the old table"
-    );
-
-    let p = design::design(&plant, &cases, Some(&existing), &quiet).unwrap();
-    assert_eq!(p.from, Some(FromOutcome::Reassigned));
-    for (old, new) in existing.stages.iter().zip(&p.scheme.stages) {
-        assert_eq!(
-            (old.id.as_str(), old.trigger, old.delay_s),
-            (new.id.as_str(), new.trigger, new.delay_s)
-        );
-    }
-    let moved: usize = plant
-        .loads
-        .iter()
-        .enumerate()
-        .filter(|(i, _)| {
-            let stage_of =
-                |s: &nadir::model::Scheme| s.stages.iter().position(|st| st.sheds.contains(i));
-            let old = stage_of(&existing).map(|k| existing.stages[k].id.clone());
-            let new = stage_of(&p.scheme).map(|k| p.scheme.stages[k].id.clone());
-            old != new
-        })
-        .count();
-    assert!((1..=3).contains(&moved), "{moved} loads moved");
-    let after = verify(&plant, &cases, &p.scheme, &VerifyConfig::default(), &|| {});
-    assert!(after.all_pass());
-    assert!(audit_cases(
-        &plant,
-        &p.scheme,
-        Some(&cases),
-        &AuditRules::for_plant(&plant)
-    )
-    .violations
-    .is_empty());
 }
 
 /// The shortfall of a case no table can hold, against the swing equation. One machine with

@@ -129,6 +129,25 @@ fn bad_records_name_line_and_fix() {
         "time_s,f\n0,50\n0.02,NaN\n0.04,49.9\n",
         &["r.csv:3: row 3: the frequency in `f` is not a finite number"],
     );
+    // A lost sample written as 0 Hz, and a full-scale spike: no system frequency steps 50 Hz in
+    // 20 ms (the limit is 1 Hz faster than 25 Hz/s, src/recording/mod.rs: common practice, no
+    // source); a fall of 2 Hz over 1 s between SCADA samples is a frequency and is read.
+    check(
+        "dropout",
+        "time_s,f\n0,50\n0.02,49.9\n0.04,0\n0.06,49.8\n",
+        &[
+            "r.csv:4: row 4: the frequency in `f` steps from 49.9 Hz to 0 Hz in 20.000 ms",
+            "no system frequency moves that fast",
+            "cut the record before it",
+        ],
+    );
+    check(
+        "spike",
+        "time_s,f\n0,50\n0.02,9999\n0.04,49.9\n",
+        &["r.csv:3: row 3: the frequency in `f` steps from 50 Hz to 9999 Hz"],
+    );
+    let p = write("slow", "r.csv", "time_s,f\n0,50\n1,48\n2,47.5\n");
+    assert_eq!(read(&p).frequency_hz, vec![50.0, 48.0, 47.5]);
     check(
         "blank",
         "time_s,f\n0,50\n0.02,\n",

@@ -415,6 +415,9 @@ fn from_summary(
         }
     };
     let mut out = format!("{head}\n");
+    for why in &p.from_why_not {
+        out.push_str(&format!("  Not kept by {why}.\n"));
+    }
     if outcome != FromOutcome::Unchanged {
         out.push_str(&super::compare::settings_table(&changes));
     }

@@ -1,10 +1,9 @@
 //! The final table and what is reported of it: bottom stages no row operates dropped, each
-//! row's shed against its ideal and realisable bounds with the reason in words, the headroom per
+//! row's shed against its ideal and realisable bounds with the reason in words ([`super::why`]), the headroom per
 //! operating point, and the proposal that carries them.
 
 use super::backstop::Backstop;
 use super::bound::{self, Bound};
-use super::evaluate as sizing_eval;
 use super::sizing::{Context, Sized};
 use super::{BaselineSummary, FromOutcome, Headroom, Proposal, RowShed, Source};
 use crate::model::{Scheme, StageTrigger};
@@ -48,6 +47,7 @@ pub(super) fn finish(
         .enumerate()
         .map(|(r, &(_, op))| shed_mw(ctx, op, &best.evals[r].shed_loads))
         .collect();
+    let why = super::why::reasons(ctx, &scheme, &best.evals, &shed, &realisable);
     let rows = ctx
         .rows
         .iter()
@@ -60,7 +60,7 @@ pub(super) fn finish(
             shed_mw: shed[r],
             bound_mw: bounds[r].mw,
             realisable_mw: realisable[r],
-            why: why_not_at_bound(ctx, &scheme, &best.evals, &shed, &realisable, r),
+            why: why[r].clone(),
             baseline_mw: baseline
                 .as_ref()
                 .map(|b| shed_mw(ctx, op, &b.evals[r].shed_loads)),
@@ -112,73 +112,13 @@ pub(super) fn finish(
         }),
         from,
         fresh: None,
+        from_why_not: Vec::new(),
         source,
         backstop,
         unassigned,
         layouts_sized,
         replays: replays + best.runs,
         solver: ctx.solver_summary(),
-    }
-}
-
-/// Whether row `r` sheds no more than its realisable bound (within 0.05 MW or 2 %), and if it
-/// sheds more, why, in words: the stages it operates also serve rows that need them, or (when
-/// no other row shares them) the grid of pickups and delays acts later than the fastest relay.
-fn why_not_at_bound(
-    ctx: &Context,
-    scheme: &Scheme,
-    evals: &[sizing_eval::RowEval],
-    shed: &[f64],
-    realisable: &[f64],
-    r: usize,
-) -> String {
-    if ctx.cases.cases[ctx.rows[r].0].shedding_intended {
-        return "shedding intended: its shed is not counted as cost".into();
-    }
-    let slack = 0.05_f64.max(0.02 * realisable[r]);
-    if shed[r] <= realisable[r] + slack {
-        return if shed[r] <= 1e-9 {
-            "at its bound: sheds nothing".into()
-        } else {
-            "at its realisable bound".into()
-        };
-    }
-    let name = |k: usize| scheme.stages[k].id.clone();
-    let row_name = |q: usize| {
-        let (ci, op) = ctx.rows[q];
-        format!(
-            "{} at {}",
-            ctx.cases.cases[ci].id, ctx.plant.operating_points[op].id
-        )
-    };
-    // The row that most needs each stage this row operates: another row operating it whose
-    // realisable bound is the largest.
-    let mut reasons: Vec<String> = Vec::new();
-    for &k in &evals[r].operated {
-        let needer = (0..ctx.rows.len())
-            .filter(|&q| q != r && evals[q].operated.contains(&k) && realisable[q] > 1e-9)
-            .max_by(|&a, &b| realisable[a].total_cmp(&realisable[b]));
-        if let Some(q) = needer {
-            reasons.push(format!("{} is also needed by {}", name(k), row_name(q)));
-        }
-    }
-    let excess = shed[r] - realisable[r];
-    if realisable[r] <= 1e-9 {
-        if reasons.is_empty() {
-            format!("needs no shedding, yet sheds {excess:.2} MW: its stages act on a dip the table cannot tell from one that needs them")
-        } else {
-            format!(
-                "needs no shedding, yet sheds {excess:.2} MW: one table serves every row, and {}",
-                reasons.join("; ")
-            )
-        }
-    } else if reasons.is_empty() {
-        format!("{excess:.2} MW above it: the stages' pickups and delays are on the design grid and act later than the fastest relay the bound assumes")
-    } else {
-        format!(
-            "{excess:.2} MW above it: one table serves every row, and {}",
-            reasons.join("; ")
-        )
     }
 }
 

@@ -20,6 +20,7 @@ mod finish;
 pub mod layout;
 mod search;
 pub mod sizing;
+mod why;
 
 pub use search::{starting_layouts, EXHAUSTIVE_LAYOUTS};
 
@@ -50,6 +51,9 @@ pub struct Proposal {
     pub from: Option<FromOutcome>,
     /// With `--from` when the existing settings were kept: what a fresh design would cost.
     pub fresh: Option<BaselineSummary>,
+    /// With `--from` when the existing settings could not be kept: why, one reason per method
+    /// tried, in words (the output prints them).
+    pub from_why_not: Vec<String>,
     /// Where the proposal came from.
     pub source: Source,
     /// What became of the loads no studied case needs.
@@ -188,12 +192,16 @@ pub fn design(
 
     let mut chosen: Option<(Sized, Source)> = None;
     let mut from_outcome = None;
+    let mut kept_scheme = None;
+    let mut from_why_not = Vec::new();
     if let Some(existing) = from {
         progress("existing table");
-        let (result, outcome, n) = keep_existing(&ctx, existing);
-        replays += n;
-        from_outcome = Some(outcome);
-        if let Some(s) = result {
+        let kept = keep_existing(&ctx, existing);
+        replays += kept.runs;
+        from_outcome = Some(kept.outcome);
+        kept_scheme = kept.scheme;
+        from_why_not = kept.why_not;
+        if let Some(s) = kept.sized {
             chosen = Some((s, Source::Existing));
         }
     }
@@ -238,8 +246,9 @@ pub fn design(
     let Some((best, source)) = chosen else {
         return Err(DesignError::NoLayout(why_no_layout(&ctx)));
     };
-    let exact = (from_outcome == Some(FromOutcome::Unchanged) && source == Source::Existing)
-        .then(|| from.cloned())
+    // A kept table is written exactly as it stands, its stages in their own order.
+    let exact = (source == Source::Existing)
+        .then_some(kept_scheme)
         .flatten();
     let mut proposal = finish(
         &ctx,
@@ -253,6 +262,7 @@ pub fn design(
         layouts_sized,
         replays,
     );
+    proposal.from_why_not = from_why_not;
     proposal.fresh = fresh.map(|f| BaselineSummary {
         objective: f.objective,
         stages: f.layout.stages.len(),

@@ -209,11 +209,23 @@ fn refuse(file: &str, line: Option<usize>, message: String, help: String) -> Err
     Error::Input(vec![diagnostic(file, line, message, help)])
 }
 
-/// Checks a measured frequency channel's values: finite, and in Hz rather than per unit or mHz.
-/// `place(i)` names sample `i` for messages (a CSV line or a COMTRADE sample number).
+/// The largest step between two consecutive frequency samples that can be the system's frequency:
+/// both more than [`JUMP_HZ`] and faster than [`JUMP_HZ_PER_S`]. The rate is a whole plant's
+/// generation lost on an island of 1 s inertia at 50 Hz, f0·ΔP/(2H) = 50·1/(2·1) = 25 Hz/s, beyond
+/// any islanding a plant with synchronous machines shows; the size keeps fine sampling with noise
+/// (a few mHz over 0.1 ms) clear of the rate. A faster, larger step is a lost sample (a recorder
+/// writing 0 or a full-scale value) or a measurement artefact at a switching instant (common
+/// practice, no source); read as frequency it would set the record's nadir or ROCOF.
+const JUMP_HZ: f64 = 1.0;
+const JUMP_HZ_PER_S: f64 = 25.0;
+
+/// Checks a measured frequency channel's values: finite, in Hz rather than per unit or mHz, and
+/// free of steps no system frequency can take ([`JUMP_HZ`], [`JUMP_HZ_PER_S`]). `place(i)` names
+/// sample `i` for messages (a CSV line or a COMTRADE sample number).
 fn check_hz(
     file: &str,
     channel: &str,
+    times: &[f64],
     values: &[f64],
     place: &dyn Fn(usize) -> (Option<usize>, String),
 ) -> Result<(), Error> {
@@ -247,6 +259,31 @@ fn check_hz(
                 .to_string(),
         ));
     }
+    for i in 1..values.len().min(times.len()) {
+        let step_hz = values[i] - values[i - 1];
+        let dt = times[i] - times[i - 1];
+        if step_hz.abs() > JUMP_HZ && step_hz.abs() > JUMP_HZ_PER_S * dt {
+            let (line, at) = place(i);
+            return Err(refuse(
+                file,
+                line,
+                format!(
+                    "{at}: the frequency in `{channel}` steps from {} Hz to {} Hz in {:.3} ms, \
+                     {:.0} Hz/s; no system frequency moves that fast (a lost sample or a \
+                     measurement artefact)",
+                    values[i - 1],
+                    values[i],
+                    dt * 1e3,
+                    step_hz.abs() / dt
+                ),
+                format!(
+                    "check the samples around this one; cut the record before it, or replace a \
+                     lost sample by its neighbours' mean; nadir refuses a step of more than {JUMP_HZ} Hz \
+                     faster than {JUMP_HZ_PER_S} Hz/s rather than read it as the frequency"
+                ),
+            ));
+        }
+    }
     Ok(())
 }
 
@@ -274,7 +311,7 @@ fn series(
         gaps,
     )?;
     let (times_s, frequency_hz, origin) = if measured {
-        check_hz(file, &channel, &values, place)?;
+        check_hz(file, &channel, &times, &values, place)?;
         (times, values, FrequencyOrigin::Measured { channel })
     } else {
         if let Some(i) = values.iter().position(|v| !v.is_finite()) {

@@ -14,11 +14,12 @@
 //! with it every step size, is the one of the unpadded system. Larger plants use a `DVector`.
 //! Must not: know relays, islands or events (it sees a derivative function and levels).
 
-use super::rhs::SegmentEquations;
+use super::rhs::{Filtered, SegmentEquations};
+use crate::relay::measurement::{self, INPUT_DEGREE};
 use ode_solvers::continuous_output_model::ContinuousOutputModel;
 use ode_solvers::dop_shared::{OutputType, System};
 use ode_solvers::{DVector, Dopri5, SVector};
-use std::cell::Cell;
+use std::cell::{Cell, RefCell};
 
 /// A state component watched against a level.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -35,12 +36,43 @@ pub struct Band {
     pub hi: f64,
 }
 
+/// Number of coefficients of a step's input polynomial.
+const NB: usize = INPUT_DEGREE + 1;
+
+/// Dormand–Prince 5(4) dense-output weights d1, d3…d7 (Hairer, Nørsett & Wanner, *Solving
+/// Ordinary Differential Equations I*, 2nd ed., §II.6, the continuous extension of DOPRI5;
+/// the same values ode_solvers uses).
+const DENSE_D: [f64; 6] = [
+    -12715105075.0 / 11282082432.0,
+    87487479700.0 / 32700410799.0,
+    -10690763975.0 / 1880347072.0,
+    701980252875.0 / 199316789632.0,
+    -1453857185.0 / 822651844.0,
+    69997945.0 / 29380423.0,
+];
+
+/// The input polynomial of a step, `w(t0 + θh) = Σ b[k]·θ^k`, from the values and slopes at
+/// both ends and the derivatives of stages 3–6 (`k36`): DOPRI5's continuous extension
+/// `y0 + θ(c1 + (1−θ)(c2 + θ(c3 + (1−θ)c4)))` written in powers of θ.
+fn step_polynomial(h: f64, y0: f64, k1: f64, y1: f64, k7: f64, k36: &[f64; 4]) -> [f64; NB] {
+    let c1 = y1 - y0;
+    let c2 = h * k1 - c1;
+    let c3 = -h * k7 + c1 - c2;
+    let d = &DENSE_D;
+    let c4 =
+        (k1 * d[0] + k36[0] * d[1] + k36[1] * d[2] + k36[2] * d[3] + k36[3] * d[4] + k7 * d[5]) * h;
+    [y0, c1 + c2, c3 + c4 - c2, -(c3 + 2.0 * c4), c4]
+}
+
 /// Options of the stepper.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct StepOptions {
     pub max_step_s: f64,
     pub rtol: f64,
     pub atol: f64,
+    /// The first step to try (capped at `max_step_s`); 0 lets the solver estimate one
+    /// (Hairer, Nørsett & Wanner, *Solving ODEs I*, §II.4, two derivative evaluations).
+    pub first_step_s: f64,
 }
 
 /// One integrated segment.
@@ -53,6 +85,9 @@ pub struct Segment {
     /// dy/dt at each point, flat like `states`.
     slopes: Vec<f64>,
     dense: Dense,
+    filtered: Vec<Filtered>,
+    /// Per accepted step, per filtered pair: the input polynomial of the step (`NB` values).
+    polys: Vec<f64>,
     /// The solver stopped early because a guard looked crossed in the last step.
     pub guard_hit: bool,
     /// The solver stopped early because a watched component left its band.
@@ -75,11 +110,51 @@ struct Observer<'a> {
     prev_t: f64,
     prev_y: Vec<f64>,
     prev_dy: Vec<f64>,
+    /// The solver's state and slope at the step end with the filtered components filled in.
+    cur_y: Vec<f64>,
+    cur_dy: Vec<f64>,
+    filtered: &'a [Filtered],
+    polys: &'a mut Vec<f64>,
+    /// The input components' derivatives at the solver's last five evaluations (a ring).
+    stage_ring: &'a RefCell<StageRing>,
+    /// The last evaluations were not the stages of the accepted step (never expected).
+    stages_unread: &'a Cell<bool>,
     times: &'a mut Vec<f64>,
     states: &'a mut Vec<f64>,
     slopes: &'a mut Vec<f64>,
     guard_hit: &'a Cell<bool>,
     band_left: &'a Cell<bool>,
+}
+
+/// The input components' derivatives at the solver's most recent evaluations. A Dormand–Prince
+/// step evaluates its stages 2–7 in order, stage 7 at the step end, and then reports the step;
+/// so when a step is accepted the last five evaluations are its stages 3–7, which with the
+/// start slope are what the continuous extension needs.
+struct StageRing {
+    n: usize,
+    /// 5 × n values, slot `calls % 5` written last.
+    values: Vec<f64>,
+    calls: usize,
+}
+
+impl StageRing {
+    fn record(&mut self, filtered: &[Filtered], dy: &[f64]) {
+        let slot = self.calls % 5;
+        for (j, f) in filtered.iter().enumerate() {
+            self.values[slot * self.n + j] = dy[f.input];
+        }
+        self.calls += 1;
+    }
+
+    /// Stages 3, 4, 5, 6 and 7 of filtered pair `j`, oldest first.
+    fn stages(&self, j: usize) -> [f64; 5] {
+        let mut out = [0.0; 5];
+        for (i, o) in out.iter_mut().enumerate() {
+            let slot = (self.calls + i) % 5;
+            *o = self.values[slot * self.n + j];
+        }
+        out
+    }
 }
 
 struct Plant<'a> {
@@ -89,8 +164,30 @@ struct Plant<'a> {
 
 impl Observer<'_> {
     fn accepted(&mut self, t: f64, y: &[f64], dy: &[f64]) -> bool {
-        let (y, dy) = (&y[..self.n], &dy[..self.n]);
         let h = t - self.prev_t;
+        self.cur_y.copy_from_slice(&y[..self.n]);
+        self.cur_dy.copy_from_slice(&dy[..self.n]);
+        {
+            let ring = self.stage_ring.borrow();
+            for (j, f) in self.filtered.iter().enumerate() {
+                let k = ring.stages(j);
+                let k7 = dy[f.input];
+                if k[4] != k7 || ring.calls < 5 {
+                    self.stages_unread.set(true);
+                }
+                let (pi, pd) = (self.prev_y[f.input], self.prev_dy[f.input]);
+                let b = step_polynomial(h, pi, pd, y[f.input], k7, &[k[0], k[1], k[2], k[3]]);
+                self.polys.extend_from_slice(&b);
+                let (m0, r0) = (self.prev_y[f.measured], self.prev_y[f.rocof]);
+                let (m, r) = measurement::advance(&f.lags, &b, h, 1.0, m0, r0);
+                let dm = measurement::measured_derivative(y[f.input], k7, m, f.lags.lag_s);
+                self.cur_y[f.measured] = m;
+                self.cur_y[f.rocof] = r;
+                self.cur_dy[f.measured] = dm;
+                self.cur_dy[f.rocof] = measurement::rocof_derivative(dm, r, f.lags.window_s);
+            }
+        }
+        let (y, dy) = (&self.cur_y, &self.cur_dy);
         let (py, pdy) = (&self.prev_y, &self.prev_dy);
         let crosses = |i: usize, level: f64| crosses_level(level, h, py[i], pdy[i], y[i], dy[i]);
         let hit = self.guards.iter().any(|g| crosses(g.index, g.level));
@@ -122,6 +219,12 @@ macro_rules! system_for {
                 let n = self.obs.n;
                 self.eq
                     .derivatives(&y.as_slice()[..n], &mut dy.as_mut_slice()[..n]);
+                if !self.obs.filtered.is_empty() {
+                    self.obs
+                        .stage_ring
+                        .borrow_mut()
+                        .record(self.obs.filtered, dy.as_slice());
+                }
             }
 
             fn solout(&mut self, t: f64, y: &$v, dy: &$v) -> bool {
@@ -221,6 +324,25 @@ pub fn integrate(
     let n = y0.len();
     let mut dy0 = vec![0.0; n];
     eq.derivatives(y0, &mut dy0);
+    let filtered = eq.filtered();
+    for f in &filtered {
+        // The slopes the filters have at the start (the equations give them zero).
+        let dm = measurement::measured_derivative(
+            y0[f.input],
+            dy0[f.input],
+            y0[f.measured],
+            f.lags.lag_s,
+        );
+        dy0[f.measured] = dm;
+        dy0[f.rocof] = measurement::rocof_derivative(dm, y0[f.rocof], f.lags.window_s);
+    }
+    let stage_ring = RefCell::new(StageRing {
+        n: filtered.len(),
+        values: vec![0.0; 5 * filtered.len()],
+        calls: 0,
+    });
+    let stages_unread = Cell::new(false);
+    let mut polys = Vec::with_capacity(64 * NB * filtered.len());
     let guard_hit = Cell::new(false);
     let band_left = Cell::new(false);
     let mut times = Vec::with_capacity(64);
@@ -236,6 +358,12 @@ pub fn integrate(
         prev_t: t0,
         prev_y: y0.to_vec(),
         prev_dy: dy0,
+        cur_y: vec![0.0; n],
+        cur_dy: vec![0.0; n],
+        filtered: &filtered,
+        polys: &mut polys,
+        stage_ring: &stage_ring,
+        stages_unread: &stages_unread,
         times: &mut times,
         states: &mut states,
         slopes: &mut slopes,
@@ -244,11 +372,13 @@ pub fn integrate(
     };
     let sys = Plant { eq, obs };
     let h_max = opt.max_step_s.min(t_end - t0).max(1e-9);
+    // The error norm counts the ODE states only (not the filtered components nor padding).
+    let n_ode = n - eq.n_outside_ode();
     macro_rules! solve {
         ($size:literal, $variant:ident, $runner:ident) => {{
             let mut y = SVector::<f64, $size>::zeros();
             y.as_mut_slice()[..n].copy_from_slice(y0);
-            Dense::$variant($runner(sys, t0, t_end, h_max, y, opt, n, $size)?)
+            Dense::$variant($runner(sys, t0, t_end, h_max, y, opt, n_ode, $size)?)
         }};
     }
     let dense = match n {
@@ -258,15 +388,24 @@ pub fn integrate(
         65..=128 => solve!(128, S128, run128),
         _ => {
             let y = DVector::from_column_slice(y0);
-            Dense::Dyn(run_dyn(sys, t0, t_end, h_max, y, opt, n, n)?)
+            Dense::Dyn(run_dyn(sys, t0, t_end, h_max, y, opt, n_ode, n)?)
         }
     };
+    if stages_unread.get() {
+        return Err(
+            "the integrator's stages could not be read for the relay measurement \
+                    (an internal error; please report it with the input files)"
+                .to_string(),
+        );
+    }
     Ok(Segment {
         n,
         times,
         states,
         slopes,
         dense,
+        filtered,
+        polys,
         guard_hit: guard_hit.get(),
         band_left: band_left.get(),
     })
@@ -285,8 +424,8 @@ macro_rules! dopri5_runner {
             n: usize,
             padded: usize,
         ) -> Result<ContinuousOutputModel<f64, $v>, String> {
-            // Padding entries have zero error; scaling both tolerances by √(n/N) makes the RMS
-            // norm over N entries equal the one over the n real entries.
+            // Padding and filtered entries have zero error; scaling both tolerances by √(n/N)
+            // makes the RMS norm over N entries equal the one over the n ODE states.
             let scale = if padded > n && n > 0 {
                 (n as f64 / padded as f64).sqrt()
             } else {
@@ -305,7 +444,7 @@ macro_rules! dopri5_runner {
                 0.2,
                 10.0,
                 h_max,
-                0.0,
+                opt.first_step_s.clamp(0.0, h_max),
                 1_000_000,
                 u32::MAX,
                 OutputType::Continuous,
@@ -354,12 +493,66 @@ impl Segment {
         &self.slopes[k * self.n..(k + 1) * self.n]
     }
 
+    /// The segment's longest of its last two accepted steps (the very last one may have been
+    /// shortened to end the segment exactly); 0 without a step.
+    pub fn last_step_s(&self) -> f64 {
+        let t = &self.times;
+        let step = |k: usize| {
+            if k >= 1 && k < t.len() {
+                t[k] - t[k - 1]
+            } else {
+                0.0
+            }
+        };
+        let n = t.len();
+        step(n.wrapping_sub(1)).max(step(n.wrapping_sub(2)))
+    }
+
     pub fn last_state(&self) -> &[f64] {
         self.state(self.n_points() - 1)
     }
 
     /// State at `t` inside the segment (clamped to its ends), written to `out`.
     pub fn at_into(&self, t: f64, out: &mut [f64]) {
+        self.ode_at_into(t, out);
+        if self.filtered.is_empty() {
+            return;
+        }
+        if let Some((k, theta)) = self.step_of(t) {
+            for j in 0..self.filtered.len() {
+                let (m, r) = self.filtered_in_step(j, k, theta);
+                out[self.filtered[j].measured] = m;
+                out[self.filtered[j].rocof] = r;
+            }
+        }
+    }
+
+    /// The accepted step `t` lies in (1-based, ending at `times[k]`) and the fraction of it, for
+    /// a time strictly inside the segment.
+    fn step_of(&self, t: f64) -> Option<(usize, f64)> {
+        let last = self.times.len() - 1;
+        if !(t > self.times[0] && t < self.times[last]) {
+            return None;
+        }
+        let k = self.times.partition_point(|&tk| tk < t).clamp(1, last);
+        let (ta, tb) = (self.times[k - 1], self.times[k]);
+        Some((k, ((t - ta) / (tb - ta)).clamp(0.0, 1.0)))
+    }
+
+    /// Filtered pair `j` at fraction `theta` of step `k`.
+    fn filtered_in_step(&self, j: usize, k: usize, theta: f64) -> (f64, f64) {
+        let f = &self.filtered[j];
+        let nf = self.filtered.len();
+        let at = ((k - 1) * nf + j) * NB;
+        let b: &[f64; NB] = self.polys[at..at + NB].try_into().expect("NB coefficients");
+        let y0 = self.state(k - 1);
+        let h = self.times[k] - self.times[k - 1];
+        measurement::advance(&f.lags, b, h, theta, y0[f.measured], y0[f.rocof])
+    }
+
+    /// The ODE states at `t` (clamped to the segment's ends), written to `out`; filtered
+    /// components are left at their value at the segment's start (inside) or end (past it).
+    pub fn ode_at_into(&self, t: f64, out: &mut [f64]) {
         let first = self.times[0];
         let last = self.times[self.times.len() - 1];
         if t <= first {
@@ -407,6 +600,15 @@ impl Segment {
         }
         if t >= last {
             return self.last_state()[i];
+        }
+        if let Some(j) = self
+            .filtered
+            .iter()
+            .position(|f| f.measured == i || f.rocof == i)
+        {
+            let (k, theta) = self.step_of(t).expect("inside the segment");
+            let (m, r) = self.filtered_in_step(j, k, theta);
+            return if self.filtered[j].measured == i { m } else { r };
         }
         let v = match &self.dense {
             Dense::S16(d) => d.evaluate(t).map(|v| v[i]),

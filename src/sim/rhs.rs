@@ -4,11 +4,26 @@
 //! `y[3s] = Δω_s` (pu speed deviation of the section's island), `y[3s+1] = m_s` (measured Δω, pu),
 //! `y[3s+2] = r_s` (measured dΔω/dt, pu/s); then each generator's governor states in generator
 //! order (see [`crate::dynamics::governor`]; a tripped or offline machine keeps its slots, frozen).
+//! The measurement slots `m_s`, `r_s` are not ODE states: their derivative here is zero, and the
+//! integrator advances them over each step by the measurement's exact solution driven by the
+//! step's dense output of `Δω_s` ([`SegmentEquations::filtered`], [`crate::relay::measurement`]).
 //! Sections of one island carry identical values, so a split needs no re-layout: each part simply
 //! continues from the parent's values. This function is pure in (equations, conditions, y).
 
 use crate::dynamics::{governor::Governor, load, swing};
-use crate::relay::measurement;
+use crate::relay::measurement::Lags;
+
+/// A pair of components that are linear filters of another one (a relay's measured frequency
+/// `m` and measured df/dt `r` of a section's speed, [`crate::relay::measurement`]): not ODE
+/// states (their derivative in the equations is zero), but advanced over each accepted step by
+/// the filters' exact solution driven by the step's dense output of the input component.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Filtered {
+    pub input: usize,
+    pub measured: usize,
+    pub rocof: usize,
+    pub lags: Lags,
+}
 
 /// A running or stopped machine.
 #[derive(Debug, Clone, PartialEq)]
@@ -249,13 +264,31 @@ impl SegmentEquations {
             if self.islands[isl].mode == IslandMode::Frozen {
                 continue;
             }
-            let (iw, im, ir) = (speed_index(s), measured_index(s), rocof_index(s));
-            let dw = pm[isl];
-            dy[iw] = dw;
-            let dm = measurement::measured_derivative(y[iw], dw, y[im], self.frequency_lag_s);
-            dy[im] = dm;
-            dy[ir] = measurement::rocof_derivative(dm, y[ir], self.rocof_window_s);
+            dy[speed_index(s)] = pm[isl];
         }
+    }
+
+    /// The measurement of every section not held (frozen): measured frequency and df/dt as
+    /// filters of the section's speed, advanced by the integrator outside the ODE. A frozen
+    /// section's measurement is held with the rest of its island.
+    pub fn filtered(&self) -> Vec<Filtered> {
+        let lags = Lags::new(self.frequency_lag_s, self.rocof_window_s);
+        self.island_of_section
+            .iter()
+            .enumerate()
+            .filter(|&(_, &isl)| self.islands[isl].mode != IslandMode::Frozen)
+            .map(|(s, _)| Filtered {
+                input: speed_index(s),
+                measured: measured_index(s),
+                rocof: rocof_index(s),
+                lags,
+            })
+            .collect()
+    }
+
+    /// Entries of the state that are not ODE states: the two measurement slots of every section.
+    pub fn n_outside_ode(&self) -> usize {
+        2 * self.island_of_section.len()
     }
 }
 

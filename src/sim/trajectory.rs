@@ -272,7 +272,7 @@ impl Trajectory {
             } else {
                 match p.kept.get(j) {
                     Some(kp) if t >= kp.to => state.copy_from_slice(&kp.y_to),
-                    Some(kp) => kp.seg.at_into(t, &mut state),
+                    Some(kp) => kp.seg.ode_at_into(t, &mut state),
                     None => state.copy_from_slice(p.kept.last().map_or(&p.y0, |kp| &kp.y_to)),
                 }
             }

@@ -280,6 +280,10 @@ impl<'a> Engine<'a> {
     fn execute(&mut self) {
         self.evaluate_relays();
         let mut dy = vec![0.0; self.y.len()];
+        // The previous segment's equations and its last step: a restart with unchanged equations
+        // (a recheck of the step cap, a timer or crossing that changed nothing continuous) starts
+        // from that step instead of a fresh estimate.
+        let mut previous: Option<(SegmentEquations, f64)> = None;
         loop {
             while let Some((at, ev)) = self.queue.pop_due(self.t) {
                 self.handle(at, ev);
@@ -323,6 +327,10 @@ impl<'a> Engine<'a> {
                 },
                 rtol: self.cfg.rtol,
                 atol: self.cfg.atol,
+                first_step_s: match &previous {
+                    Some((p, h)) if *p == seq => *h,
+                    _ => 0.0,
+                },
             };
             let bands = if quiet {
                 self.bands(&watched)
@@ -386,8 +394,10 @@ impl<'a> Engine<'a> {
             let frozen: Vec<bool> = (0..self.eq.n_sections)
                 .map(|s| self.cond.modes[self.cond.island_of_section[s]] == IslandMode::Frozen)
                 .collect();
+            let h_last = seg.last_step_s();
             self.rec
                 .segment(seg, &frozen, t_stop, &y_stop, &dy, self.shed_mw);
+            previous = Some((seq, h_last));
             self.t = t_stop;
             self.y = y_stop;
             if crossed {
