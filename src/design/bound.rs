@@ -69,10 +69,12 @@ pub fn bound(plant: &Plant, case: &Case, op: usize, cfg: &SimConfig) -> Result<B
     };
     let run = |c: &Case| sim::simulate(plant, c, op, &empty, cfg);
     let holds = |c: &Case| verdict_of(plant, c, op, &run(c)) == Verdict::Holds;
-    if holds(case) {
+    // The unshed run decides both whether the row needs shedding and where frequency falls.
+    let unshed = run(case);
+    if verdict_of(plant, case, op, &unshed) == Verdict::Holds {
         return Ok(Bound { mw: 0.0 });
     }
-    let falling = falling_sections(plant, case, op, &run(case));
+    let falling = falling_sections(plant, case, op, &unshed);
     let point = &plant.operating_points[op];
     let sheddable = sheddable_by_section(plant, point, &falling);
     let total: f64 = sheddable.iter().map(|(_, mw)| mw).sum();

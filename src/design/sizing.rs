@@ -357,10 +357,7 @@ pub fn size(
                 return Err(NotSized::NoStageActs { row: r });
             }
         }
-        let found: Vec<(Option<Requirement>, usize)> = failing
-            .par_iter()
-            .map(|&r| requirement(ctx, layout, &assignment, r, &evals[r]))
-            .collect();
+        let found = requirements_of(ctx, layout, &assignment, &failing, &evals);
         for (req, n) in found {
             runs += n;
             if let Some(req) = req {
@@ -567,6 +564,145 @@ fn costs(ctx: &Context, layout: &Layout, stages: usize, evals: &[RowEval]) -> Ve
             c
         })
         .collect()
+}
+
+/// The requirements the failing rows set, in the order of `failing`, each with the replays it
+/// used.
+///
+/// Rows that are short at the same operating point with the same single operated stage share
+/// their search: each row's requirement is then on the same stages, the same MW function of the
+/// count of loads moved into that stage, and the model keeps only the largest of them (`add`).
+/// So the group needs only its largest count: the first row's count is found by bisection, the
+/// other rows are replayed at the largest count so far (in parallel), and only a row still short
+/// there bisects above it. With "no longer short" monotone in the count (the bisection's own
+/// assumption) this is the largest of the rows' own counts, so the requirements are those of
+/// [`requirement`] row by row. Other rows (several operated stages, too much shed) search alone.
+fn requirements_of(
+    ctx: &Context,
+    layout: &Layout,
+    assignment: &[Option<usize>],
+    failing: &[usize],
+    evals: &[RowEval],
+) -> Vec<(Option<Requirement>, usize)> {
+    let shared = |r: usize| {
+        let e = &evals[r];
+        (e.verdict == Verdict::Short && e.acting.len() == 1).then(|| (ctx.rows[r].1, e.acting[0]))
+    };
+    // Groups of positions in `failing`, in order of their first row.
+    let mut groups: Vec<Vec<usize>> = Vec::new();
+    for (p, &r) in failing.iter().enumerate() {
+        let key = shared(r);
+        match groups
+            .iter_mut()
+            .find(|g| key.is_some() && shared(failing[g[0]]) == key)
+        {
+            Some(g) => g.push(p),
+            None => groups.push(vec![p]),
+        }
+    }
+    let found: Vec<(Option<Requirement>, usize)> = groups
+        .par_iter()
+        .map(|g| match shared(failing[g[0]]) {
+            Some((op, stage)) if g.len() > 1 => {
+                let rows: Vec<usize> = g.iter().map(|&p| failing[p]).collect();
+                shared_requirement(ctx, layout, assignment, &rows, op, stage)
+            }
+            _ => {
+                let r = failing[g[0]];
+                requirement(ctx, layout, assignment, r, &evals[r])
+            }
+        })
+        .collect();
+    let mut out: Vec<(Option<Requirement>, usize)> = vec![(None, 0); failing.len()];
+    for (g, (req, runs)) in groups.iter().zip(found) {
+        for (j, &p) in g.iter().enumerate() {
+            out[p] = (req.clone(), if j == 0 { runs } else { 0 });
+        }
+    }
+    out
+}
+
+/// The largest requirement of `rows`, each short at operating point `op` with `stage` the only
+/// stage operated (see [`requirements_of`]); with the replays used.
+fn shared_requirement(
+    ctx: &Context,
+    layout: &Layout,
+    assignment: &[Option<usize>],
+    rows: &[usize],
+    op: usize,
+    stage: usize,
+) -> (Option<Requirement>, usize) {
+    let later: Vec<usize> = (0..ctx.loads.len())
+        .filter(|&j| assignment[j].is_none_or(|k| k > stage) && ctx.mw[op][ctx.loads[j].0] > 0.0)
+        .collect();
+    let n = later.len();
+    if n == 0 {
+        return (None, 0);
+    }
+    let moved = |m: usize| {
+        let mut a = assignment.to_vec();
+        for &j in &later[..m] {
+            a[j] = Some(stage);
+        }
+        a
+    };
+    let runs = std::cell::Cell::new(0);
+    let not_short = |r: usize, m: usize| {
+        runs.set(runs.get() + 1);
+        ctx.evaluate_row(r, &ctx.scheme(layout, &moved(m))).verdict != Verdict::Short
+    };
+    // The largest count so far; `None` from `least` (short even with every later load) is the
+    // whole list, above which no row can go.
+    let mut top = least(n, |m| not_short(rows[0], m)).unwrap_or(n);
+    let mut rest: Vec<usize> = rows[1..].to_vec();
+    while top < n && !rest.is_empty() {
+        let scheme = ctx.scheme(layout, &moved(top));
+        let still: Vec<bool> = rest
+            .par_iter()
+            .map(|&r| ctx.evaluate_row(r, &scheme).verdict == Verdict::Short)
+            .collect();
+        runs.set(runs.get() + rest.len());
+        rest = rest
+            .iter()
+            .zip(still)
+            .filter_map(|(&r, s)| s.then_some(r))
+            .collect();
+        let Some((&r, others)) = rest.split_first() else {
+            break;
+        };
+        // Least count above `top` for this row, as `least` would find it: the whole list
+        // first, then a bisection.
+        if !not_short(r, n) {
+            top = n;
+            break;
+        }
+        let (mut bad, mut good) = (top, n);
+        while good - bad > 1 {
+            let mid = (bad + good) / 2;
+            if not_short(r, mid) {
+                good = mid;
+            } else {
+                bad = mid;
+            }
+        }
+        top = good;
+        rest = others.to_vec();
+    }
+    let upto = layout::effective(layout, &[stage]);
+    let mw: f64 = ctx
+        .loads
+        .iter()
+        .zip(&moved(top))
+        .filter(|(_, a)| a.is_some_and(|k| upto.contains(&k)))
+        .map(|((i, _), _)| ctx.mw[op][*i])
+        .sum();
+    let req = Requirement {
+        op,
+        stages: upto,
+        mw,
+        at_least: true,
+    };
+    (Some(req), runs.get())
 }
 
 /// The requirement a failing row sets, found by replaying that row alone with loads moved into

@@ -8,10 +8,25 @@
 //! `(f/f0)^k` is computed without the general power function when `k` is an integer or a
 //! half-integer of magnitude at most [`MAX_SHORT_EXPONENT`] (the common cases 1, 2, 2.5):
 //! `r^k = r^n·√r` (`n` the integer part of `k`) by repeated multiplication and one square root, equal to `powf` within a
-//! few units in the last place.
+//! few units in the last place. Any other exponent with `|k| ≤` [`MAX_SERIES_EXPONENT`] (Kundur's
+//! 2.9 for fans, say) near nominal speed (`|r − 1| ≤` [`SERIES_RADIUS`], 3.125 Hz at 50 Hz) is
+//! summed from the binomial series `(1 + x)^k = Σ_n C(k, n)·x^n` to [`SERIES_TERMS`] terms
+//! (coefficients worked out once per segment). For `|k| ≤ 4`, `|C(k, n)| ≤ C(n + 3, 3)`, so the
+//! tail after the last term (`n ≥ 18`) is below `C(21, 3)·16^−18·1.1 ≈ 4e-19`, while the value
+//! itself is at least `(17/16)^−4 ≈ 0.78`: the series is exact to rounding (about 1e-16). Farther
+//! from nominal, and for other exponents, `powf`.
 
 /// Largest |k| computed by multiplication and a square root instead of `powf`.
 pub const MAX_SHORT_EXPONENT: f64 = 16.0;
+
+/// Largest `|r − 1|` at which other exponents are summed from the binomial series.
+pub const SERIES_RADIUS: f64 = 1.0 / 16.0;
+
+/// Largest |k| summed from the binomial series (the tail bound of the module doc holds to it).
+pub const MAX_SERIES_EXPONENT: f64 = 4.0;
+
+/// Terms of the binomial series summed (powers 0 to `SERIES_TERMS − 1`).
+pub const SERIES_TERMS: usize = 18;
 
 /// Load demand in MW at speed deviation `delta_omega_pu` and squared voltage `v_sq`.
 pub fn power_mw(p0_mw: f64, freq_exp: f64, delta_omega_pu: f64, v_sq: f64) -> f64 {
@@ -36,6 +51,12 @@ pub enum Exponent {
     Short {
         whole: i32,
         half: i8,
+    },
+    /// Any other exponent within ±[`MAX_SERIES_EXPONENT`]: its binomial coefficients
+    /// `C(k, n)`, summed near nominal speed, `powf` elsewhere.
+    Series {
+        k: f64,
+        coef: [f64; SERIES_TERMS],
     },
     /// Any other exponent: `powf`.
     General(f64),
@@ -62,6 +83,13 @@ impl Exponent {
                 whole: whole as i32,
                 half,
             }
+        } else if k.abs() <= MAX_SERIES_EXPONENT {
+            let mut coef = [0.0; SERIES_TERMS];
+            coef[0] = 1.0;
+            for n in 1..SERIES_TERMS {
+                coef[n] = coef[n - 1] * (k - (n - 1) as f64) / n as f64;
+            }
+            Exponent::Series { k, coef }
         } else {
             Exponent::General(k)
         }
@@ -81,6 +109,14 @@ impl Exponent {
                     _ => v / ratio.sqrt(),
                 }
             }
+            Exponent::Series { k, coef } => {
+                let x = ratio - 1.0;
+                if x.abs() <= SERIES_RADIUS {
+                    coef.iter().rev().fold(0.0, |acc, &c| acc * x + c)
+                } else {
+                    ratio.powf(k)
+                }
+            }
             Exponent::General(k) => ratio.powf(k),
         }
     }
@@ -95,6 +131,19 @@ mod tests {
         // REFERENCES check 11: 0.98^2.5 = 0.950747 (exponential load model, Kundur §7.1).
         let p = power_mw(1.0, 2.5, crate::model::base::hz_to_pu(49.0, 50.0), 1.0);
         assert!((p - 0.950747).abs() < 1e-6);
+    }
+
+    #[test]
+    fn other_exponents_near_nominal_agree_with_the_power_function() {
+        // The binomial series against `powf` (r^k = exp(k·ln r)) over the series' range and
+        // past it (where `powf` itself is used): Kundur Table 7.1's 2.9 and others.
+        for &k in &[2.9, 0.7, 1.3, -0.8, 3.99, -3.99, 4.2, 15.9, -15.9] {
+            for i in -80..=80 {
+                let r = 1.0 + i as f64 * (0.08 / 80.0);
+                let (a, b) = (frequency_factor(r, k), f64::powf(r, k));
+                assert!(((a - b) / b).abs() < 1e-14, "k {k}, r {r}: {a} against {b}");
+            }
+        }
     }
 
     #[test]

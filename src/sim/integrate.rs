@@ -604,11 +604,19 @@ impl Segment {
         if let Some(j) = self
             .filtered
             .iter()
-            .position(|f| f.measured == i || f.rocof == i)
+            .position(|f| f.input == i || f.measured == i || f.rocof == i)
         {
             let (k, theta) = self.step_of(t).expect("inside the segment");
+            let f = &self.filtered[j];
+            if f.input == i {
+                // The step's continuous extension of the input, kept as a quartic in θ: one
+                // component without evaluating the whole state.
+                let at = ((k - 1) * self.filtered.len() + j) * NB;
+                let b = &self.polys[at..at + NB];
+                return b.iter().rev().fold(0.0, |acc, &c| acc * theta + c);
+            }
             let (m, r) = self.filtered_in_step(j, k, theta);
-            return if self.filtered[j].measured == i { m } else { r };
+            return if f.measured == i { m } else { r };
         }
         let v = match &self.dense {
             Dense::S16(d) => d.evaluate(t).map(|v| v[i]),

@@ -244,13 +244,42 @@ impl Samples<'_> {
         let mut minq: VecDeque<usize> = VecDeque::new();
         let mut pushed = 0;
         // Grid points that count: the first one past `from` and not before `window`, up to `to`.
-        let i_min = (0..self.len)
-            .position(|i| included(self.time(i)))
-            .unwrap_or(self.len);
-        let i_end = (i_min..self.len)
-            .rev()
-            .find(|&i| included(self.time(i)))
-            .map_or(i_min, |i| i + 1);
+        // Both found from an estimate corrected on the same tests (the lower bounds hold from
+        // some grid point on, the upper one up to some point), not by a scan of the grid.
+        let after_lower = |i: usize| {
+            let t = self.time(i);
+            !(t < window - 1e-12 || t <= from)
+        };
+        let below_upper = |i: usize| self.time(i) <= to + 1e-12;
+        let estimate = |t: f64| {
+            if t.is_finite() {
+                ((t / dt).floor().max(0.0) as usize).min(self.len)
+            } else if t > 0.0 {
+                self.len
+            } else {
+                0
+            }
+        };
+        let mut lower = estimate(window.max(from));
+        while lower > 0 && after_lower(lower - 1) {
+            lower -= 1;
+        }
+        while lower < self.len && !after_lower(lower) {
+            lower += 1;
+        }
+        let mut upper = estimate(to);
+        while upper < self.len && below_upper(upper) {
+            upper += 1;
+        }
+        while upper > 0 && !below_upper(upper - 1) {
+            upper -= 1;
+        }
+        let (i_min, i_end) = if lower < upper {
+            (lower, upper)
+        } else {
+            (self.len, self.len)
+        };
+        debug_assert!((i_min..i_end).all(|i| included(self.time(i))));
         let mut block_start = i_min;
         while block_start < i_end {
             let block_end = (block_start + BLOCK).min(i_end);
