@@ -160,3 +160,30 @@ fn the_demo_with_a_new_line_keeps_its_first_table_with_few_loads_moved() {
         nadir::input::load_scheme(Path::new("schemes/biorefinery.yaml"), &plant).unwrap();
     kept_with_few_moves(&plant, &cases, &existing, 3);
 }
+
+/// When no load moved one at a time and no assignment over the table's stage positions can hold
+/// the grown plant, the table is designed afresh and the proposal says why each way failed. The
+/// board mill with its turbine at 3.0 MW (its minimum) and 4.6 MW at most, importing 5.5 MW.
+#[test]
+fn settings_that_cannot_be_kept_are_redesigned_with_the_reasons() {
+    let text = std::fs::read_to_string(PLANT).unwrap();
+    let short = text
+        .replace("  import_mw: 3.8", "  import_mw: 5.5")
+        .replacen("    output_mw: 4.2", "    output_mw: 3.0", 1)
+        .replacen("    max_mw: 5.6", "    max_mw: 4.6", 1)
+        .replace(
+            "  - { id: a-drives,",
+            "  - { id: a-line-2, section: pm-a, p_mw: 0.5, rank: 13, never_shed: true, freq_exp: 2.5 }\n  - { id: a-drives,",
+        );
+    let plant = nadir::input::parse_plant(&short, "short.yaml").unwrap();
+    let (cases, existing) = load(&plant);
+    let p = design::design(&plant, &cases, Some(&existing), &quiet).unwrap();
+    assert_eq!(p.from, Some(FromOutcome::Redesigned));
+    assert_eq!(p.source, Source::Search);
+    assert_eq!(p.from_why_not.len(), 2, "{:?}", p.from_why_not);
+    assert!(p.from_why_not[0].starts_with("moving loads one at a time: "));
+    assert!(
+        p.from_why_not[1].starts_with("the assignment model over the table's stage positions: ")
+    );
+    assert!(verify(&plant, &cases, &p.scheme, &VerifyConfig::default(), &|| {}).all_pass());
+}

@@ -128,6 +128,10 @@ fn reason(
                 from.push(k);
             }
         }
+        if from.is_empty() {
+            // No stage the row operated lists it: no step to take back.
+            return head;
+        }
         let mw = ctx.mw[op][last];
         (
             s,

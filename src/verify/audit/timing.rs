@@ -212,4 +212,31 @@ mod tests {
         let opens = |s: usize| lengthening[s].sheds.as_slice();
         assert!(overtaken(&lengthening, &groups, &opens, &connected, &rank, &mut mark).is_empty());
     }
+
+    /// An armed stage counts like any other: armed by the event, its timer starts at the event,
+    /// so a frequency stage with a shorter delay can still open first on a fast fall; with no
+    /// longer a delay than the frequency stage it never does.
+    #[test]
+    fn an_armed_stage_with_a_longer_delay_is_overtaken_too() {
+        use crate::model::BreakerRef;
+        let rank = [1, 2, 3];
+        let connected = [true; 3];
+        let mut mark = [false; 3];
+        let armed = |delay_s| Stage {
+            trigger: StageTrigger::Breaker(BreakerRef::Utility),
+            ..stage(0.0, delay_s, 0.08, vec![0])
+        };
+        let slow = vec![armed(0.7), stage(49.0, 0.1, 0.08, vec![1, 2])];
+        let groups = vec![vec![0], vec![1]];
+        let opens = |s: usize| slow[s].sheds.as_slice();
+        let found = overtaken(&slow, &groups, &opens, &connected, &rank, &mut mark);
+        assert_eq!(found.len(), 1);
+        assert_eq!(
+            (found[0].left_on.as_slice(), found[0].slower.as_slice()),
+            (&[0][..], &[0][..])
+        );
+        let quick = vec![armed(0.1), stage(49.0, 0.1, 0.08, vec![1, 2])];
+        let opens = |s: usize| quick[s].sheds.as_slice();
+        assert!(overtaken(&quick, &groups, &opens, &connected, &rank, &mut mark).is_empty());
+    }
 }
