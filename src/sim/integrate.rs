@@ -480,6 +480,12 @@ dopri5_runner!(run128, SVector<f64, 128>);
 dopri5_runner!(run_dyn, DVector<f64>);
 
 impl Segment {
+    /// Values the segment keeps for reading later, against a run's memory ceiling: the state at
+    /// every stored point and the input quartic of every filtered pair and step.
+    pub fn kept_values(&self) -> usize {
+        self.states.len() + self.polys.len()
+    }
+
     /// Number of stored points (start point and every accepted step end).
     pub fn n_points(&self) -> usize {
         self.times.len()

@@ -51,7 +51,8 @@ pub struct SimConfig {
     pub locate_tol_s: f64,
     /// Discrete events after which a run stops as an event storm (1000, plus the case's own).
     pub max_events: usize,
-    /// State values a run may keep (accepted steps × state entries, 5 million, about half a
+    /// State values a run may keep (accepted steps × state entries, plus each step's quartic of
+    /// every section's speed kept for the relay measurement; 5 million, about half a
     /// gigabyte with the dense output and the recorder's knots; a one-hour case of the demo
     /// plant with every lag at the 10 ms floor keeps about 1.2 million): the run's memory
     /// ceiling. A run that needs more stops

@@ -347,9 +347,7 @@ impl<'a> Engine<'a> {
                     return;
                 }
             };
-            self.kept_values = self
-                .kept_values
-                .saturating_add(seg.n_points().saturating_mul(self.y.len().max(1)));
+            self.kept_values = self.kept_values.saturating_add(seg.kept_values());
             if self.kept_values > self.cfg.max_kept_values {
                 self.fault = Some(StopReason::NumericalFault {
                     at_s: self.t,
