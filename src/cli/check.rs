@@ -496,12 +496,7 @@ fn join(parts: &[String]) -> String {
         .join("; ")
 }
 
-/// Fixed decimals, with −0.00 shown as 0.00.
+/// Fixed decimals: the one rounding rule of every printed figure (`report::figures::fixed`).
 pub fn fmt(v: f64, decimals: usize) -> String {
-    let s = format!("{v:.decimals$}");
-    if s.starts_with('-') && s[1..].chars().all(|c| c == '0' || c == '.') {
-        s[1..].to_string()
-    } else {
-        s
-    }
+    nadir::report::figures::fixed(v, decimals)
 }

@@ -149,12 +149,24 @@ pub fn setting(v: f64) -> String {
     }
 }
 
-/// Fixed decimals, with −0.00 shown as 0.00 and a non-finite value as "—".
+/// Fixed decimals, halves rounded away from zero, with −0.00 shown as 0.00 and a non-finite value
+/// as "—": the one rounding rule of every printed figure (tables, reports, design's rows).
+///
+/// The value is first taken to 13 significant digits, so that the same quantity summed in another
+/// order (3.395 as 3.3950000000000002 in one report and 3.3949999999999996 in another) prints the
+/// same digits everywhere; binary rounding alone would print 3.40 in one place and 3.39 in the other.
 pub fn fixed(v: f64, decimals: usize) -> String {
     if !v.is_finite() {
         return "—".into();
     }
-    let s = format!("{v:.decimals$}");
+    let scale = 10f64.powi(decimals.min(15) as i32);
+    let scaled = significant(v * scale);
+    let rounded = if scaled.is_finite() && scaled.abs() < 1e15 {
+        scaled.round() / scale
+    } else {
+        v
+    };
+    let s = format!("{rounded:.decimals$}");
     if s.starts_with('-') && s[1..].chars().all(|c| c == '0' || c == '.') {
         s[1..].to_string()
     } else {
@@ -162,9 +174,34 @@ pub fn fixed(v: f64, decimals: usize) -> String {
     }
 }
 
+/// `v` to 13 significant digits: below the digits any figure prints, above the rounding error
+/// of a sum of a few thousand terms.
+fn significant(v: f64) -> f64 {
+    format!("{v:.12e}").parse().unwrap_or(v)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn one_quantity_summed_in_two_orders_prints_the_same_digits() {
+        // 1.155 + 2.24 and 2.24 + 1.155 differ in the last bit of the binary sum; a figure is
+        // printed from either, in different reports, and must read the same (halves round away
+        // from zero, as on paper).
+        let (a, b) = (3.3950000000000002_f64, 3.3949999999999996_f64);
+        assert_ne!(a, b);
+        assert_eq!(fixed(a, 2), "3.40");
+        assert_eq!(fixed(b, 2), "3.40");
+        assert_eq!(fixed(-0.004, 2), "0.00");
+        assert_eq!(fixed(-2.5, 0), "-3");
+        assert_eq!(fixed(0.125, 2), "0.13");
+        assert_eq!(fixed(1.2345, 3), "1.235");
+        assert_eq!(fixed(49.0, 2), "49.00");
+        assert_eq!(fixed(f64::NAN, 2), "—");
+        assert_eq!(fixed(1e300, 2), format!("{:.2}", 1e300));
+        assert_eq!(fixed(123456789.125, 2), "123456789.13");
+    }
 
     #[test]
     fn criteria_read_as_they_are_judged() {

@@ -699,17 +699,9 @@ SHA&#8209;256, and the results in this report.</p>\n<table class=\"signoff\">\n<
 
 pub use super::figures::margin_cell;
 
-/// A fixed-decimal number without a lone minus sign on zero.
+/// A fixed-decimal number (the one rounding rule, `figures::fixed`).
 fn num(v: f64, decimals: usize) -> String {
-    if !v.is_finite() {
-        return "—".into();
-    }
-    let s = format!("{v:.decimals$}");
-    if s.starts_with('-') && s[1..].chars().all(|c| c == '0' || c == '.') {
-        s[1..].to_string()
-    } else {
-        s
-    }
+    figures::fixed(v, decimals)
 }
 
 fn plural<'s>(n: usize, one: &'s str, many: &'s str) -> &'s str {
