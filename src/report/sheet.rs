@@ -383,7 +383,7 @@ pub fn cells(sheet: &Sheet, row: &Row) -> Vec<String> {
         c.extend(
             row.mw
                 .iter()
-                .map(|v| v.map(|v| format!("{v:.2}")).unwrap_or_default()),
+                .map(|v| v.map(|v| super::figures::fixed(v, 2)).unwrap_or_default()),
         );
     }
     c.extend([row.logic.clone(), String::new(), String::new()]);
