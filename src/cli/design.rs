@@ -258,16 +258,19 @@ fn headroom_lines(p: &Proposal) -> String {
     );
     for h in &p.headroom {
         let line = match h.worst_shed_mw {
-            None => format!("no studied case applies; {:.2} MW sheddable", h.sheddable_mw),
+            None => format!(
+                "no studied case applies; {} MW sheddable",
+                fmt(h.sheddable_mw, 2)
+            ),
             Some(w) if w > 1e-6 => format!(
-                "{:.2} MW sheddable, {:.2} MW shed at most: {:.1}× the worst studied shed before the table runs out of load",
-                h.sheddable_mw,
-                w,
-                h.sheddable_mw / w
+                "{} MW sheddable, {} MW shed at most: {}× the worst studied shed before the table runs out of load",
+                fmt(h.sheddable_mw, 2),
+                fmt(w, 2),
+                fmt(h.sheddable_mw / w, 1)
             ),
             Some(_) => format!(
-                "{:.2} MW sheddable; no studied case sheds here",
-                h.sheddable_mw
+                "{} MW sheddable; no studied case sheds here",
+                fmt(h.sheddable_mw, 2)
             ),
         };
         out.push_str(&format!("  {}: {line}\n", h.operating_point));
@@ -346,11 +349,11 @@ fn shed_table(p: &Proposal) -> String {
     }
     let baseline_line = match &p.baseline {
         Some(bl) => format!(
-            "Plain baseline ({} equal steps, rank order): {:.2} MW weighted by case in unwanted-shedding cases, objective {:.2}; the proposal's objective is {:.2} ({:+.1} %).",
+            "Plain baseline ({} equal steps, rank order): {} MW weighted by case in unwanted-shedding cases, objective {}; the proposal's objective is {} ({:+.1} %).",
             bl.stages,
-            base,
-            bl.objective,
-            p.objective,
+            fmt(base, 2),
+            fmt(bl.objective, 2),
+            fmt(p.objective, 2),
             100.0 * (p.objective - bl.objective) / bl.objective.max(1e-9)
         ) + if bl.rules_clean {
             ""
@@ -375,9 +378,10 @@ fn shed_table(p: &Proposal) -> String {
     }
     let intended_line = if p.rows.iter().any(|r| r.intended) {
         format!(
-            "Rows marked {INTENDED_MARK}: the case declares shedding its intended response; their shed, {intended_shed:.2} MW weighted by case{}, counts in no total, bound or objective.\n",
+            "Rows marked {INTENDED_MARK}: the case declares shedding its intended response; their shed, {} MW weighted by case{}, counts in no total, bound or objective.\n",
+            fmt(intended_shed, 2),
             match &p.baseline {
-                Some(_) => format!(" (plain baseline {intended_base:.2} MW)"),
+                Some(_) => format!(" (plain baseline {} MW)", fmt(intended_base, 2)),
                 None => String::new(),
             }
         )
@@ -386,14 +390,14 @@ fn shed_table(p: &Proposal) -> String {
     };
     format!(
         "Shed per case (MW at nominal frequency) against two lower bounds: the ideal bound (relief at the very instant of each event, in any amount) and the realisable bound (relief no sooner than the fastest allowed relay — minimum delay, breaker time, measurement lag — in whole loads in rank order, each row on its own):\n{}\n{intended_line}\
-Total weighted by case, cases where shedding is unwanted: {:.2} MW shed; ideal bound {:.2} MW ({}); realisable bound {:.2} MW ({}).\n\
+Total weighted by case, cases where shedding is unwanted: {} MW shed; ideal bound {} MW ({}); realisable bound {} MW ({}).\n\
 Row by row:\n{why}{baseline_line}\n\
 Objective = Σ case weight × rank weight × MW shed, over cases where shedding is unwanted.\n",
         finish(b, 2..8),
-        shed,
-        bound,
+        fmt(shed, 2),
+        fmt(bound, 2),
         above(bound),
-        real,
+        fmt(real, 2),
         above(real),
     )
 }

@@ -23,6 +23,7 @@
 use super::evaluate::{evaluate, RowEval, Verdict};
 use super::sizing::Context;
 use crate::model::{Plant, Scheme};
+use crate::report::figures::fixed;
 use rayon::prelude::*;
 
 /// Within this much of the realisable bound a row is at it: 0.05 MW or 2 %.
@@ -87,9 +88,9 @@ fn reason(
     let excess = shed[r] - realisable[r];
     let needs_none = realisable[r] <= 1e-9;
     let head = if needs_none {
-        format!("needs no shedding, yet sheds {excess:.2} MW")
+        format!("needs no shedding, yet sheds {} MW", fixed(excess, 2))
     } else {
-        format!("{excess:.2} MW above it")
+        format!("{} MW above it", fixed(excess, 2))
     };
     let stage_names = |ks: &[usize]| {
         ks.iter()
@@ -136,8 +137,9 @@ fn reason(
         (
             s,
             format!(
-                "without {} ({mw:.2} MW) in {}",
+                "without {} ({} MW) in {}",
                 ctx.plant.loads[last].id,
+                fixed(mw, 2),
                 stage_names(&from)
             ),
             mw,
@@ -173,8 +175,8 @@ fn reason(
             format!("{head}: {step} it fails as studied, although the bound (a lower end) needs no relief")
         } else if shed[r] - step_mw < realisable[r] - slack(realisable[r]) {
             format!(
-                "{head}: whole loads — {step} it would shed {:.2} MW, below its realisable bound, and fails",
-                shed[r] - step_mw
+                "{head}: whole loads — {step} it would shed {} MW, below its realisable bound, and fails",
+                fixed(shed[r] - step_mw, 2)
             )
         } else {
             format!(
@@ -244,8 +246,10 @@ fn reason(
             .map(|&l| ctx.mw[qop][l])
             .sum();
         return format!(
-            "{head}: one table serves every row — {step}, {} would shed {then:.2} MW instead of {now:.2} MW, which costs more than this row saves",
-            row_name(q)
+            "{head}: one table serves every row — {step}, {} would shed {} MW instead of {} MW, which costs more than this row saves",
+            row_name(q),
+            fixed(then, 2),
+            fixed(now, 2)
         );
     }
     // 4. Nothing fails: the audit, or the search.
