@@ -496,7 +496,13 @@ fn join(parts: &[String]) -> String {
         .join("; ")
 }
 
-/// Fixed decimals: the one rounding rule of every printed figure (`report::figures::fixed`).
+/// Fixed decimals: the one rounding rule of every printed figure (`report::figures::fixed`). A
+/// non-finite figure prints as itself (`NaN`, `inf`), never as the "—" that a table uses for a
+/// figure that does not apply, so a numerical fault cannot pass for "never rose".
 pub fn fmt(v: f64, decimals: usize) -> String {
-    nadir::report::figures::fixed(v, decimals)
+    if v.is_finite() {
+        nadir::report::figures::fixed(v, decimals)
+    } else {
+        v.to_string()
+    }
 }
