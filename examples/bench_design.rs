@@ -1,4 +1,5 @@
-//! Benchmark of `nadir design` (not a timed test): wall time, layouts sized, replays, assignment
+//! Benchmark of `nadir design` (not a timed test): wall time, CPU time (user and system, every
+//! thread: unlike the wall time it does not grow when other work shares the machine), layouts sized, replays, assignment
 //! solves and the most branch-and-bound nodes any one took (marked `!` when a solve exhausted its
 //! node budget), total shed, shed against the lower bound, and objective against the plain baseline, on the demo plant and
 //! on a family of generated plants (examples/support/synthetic.rs).
@@ -41,13 +42,14 @@ const CHILD: usize = 4;
 
 fn header() -> String {
     format!(
-        "{:<28} {:>5} {:>5} {:>4} {:>6} {:>8} {:>8} {:>8} {:>6} {:>6} {:>9} {:>9} {:>7} {:>10} {:>10} {:>7}",
+        "{:<28} {:>5} {:>5} {:>4} {:>6} {:>8} {:>8} {:>8} {:>8} {:>6} {:>6} {:>9} {:>9} {:>7} {:>10} {:>10} {:>7}",
         "instance",
         "loads",
         "cases",
         "ops",
         "rows",
         "wall s",
+        "cpu s",
         "layouts",
         "replays",
         "solves",
@@ -85,6 +87,7 @@ fn main() {
         return;
     }
     println!("{}", header());
+    println!("(load average at the start: {})", load_average());
     if only.is_none() && !large {
         let plant = nadir::input::load_plant("examples/biorefinery/plant.yaml".as_ref())
             .expect("demo plant");
@@ -180,6 +183,7 @@ fn in_child(n: usize, budget: u64) {
 
 fn run(name: &str, plant: &Plant, cases: &CaseSet) {
     let t = Instant::now();
+    let cpu_before = cpu_seconds();
     let verbose = std::env::args().any(|a| a == "--verbose");
     let progress = move |what: &str| {
         if verbose {
@@ -188,14 +192,48 @@ fn run(name: &str, plant: &Plant, cases: &CaseSet) {
     };
     let result = design::design(plant, cases, None, &progress);
     let wall = t.elapsed().as_secs_f64();
+    let cpu = match (cpu_before, cpu_seconds()) {
+        (Some(a), Some(b)) => format!("{:.1}", b - a),
+        _ => "-".into(),
+    };
     let rows = nadir::verify::matrix::pairs(cases).len();
     match result {
-        Ok(p) => print_row(name, plant, cases, rows, wall, &p),
+        Ok(p) => print_row(name, plant, cases, rows, wall, &cpu, &p),
         Err(e) => println!("{name:<28} failed after {wall:.1} s: {e:?}"),
     }
 }
 
-fn print_row(name: &str, plant: &Plant, cases: &CaseSet, rows: usize, wall: f64, p: &Proposal) {
+/// CPU seconds (user and system, every thread) this process has used so far, from
+/// `/proc/self/stat` (fields 14 and 15, in Linux's clock ticks of 1/100 s); `None` where that file
+/// is not there. Unlike the wall time, it does not grow when other work shares the machine.
+fn cpu_seconds() -> Option<f64> {
+    let stat = std::fs::read_to_string("/proc/self/stat").ok()?;
+    // The command name (field 2) is in parentheses and may hold spaces: count from after it.
+    let after = &stat[stat.rfind(')')? + 1..];
+    let fields: Vec<&str> = after.split_whitespace().collect();
+    let ticks = |i: usize| fields.get(i)?.parse::<f64>().ok();
+    // Field 14 is the 12th after the name (field 3 is the first).
+    Some((ticks(11)? + ticks(12)?) / 100.0)
+}
+
+/// The machine's load average over the last minute, as `/proc/loadavg` gives it.
+fn load_average() -> String {
+    std::fs::read_to_string("/proc/loadavg")
+        .ok()
+        .and_then(|s| s.split_whitespace().next().map(str::to_string))
+        .unwrap_or_else(|| "-".into())
+}
+
+#[allow(clippy::too_many_arguments)]
+fn print_row(
+    name: &str,
+    plant: &Plant,
+    cases: &CaseSet,
+    rows: usize,
+    wall: f64,
+    cpu: &str,
+    p: &Proposal,
+) {
     let shed: f64 = p.rows.iter().map(|r| r.weight * r.shed_mw).sum();
     let bound: f64 = p.rows.iter().map(|r| r.weight * r.bound_mw).sum();
     let (base, vs) = match &p.baseline {
@@ -206,13 +244,14 @@ fn print_row(name: &str, plant: &Plant, cases: &CaseSet, rows: usize, wall: f64,
         None => ("none".into(), "-".into()),
     };
     println!(
-        "{:<28} {:>5} {:>5} {:>4} {:>6} {:>8.1} {:>8} {:>8} {:>6} {:>6} {:>9.2} {:>9.2} {:>7} {:>10.2} {:>10} {:>7}",
+        "{:<28} {:>5} {:>5} {:>4} {:>6} {:>8.1} {:>8} {:>8} {:>8} {:>6} {:>6} {:>9.2} {:>9.2} {:>7} {:>10.2} {:>10} {:>7}",
         name,
         plant.loads.len(),
         cases.cases.len(),
         plant.operating_points.len(),
         rows,
         wall,
+        cpu,
         p.layouts_sized,
         p.replays,
         p.solver.solves,
