@@ -43,6 +43,9 @@ pub struct Samples<'a> {
     /// Number of grid points.
     pub len: usize,
     cache: Vec<Vec<f64>>,
+    /// Per section, for the window they were computed with: each block's bound (see
+    /// [`Samples::block_bounds`]).
+    bounds: Vec<Option<(f64, Vec<f64>)>>,
 }
 
 impl Recorder {
@@ -197,6 +200,7 @@ impl Recorder {
             rec: self,
             len,
             cache: vec![Vec::new(); self.n_sections],
+            bounds: vec![None; self.n_sections],
         }
     }
 
@@ -226,23 +230,89 @@ impl Samples<'_> {
         v
     }
 
+    /// Grid point `i`'s window start `t − W` as (grid point at or before it, fraction to the
+    /// next one), `w = W / dt`.
+    fn back_index(i: usize, w: f64) -> (usize, f64) {
+        let p = (i as f64 - w).max(0.0);
+        let lo = p.floor() as usize;
+        (lo, p - lo as f64)
+    }
+
+    /// For section `s` and window `window`, one bound per block of [`BLOCK`] grid points (block
+    /// `b` holds the points `b·BLOCK …`): the range of the knot values that cover the block's
+    /// windows, from its first point's window start to its last point, in Hz. Between two
+    /// knots the frequency is monotone, so every |f(t) − f(t − W)| of the block, interpolated
+    /// window start included, is at most this range. One forward pass over the knots with a
+    /// sliding maximum and minimum (the covering knots only move forward from block to block).
+    fn block_bounds(&mut self, s: usize, window: f64) -> &[f64] {
+        if !matches!(&self.bounds[s], Some((w, _)) if *w == window) {
+            let dt = self.rec.sample_interval_s;
+            let w = window / dt;
+            let knots = &self.rec.path.knots[s];
+            let n_blocks = self.len.div_ceil(BLOCK);
+            let mut out = Vec::with_capacity(n_blocks);
+            let mut maxq: VecDeque<usize> = VecDeque::new();
+            let mut minq: VecDeque<usize> = VecDeque::new();
+            let (mut pushed, mut j_lo, mut j_hi) = (0usize, 0usize, 0usize);
+            for b in 0..n_blocks {
+                if knots.is_empty() {
+                    out.push(f64::INFINITY);
+                    continue;
+                }
+                let first = b * BLOCK;
+                let last = (first + BLOCK).min(self.len) - 1;
+                let t_lo = self.time(Self::back_index(first, w).0);
+                let t_hi = self.time(last);
+                // Knots covering [t_lo, t_hi]: the last one at or before t_lo up to the first one
+                // at or after t_hi (clamped to the ends of the list).
+                while j_lo + 1 < knots.len() && knots[j_lo + 1].0 <= t_lo {
+                    j_lo += 1;
+                }
+                while j_hi < knots.len() && knots[j_hi].0 < t_hi {
+                    j_hi += 1;
+                }
+                let j_hi = j_hi.min(knots.len() - 1);
+                while pushed <= j_hi {
+                    let v = knots[pushed].1;
+                    while maxq.back().is_some_and(|&q| knots[q].1 <= v) {
+                        maxq.pop_back();
+                    }
+                    maxq.push_back(pushed);
+                    while minq.back().is_some_and(|&q| knots[q].1 >= v) {
+                        minq.pop_back();
+                    }
+                    minq.push_back(pushed);
+                    pushed += 1;
+                }
+                while maxq.front().is_some_and(|&f| f < j_lo) {
+                    maxq.pop_front();
+                }
+                while minq.front().is_some_and(|&f| f < j_lo) {
+                    minq.pop_front();
+                }
+                out.push(match (maxq.front(), minq.front()) {
+                    // A NaN knot bounds nothing: the block is evaluated.
+                    (Some(&a), Some(&b)) if (knots[a].1 - knots[b].1).is_finite() => {
+                        knots[a].1 - knots[b].1
+                    }
+                    _ => f64::INFINITY,
+                });
+            }
+            self.bounds[s] = Some((window, out));
+        }
+        &self.bounds[s].as_ref().expect("computed above").1
+    }
+
     /// Max over grid points `t` with `W ≤ t`, `from < t ≤ to` of |f(t) − f(t − W)|/W on section
     /// `s`, `f(t − W)` interpolated linearly between grid samples.
+    ///
+    /// Only the grid points that can matter are evaluated: the block whose bound
+    /// ([`Samples::block_bounds`]) is the largest first, then, in time order, every block whose
+    /// bound divided by W exceeds the largest value found so far. A block passed over cannot
+    /// hold a larger value, so the result is the maximum over every grid point.
     pub fn windowed_rocof(&mut self, s: usize, window: f64, from: f64, to: f64) -> f64 {
         let dt = self.rec.sample_interval_s;
         let w = window / dt;
-        let back_index = |i: usize| {
-            let p = (i as f64 - w).max(0.0);
-            let lo = p.floor() as usize;
-            (lo, p - lo as f64)
-        };
-        let included = |t: f64| !(t < window - 1e-12 || t <= from || t > to + 1e-12);
-        let knots = &self.rec.path.knots[s];
-        let mut best: f64 = 0.0;
-        // Sliding max/min of knot values over knot index windows whose ends only move forward.
-        let mut maxq: VecDeque<usize> = VecDeque::new();
-        let mut minq: VecDeque<usize> = VecDeque::new();
-        let mut pushed = 0;
         // Grid points that count: the first one past `from` and not before `window`, up to `to`.
         // Both found from an estimate corrected on the same tests (the lower bounds hold from
         // some grid point on, the upper one up to some point), not by a scan of the grid.
@@ -274,60 +344,38 @@ impl Samples<'_> {
         while upper > 0 && !below_upper(upper - 1) {
             upper -= 1;
         }
-        let (i_min, i_end) = if lower < upper {
-            (lower, upper)
-        } else {
-            (self.len, self.len)
-        };
-        debug_assert!((i_min..i_end).all(|i| included(self.time(i))));
-        let mut block_start = i_min;
-        while block_start < i_end {
-            let block_end = (block_start + BLOCK).min(i_end);
-            let (first, last) = (block_start, block_end - 1);
-            let t_lo = self.time(back_index(first).0);
-            let t_hi = self.time(last);
-            let skip = if knots.is_empty() {
-                false
-            } else {
-                // Knots covering [t_lo, t_hi]: the last one at or before t_lo up to the first one
-                // at or after t_hi (clamped to the ends of the list).
-                let j_lo = knots.partition_point(|k| k.0 <= t_lo).saturating_sub(1);
-                let j_hi = knots.partition_point(|k| k.0 < t_hi).min(knots.len() - 1);
-                while pushed <= j_hi {
-                    let v = knots[pushed].1;
-                    while maxq.back().is_some_and(|&b| knots[b].1 <= v) {
-                        maxq.pop_back();
-                    }
-                    maxq.push_back(pushed);
-                    while minq.back().is_some_and(|&b| knots[b].1 >= v) {
-                        minq.pop_back();
-                    }
-                    minq.push_back(pushed);
-                    pushed += 1;
-                }
-                while maxq.front().is_some_and(|&f| f < j_lo) {
-                    maxq.pop_front();
-                }
-                while minq.front().is_some_and(|&f| f < j_lo) {
-                    minq.pop_front();
-                }
-                match (maxq.front(), minq.front()) {
-                    (Some(&a), Some(&b)) => (knots[a].1 - knots[b].1) / window <= best,
-                    _ => false,
-                }
-            };
-            if !skip {
-                for i in first..=last {
-                    let (lo, frac) = back_index(i);
-                    let back = if lo + 1 < self.len && frac != 0.0 {
-                        self.hz(s, lo) * (1.0 - frac) + self.hz(s, lo + 1) * frac
-                    } else {
-                        self.hz(s, lo)
-                    };
-                    best = best.max(((self.hz(s, i) - back) / window).abs());
-                }
+        if lower >= upper {
+            return 0.0;
+        }
+        let (i_min, i_end) = (lower, upper);
+        debug_assert!((i_min..i_end).all(|i| {
+            let t = self.time(i);
+            !(t < window - 1e-12 || t <= from || t > to + 1e-12)
+        }));
+        let (b_first, b_last) = (i_min / BLOCK, (i_end - 1) / BLOCK);
+        let bounds = self.block_bounds(s, window);
+        let seed = (b_first..=b_last)
+            .max_by(|&a, &b| bounds[a].total_cmp(&bounds[b]).then(b.cmp(&a)))
+            .expect("at least one block");
+        let mut best: f64 = 0.0;
+        let evaluate = |this: &mut Self, b: usize, best: &mut f64| {
+            let first = (b * BLOCK).max(i_min);
+            let last = ((b + 1) * BLOCK).min(i_end) - 1;
+            for i in first..=last {
+                let (lo, frac) = Self::back_index(i, w);
+                let back = if lo + 1 < this.len && frac != 0.0 {
+                    this.hz(s, lo) * (1.0 - frac) + this.hz(s, lo + 1) * frac
+                } else {
+                    this.hz(s, lo)
+                };
+                *best = best.max(((this.hz(s, i) - back) / window).abs());
             }
-            block_start = block_end;
+        };
+        for b in std::iter::once(seed).chain(b_first..=b_last) {
+            let bound = self.bounds[s].as_ref().expect("computed above").1[b];
+            if !(bound / window <= best) {
+                evaluate(self, b, &mut best);
+            }
         }
         best
     }

@@ -182,10 +182,28 @@ impl Trajectory {
     /// with the grid points `first..=last` inside the interval (each grid point in exactly one:
     /// the first interval whose end it does not pass) and the knot values at its ends.
     fn intervals(&self, section: usize) -> impl Iterator<Item = (usize, usize, f64, f64)> + '_ {
+        self.intervals_from(section, 0)
+    }
+
+    /// [`Trajectory::intervals`] from the first interval holding a grid point at or after `k`
+    /// on (the intervals wholly before it are passed over by a search of the knots, not walked).
+    fn intervals_from(
+        &self,
+        section: usize,
+        k: usize,
+    ) -> impl Iterator<Item = (usize, usize, f64, f64)> + '_ {
         let knots = &self.path.knots[section];
-        let mut next = 0usize;
+        // An interval holds a grid point at or after `k` when its end knot is not before it.
+        let t_k = self.grid_time(k);
+        let j0 = knots.partition_point(|kn| kn.0 < t_k);
+        // Before the pair that ends at knot `j0`, every grid point up to knot `j0 − 1` is taken.
+        let (skip, mut next) = if j0 >= 2 {
+            (j0 - 1, self.grid_count_upto(knots[j0 - 1].0))
+        } else {
+            (0, 0)
+        };
         let tail = knots.last().map(|k| (k.0, k.1));
-        let pairs = knots.windows(2).map(|w| (w[1].0, w[0].1, w[1].1));
+        let pairs = knots.windows(2).skip(skip).map(|w| (w[1].0, w[0].1, w[1].1));
         // After the last knot the frequency is held (the run ended or the island was frozen).
         let held = tail.map(|(_, v)| (f64::INFINITY, v, v));
         pairs.chain(held).filter_map(move |(t_b, va, vb)| {
@@ -226,7 +244,7 @@ impl Trajectory {
             });
         };
         for s in 0..self.path.knots.len() {
-            for (first, last, _, _) in self.intervals(s) {
+            for (first, last, _, _) in self.intervals_from(s, k_from) {
                 let first = first.max(k_from);
                 if first > last {
                     continue;
