@@ -16,10 +16,10 @@
 use super::integrate::Segment;
 use super::rhs::speed_index;
 use super::trajectory::{Kept, Recorded, Trajectory};
-use std::collections::VecDeque;
-
-/// Grid points are tested for skipping in blocks of this many.
+/// Grid points are tested for skipping in blocks of this many, and blocks in groups of
+/// `GROUP` first (a group passed over is not looked at block by block).
 const BLOCK: usize = 10;
+const GROUP: usize = 10;
 
 pub struct Recorder {
     pub nominal_hz: f64,
@@ -238,78 +238,57 @@ impl Samples<'_> {
         (lo, p - lo as f64)
     }
 
-    /// For section `s` and window `window`, one bound per block of [`BLOCK`] grid points (block
-    /// `b` holds the points `b·BLOCK …`): the range of the knot values that cover the block's
-    /// windows, from its first point's window start to its last point, in Hz. Between two
-    /// knots the frequency is monotone, so every |f(t) − f(t − W)| of the block, interpolated
-    /// window start included, is at most this range. One forward pass over the knots with a
-    /// sliding maximum and minimum (the covering knots only move forward from block to block).
-    fn block_bounds(&mut self, s: usize, window: f64) -> &[f64] {
+    /// The range of section `s`'s knot values that cover the windows of grid points
+    /// `first..=last`, from the first point's window start to the last point, in Hz. Between two
+    /// knots the frequency is monotone, so every |f(t) − f(t − W)| of those points, interpolated
+    /// window start included, is at most this range. Infinite when a knot is not a number or
+    /// there are none (nothing is bounded then).
+    fn window_range(&self, s: usize, w: f64, first: usize, last: usize) -> f64 {
+        let knots = &self.rec.path.knots[s];
+        if knots.is_empty() {
+            return f64::INFINITY;
+        }
+        let t_lo = self.time(Self::back_index(first, w).0);
+        let t_hi = self.time(last);
+        // Knots covering [t_lo, t_hi]: the last one at or before t_lo up to the first one at or
+        // after t_hi (clamped to the ends of the list).
+        let j_lo = knots.partition_point(|k| k.0 <= t_lo).saturating_sub(1);
+        let j_hi = knots.partition_point(|k| k.0 < t_hi).min(knots.len() - 1);
+        let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
+        for k in &knots[j_lo..=j_hi.max(j_lo)] {
+            lo = lo.min(k.1);
+            hi = hi.max(k.1);
+        }
+        let range = hi - lo;
+        if knots[j_lo..=j_hi.max(j_lo)].iter().any(|k| k.1.is_nan()) || !range.is_finite() {
+            f64::INFINITY
+        } else {
+            range
+        }
+    }
+
+    /// Section `s`'s group bounds for window `window` (group `g` holds the grid points
+    /// `g·GROUP·BLOCK …`; see [`Samples::window_range`]), computed once per section.
+    fn group_bounds(&mut self, s: usize, window: f64) -> Vec<f64> {
         if !matches!(&self.bounds[s], Some((w, _)) if *w == window) {
-            let dt = self.rec.sample_interval_s;
-            let w = window / dt;
-            let knots = &self.rec.path.knots[s];
-            let n_blocks = self.len.div_ceil(BLOCK);
-            let mut out = Vec::with_capacity(n_blocks);
-            let mut maxq: VecDeque<usize> = VecDeque::new();
-            let mut minq: VecDeque<usize> = VecDeque::new();
-            let (mut pushed, mut j_lo, mut j_hi) = (0usize, 0usize, 0usize);
-            for b in 0..n_blocks {
-                if knots.is_empty() {
-                    out.push(f64::INFINITY);
-                    continue;
-                }
-                let first = b * BLOCK;
-                let last = (first + BLOCK).min(self.len) - 1;
-                let t_lo = self.time(Self::back_index(first, w).0);
-                let t_hi = self.time(last);
-                // Knots covering [t_lo, t_hi]: the last one at or before t_lo up to the first one
-                // at or after t_hi (clamped to the ends of the list).
-                while j_lo + 1 < knots.len() && knots[j_lo + 1].0 <= t_lo {
-                    j_lo += 1;
-                }
-                while j_hi < knots.len() && knots[j_hi].0 < t_hi {
-                    j_hi += 1;
-                }
-                let j_hi = j_hi.min(knots.len() - 1);
-                while pushed <= j_hi {
-                    let v = knots[pushed].1;
-                    while maxq.back().is_some_and(|&q| knots[q].1 <= v) {
-                        maxq.pop_back();
-                    }
-                    maxq.push_back(pushed);
-                    while minq.back().is_some_and(|&q| knots[q].1 >= v) {
-                        minq.pop_back();
-                    }
-                    minq.push_back(pushed);
-                    pushed += 1;
-                }
-                while maxq.front().is_some_and(|&f| f < j_lo) {
-                    maxq.pop_front();
-                }
-                while minq.front().is_some_and(|&f| f < j_lo) {
-                    minq.pop_front();
-                }
-                out.push(match (maxq.front(), minq.front()) {
-                    // A NaN knot bounds nothing: the block is evaluated.
-                    (Some(&a), Some(&b)) if (knots[a].1 - knots[b].1).is_finite() => {
-                        knots[a].1 - knots[b].1
-                    }
-                    _ => f64::INFINITY,
-                });
-            }
+            let w = window / self.rec.sample_interval_s;
+            let span = GROUP * BLOCK;
+            let out = (0..self.len.div_ceil(span))
+                .map(|g| self.window_range(s, w, g * span, ((g + 1) * span).min(self.len) - 1))
+                .collect();
             self.bounds[s] = Some((window, out));
         }
-        &self.bounds[s].as_ref().expect("computed above").1
+        self.bounds[s].as_ref().expect("computed above").1.clone()
     }
 
     /// Max over grid points `t` with `W ≤ t`, `from < t ≤ to` of |f(t) − f(t − W)|/W on section
     /// `s`, `f(t − W)` interpolated linearly between grid samples.
     ///
-    /// Only the grid points that can matter are evaluated: the block whose bound
-    /// ([`Samples::block_bounds`]) is the largest first, then, in time order, every block whose
-    /// bound divided by W exceeds the largest value found so far. A block passed over cannot
-    /// hold a larger value, so the result is the maximum over every grid point.
+    /// Only the grid points that can matter are evaluated. Groups of blocks are visited with the
+    /// group whose bound ([`Samples::window_range`]) is the largest first, then in time order;
+    /// inside a group, blocks the same way; a group or block whose bound divided by W does not
+    /// exceed the largest value found so far is passed over. It cannot hold a larger value, so
+    /// the result is the maximum over every grid point.
     pub fn windowed_rocof(&mut self, s: usize, window: f64, from: f64, to: f64) -> f64 {
         let dt = self.rec.sample_interval_s;
         let w = window / dt;
@@ -352,33 +331,56 @@ impl Samples<'_> {
             let t = self.time(i);
             !(t < window - 1e-12 || t <= from || t > to + 1e-12)
         }));
-        let (b_first, b_last) = (i_min / BLOCK, (i_end - 1) / BLOCK);
-        let bounds = self.block_bounds(s, window);
-        let seed = (b_first..=b_last)
-            .max_by(|&a, &b| bounds[a].total_cmp(&bounds[b]).then(b.cmp(&a)))
-            .expect("at least one block");
+        let span = GROUP * BLOCK;
+        let (g_first, g_last) = (i_min / span, (i_end - 1) / span);
+        let groups = self.group_bounds(s, window);
+        let seed = largest_first(g_first..=g_last, |g| groups[g]);
         let mut best: f64 = 0.0;
-        let evaluate = |this: &mut Self, b: usize, best: &mut f64| {
-            let first = (b * BLOCK).max(i_min);
-            let last = ((b + 1) * BLOCK).min(i_end) - 1;
-            for i in first..=last {
-                let (lo, frac) = Self::back_index(i, w);
-                let back = if lo + 1 < this.len && frac != 0.0 {
-                    this.hz(s, lo) * (1.0 - frac) + this.hz(s, lo + 1) * frac
-                } else {
-                    this.hz(s, lo)
-                };
-                *best = best.max(((this.hz(s, i) - back) / window).abs());
+        for g in seed {
+            if groups[g] / window <= best {
+                continue;
             }
-        };
-        for b in std::iter::once(seed).chain(b_first..=b_last) {
-            let bound = self.bounds[s].as_ref().expect("computed above").1[b];
-            if !(bound / window <= best) {
-                evaluate(self, b, &mut best);
+            let b_first = (g * GROUP).max(i_min / BLOCK);
+            let b_last = ((g + 1) * GROUP - 1).min((i_end - 1) / BLOCK);
+            let blocks: Vec<f64> = (b_first..=b_last)
+                .map(|b| {
+                    let first = (b * BLOCK).max(i_min);
+                    let last = ((b + 1) * BLOCK).min(i_end) - 1;
+                    self.window_range(s, w, first, last)
+                })
+                .collect();
+            for b in largest_first(b_first..=b_last, |b| blocks[b - b_first]) {
+                if blocks[b - b_first] / window <= best {
+                    continue;
+                }
+                let first = (b * BLOCK).max(i_min);
+                let last = ((b + 1) * BLOCK).min(i_end) - 1;
+                for i in first..=last {
+                    let (lo, frac) = Self::back_index(i, w);
+                    let back = if lo + 1 < self.len && frac != 0.0 {
+                        self.hz(s, lo) * (1.0 - frac) + self.hz(s, lo + 1) * frac
+                    } else {
+                        self.hz(s, lo)
+                    };
+                    best = best.max(((self.hz(s, i) - back) / window).abs());
+                }
             }
         }
         best
     }
+}
+
+/// The indices of `range`, the one with the largest `bound` first (the earliest of equals), then
+/// the others in order.
+fn largest_first(
+    range: std::ops::RangeInclusive<usize>,
+    bound: impl Fn(usize) -> f64,
+) -> impl Iterator<Item = usize> {
+    let top = range
+        .clone()
+        .max_by(|&a, &b| bound(a).total_cmp(&bound(b)).then(b.cmp(&a)));
+    top.into_iter()
+        .chain(range.filter(move |&i| Some(i) != top))
 }
 
 /// The extremum of component `i` inside the step (a, b), whose end values and slopes are given:

@@ -203,7 +203,10 @@ impl Trajectory {
             (0, 0)
         };
         let tail = knots.last().map(|k| (k.0, k.1));
-        let pairs = knots.windows(2).skip(skip).map(|w| (w[1].0, w[0].1, w[1].1));
+        let pairs = knots
+            .windows(2)
+            .skip(skip)
+            .map(|w| (w[1].0, w[0].1, w[1].1));
         // After the last knot the frequency is held (the run ended or the island was frozen).
         let held = tail.map(|(_, v)| (f64::INFINITY, v, v));
         pairs.chain(held).filter_map(move |(t_b, va, vb)| {
