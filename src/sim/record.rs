@@ -139,6 +139,26 @@ impl Recorder {
             if frozen[s] {
                 continue;
             }
+            // The blocks recorded in full since the last check, bounded together first: most
+            // segments end far from the limit and are passed over in one look at their knots.
+            let b0 = next_block[s];
+            let n_final = ((t_stop / dt).floor().max(0.0) as usize).saturating_add(1);
+            let mut b_end = n_final / BLOCK;
+            while b_end > b0 && time(b_end * BLOCK - 1) > t_stop {
+                b_end -= 1;
+            }
+            while time((b_end + 1) * BLOCK - 1) <= t_stop {
+                b_end += 1;
+            }
+            if b_end <= b0 {
+                continue;
+            }
+            let t_lo = time(back_index(b0 * BLOCK, w).0);
+            let t_hi = time(b_end * BLOCK - 1);
+            if knot_range(&self.path.knots[s], t_lo, t_hi) / window <= limit {
+                next_block[s] = b_end;
+                continue;
+            }
             loop {
                 let b = next_block[s];
                 let (first, last) = (b * BLOCK, b * BLOCK + BLOCK - 1);
