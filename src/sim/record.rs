@@ -326,11 +326,7 @@ impl Recorder {
 
     /// The sample grid up to `t_end` (points `k·dt` with `k·dt ≤ t_end`).
     pub fn samples(&self, t_end: f64) -> Samples<'_> {
-        let dt = self.sample_interval_s;
-        let mut len = 1;
-        while (len as f64) * dt <= t_end + 1e-12 {
-            len += 1;
-        }
+        let len = super::trajectory::grid_len(self.sample_interval_s, t_end);
         Samples {
             rec: self,
             len,

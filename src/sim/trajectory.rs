@@ -109,13 +109,27 @@ impl PartialEq for Trajectory {
     }
 }
 
+/// The number of grid points `k·dt` with `k·dt ≤ t_end` (`1e-12` of slack), at least one: found
+/// from the estimate `t_end / dt` and corrected on the same test (which holds up to some `k` and
+/// not after it), not by counting up from zero.
+pub(super) fn grid_len(dt: f64, t_end: f64) -> usize {
+    let end = t_end + 1e-12;
+    if !(end >= dt) {
+        return 1;
+    }
+    let mut len = ((end / dt).floor() as usize).saturating_add(1).max(1);
+    while len > 1 && ((len - 1) as f64) * dt > end {
+        len -= 1;
+    }
+    while (len as f64) * dt <= end {
+        len += 1;
+    }
+    len
+}
+
 impl Trajectory {
     pub(super) fn new(path: Recorded, t_end: f64) -> Trajectory {
-        let dt = path.sample_interval_s;
-        let mut len = 1;
-        while (len as f64) * dt <= t_end + 1e-12 {
-            len += 1;
-        }
+        let len = grid_len(path.sample_interval_s, t_end);
         Trajectory {
             path: Arc::new(path),
             len,
