@@ -12,7 +12,7 @@
 use nadir::input::{parse_cases, parse_plant, parse_scheme};
 use nadir::model::{Case, Plant, Scheme};
 use nadir::sim::{simulate, FailLimits, SimConfig, StopReason};
-use nadir::verify::margins::{grow_disturbance, has_scalable_event, weaken_model};
+use nadir::verify::margins::{grow_disturbance, has_scalable_event, search, weaken_model, Margin};
 use nadir::verify::matrix::{pairs, passes, sim_config_for};
 
 fn read(path: &str) -> String {
@@ -37,8 +37,12 @@ fn probe(plant: &Plant, case: &Case, base: &SimConfig) -> SimConfig {
 struct Tally {
     probes: usize,
     hold: usize,
+    /// Holding probes that went below the recovery level and came back in time.
+    dipped_and_held: usize,
     stopped_rocof: usize,
     stopped_recover: usize,
+    /// Probes at a margin found and one bisection step above it.
+    marginal: usize,
 }
 
 fn check(plant: &Plant, case: &Case, op: usize, scheme: &Scheme, tally: &mut Tally) {
@@ -55,6 +59,7 @@ fn check(plant: &Plant, case: &Case, op: usize, scheme: &Scheme, tally: &mut Tal
     );
     tally.probes += 1;
     tally.hold += usize::from(verdict);
+    tally.dipped_and_held += usize::from(verdict && whole.went_below_recover_level);
     match stopped.stop {
         StopReason::CertainFailure { criterion, at_s } => {
             assert!(
@@ -111,11 +116,30 @@ fn a_probe_stopped_at_a_certain_failure_is_judged_as_the_full_run() {
                 let weaker = weaken_model(&plant, 50.0 * j as f64 / 16.0);
                 check(&weaker, case, op, &scheme, &mut tally);
             }
+            // The most marginal probes: the margin found (the last point that holds) and the
+            // point one bisection step above it (1/128 of the range).
+            let cfg = sim_config_for(&plant, &SimConfig::default());
+            let m = search(&plant, case, op, &scheme, &cfg);
+            if let Margin::Found(k) = m.disturbance_factor {
+                for k in [k, k + 1.0 / 128.0] {
+                    let grown = grow_disturbance(&plant, case, op, k);
+                    check(&plant, &grown, op, &scheme, &mut tally);
+                    tally.marginal += 1;
+                }
+            }
+            if let Margin::Found(pct) = m.model_error_pct {
+                for pct in [pct, pct + 50.0 / 64.0] {
+                    check(&weaken_model(&plant, pct), case, op, &scheme, &mut tally);
+                    tally.marginal += 1;
+                }
+            }
         }
     }
     eprintln!("{tally:?}");
     // The law is only tested where probes both hold and stop early on each criterion.
     assert!(tally.hold > 100, "{tally:?}");
+    assert!(tally.dipped_and_held > 50, "{tally:?}");
+    assert!(tally.marginal > 20, "{tally:?}");
     assert!(tally.stopped_rocof > 50, "{tally:?}");
     assert!(tally.stopped_recover > 10, "{tally:?}");
 }
