@@ -446,13 +446,12 @@ impl Samples<'_> {
             }
             let b_first = (g * GROUP).max(i_min / BLOCK);
             let b_last = ((g + 1) * GROUP - 1).min((i_end - 1) / BLOCK);
-            let blocks: Vec<f64> = (b_first..=b_last)
-                .map(|b| {
-                    let first = (b * BLOCK).max(i_min);
-                    let last = ((b + 1) * BLOCK).min(i_end) - 1;
-                    self.window_range(s, w, first, last)
-                })
-                .collect();
+            let mut blocks = [0.0; GROUP];
+            for b in b_first..=b_last {
+                let first = (b * BLOCK).max(i_min);
+                let last = ((b + 1) * BLOCK).min(i_end) - 1;
+                blocks[b - b_first] = self.window_range(s, w, first, last);
+            }
             for b in largest_first(b_first..=b_last, |b| blocks[b - b_first]) {
                 if blocks[b - b_first] / window <= best {
                     continue;
