@@ -125,22 +125,23 @@ pub fn dense_value(theta: f64, y0: f64, y1: f64, c2: f64, c3: f64, c4: f64) -> f
 /// Work space of the stepper for states of `n` entries; reusable across integrations.
 pub struct Stepper {
     n: usize,
-    /// k1…k7, then y, y_next, the stage argument, and the three dense coefficients.
-    buf: Vec<f64>,
+    /// Stage derivatives k1…k7.
+    k: [Vec<f64>; 7],
+    y: Vec<f64>,
+    y_next: Vec<f64>,
+    /// Coefficients 2–4 of the last accepted step's continuous extension.
+    dense: [Vec<f64>; 3],
 }
-
-const K: usize = 0;
-const Y: usize = 7;
-const YN: usize = 8;
-const ARG: usize = 9;
-const D2: usize = 10;
-const SLOTS: usize = 13;
 
 impl Stepper {
     pub fn new(n: usize) -> Self {
+        let v = || vec![0.0; n];
         Stepper {
             n,
-            buf: vec![0.0; SLOTS * n],
+            k: [v(), v(), v(), v(), v(), v(), v()],
+            y: v(),
+            y_next: v(),
+            dense: [v(), v(), v()],
         }
     }
 
@@ -163,8 +164,8 @@ impl Stepper {
         if t_end <= t0 || n == 0 {
             return Ok(counts);
         }
-        self.buf[Y * n..(Y + 1) * n].copy_from_slice(y0);
-        self.buf[K * n..(K + 1) * n].copy_from_slice(dy0);
+        self.y.copy_from_slice(y0);
+        self.k[0].copy_from_slice(dy0);
         let mut h = if ctl.first_step > 0.0 {
             ctl.first_step.min(ctl.h_max)
         } else {
@@ -193,25 +194,7 @@ impl Stepper {
             attempts += 1;
             self.stages(f, h);
             counts.evaluations += 6;
-            // Error estimate and its norm (stage 2's weight is zero).
-            let mut err = 0.0;
-            {
-                let b = &self.buf;
-                let k = |s: usize, i: usize| b[(K + s) * n + i];
-                for i in 0..n {
-                    let e = (k(0, i) * E[0]
-                        + k(2, i) * E[1]
-                        + k(3, i) * E[2]
-                        + k(4, i) * E[3]
-                        + k(5, i) * E[4]
-                        + k(6, i) * E[5])
-                        * h;
-                    let (yi, yni) = (b[Y * n + i], b[YN * n + i]);
-                    let sc = ctl.atol + yi.abs().max(yni.abs()) * ctl.rtol;
-                    err += (e / sc) * (e / sc);
-                }
-            }
-            err = (err / width).sqrt();
+            let err = (self.error_sum(h, ctl) / width).sqrt();
             // Hairer's PI control, as in ode_solvers' `Controller::accept`.
             let fac11 = err.powf(alpha);
             let fac = facc2.max(facc1.min(fac11 * fac_old.powf(-BETA) / SAFETY));
@@ -228,28 +211,17 @@ impl Stepper {
                 counts.accepted += 1;
                 self.dense_coefficients(h);
                 x += h;
-                let stop = {
-                    let b = &self.buf;
-                    let s = |j: usize| &b[j * n..(j + 1) * n];
-                    accepted(&Accepted {
-                        t1: x,
-                        h,
-                        y1: s(YN),
-                        k: [
-                            s(K),
-                            s(K + 1),
-                            s(K + 2),
-                            s(K + 3),
-                            s(K + 4),
-                            s(K + 5),
-                            s(K + 6),
-                        ],
-                        dense: [s(D2), s(D2 + 1), s(D2 + 2)],
-                    })
-                };
-                // First same as last: the end slope starts the next step.
-                self.buf.copy_within((K + 6) * n..(K + 7) * n, K * n);
-                self.buf.copy_within(YN * n..(YN + 1) * n, Y * n);
+                let k = &self.k;
+                let stop = accepted(&Accepted {
+                    t1: x,
+                    h,
+                    y1: &self.y_next,
+                    k: [&k[0], &k[1], &k[2], &k[3], &k[4], &k[5], &k[6]],
+                    dense: [&self.dense[0], &self.dense[1], &self.dense[2]],
+                });
+                // First same as last: the end slope and state start the next step.
+                self.k.swap(0, 6);
+                std::mem::swap(&mut self.y, &mut self.y_next);
                 if stop {
                     last = true;
                 }
@@ -269,73 +241,88 @@ impl Stepper {
         Ok(counts)
     }
 
-    /// Stages 2–7 of a step of size `h` from `Y` with `k[0]` set; stage 7's argument (the
-    /// 5th-order solution) is left in `YN`.
+    /// Stages 2–7 of a step of size `h` from `y` with `k[0]` set; stage 7's argument (the
+    /// 5th-order solution) is left in `y_next`. Each argument is summed in one pass, term by term
+    /// in the tableau's order (the rounding of ode_solvers' one-pass-per-term sums).
     fn stages(&mut self, f: &mut dyn FnMut(&[f64], &mut [f64]), h: f64) {
         let n = self.n;
-        let rows: [&[f64]; 6] = [
-            &[A21],
-            &[A31, A32],
-            &[A41, A42, A43],
-            &[A51, A52, A53, A54],
-            &[A61, A62, A63, A64, A65],
-            &[A71, 0.0, A73, A74, A75, A76],
-        ];
-        for (s, row) in rows.iter().enumerate() {
-            let (head, tail) = self.buf.split_at_mut(ARG * n);
-            let arg = &mut tail[..n];
-            let y = &head[Y * n..(Y + 1) * n];
-            arg.copy_from_slice(y);
-            for (j, &a) in row.iter().enumerate() {
-                if a == 0.0 {
-                    continue;
+        macro_rules! stage {
+            ($s:literal, $($j:literal * $a:expr),+) => {{
+                {
+                    let [k0, k1, k2, k3, k4, k5, _] = &self.k;
+                    let ks: [&[f64]; 6] = [&k0[..n], &k1[..n], &k2[..n], &k3[..n], &k4[..n], &k5[..n]];
+                    let y = &self.y[..n];
+                    let arg = &mut self.y_next[..n];
+                    for i in 0..n {
+                        let mut v = y[i];
+                        $( v += ks[$j][i] * h * $a; )+
+                        arg[i] = v;
+                    }
                 }
-                let kj = &head[(K + j) * n..(K + j + 1) * n];
-                for i in 0..n {
-                    arg[i] += kj[i] * h * a;
-                }
-            }
-            let (ks, rest) = head.split_at_mut((K + s + 1) * n);
-            let _ = ks;
-            f(arg, &mut rest[..n]);
+                f(&self.y_next, &mut self.k[$s]);
+            }};
         }
-        self.buf.copy_within(ARG * n..(ARG + 1) * n, YN * n);
+        stage!(1, 0 * A21);
+        stage!(2, 0 * A31, 1 * A32);
+        stage!(3, 0 * A41, 1 * A42, 2 * A43);
+        stage!(4, 0 * A51, 1 * A52, 2 * A53, 3 * A54);
+        stage!(5, 0 * A61, 1 * A62, 2 * A63, 3 * A64, 4 * A65);
+        stage!(6, 0 * A71, 2 * A73, 3 * A74, 4 * A75, 5 * A76);
+    }
+
+    /// Σ (errᵢ/scᵢ)² of the step just computed (stage 2's error weight is zero).
+    fn error_sum(&self, h: f64, ctl: &Control) -> f64 {
+        let n = self.n;
+        let [k0, _, k2, k3, k4, k5, k6] = &self.k;
+        let (k0, k2, k3, k4, k5, k6) = (&k0[..n], &k2[..n], &k3[..n], &k4[..n], &k5[..n], &k6[..n]);
+        let (y, yn) = (&self.y[..n], &self.y_next[..n]);
+        let mut err = 0.0;
+        for i in 0..n {
+            let e = (k0[i] * E[0]
+                + k2[i] * E[1]
+                + k3[i] * E[2]
+                + k4[i] * E[3]
+                + k5[i] * E[4]
+                + k6[i] * E[5])
+                * h;
+            let sc = ctl.atol + y[i].abs().max(yn[i].abs()) * ctl.rtol;
+            err += (e / sc) * (e / sc);
+        }
+        err
     }
 
     /// Coefficients 2–4 of the continuous extension of the step just taken.
     fn dense_coefficients(&mut self, h: f64) {
         let n = self.n;
-        let (head, tail) = self.buf.split_at_mut(D2 * n);
-        let k = |s: usize, i: usize| head[(K + s) * n + i];
+        let [k0, _, k2, k3, k4, k5, k6] = &self.k;
+        let (k0, k2, k3, k4, k5, k6) = (&k0[..n], &k2[..n], &k3[..n], &k4[..n], &k5[..n], &k6[..n]);
+        let (y, yn) = (&self.y[..n], &self.y_next[..n]);
+        let [c2, c3, c4] = &mut self.dense;
+        let (c2, c3, c4) = (&mut c2[..n], &mut c3[..n], &mut c4[..n]);
+        let d = &DENSE_D;
         for i in 0..n {
-            let ydiff = head[YN * n + i] - head[Y * n + i];
-            let bspl = k(0, i) * h - ydiff;
-            tail[i] = bspl;
-            tail[n + i] = -k(6, i) * h + ydiff - bspl;
-            tail[2 * n + i] = (k(0, i) * DENSE_D[0]
-                + k(2, i) * DENSE_D[1]
-                + k(3, i) * DENSE_D[2]
-                + k(4, i) * DENSE_D[3]
-                + k(5, i) * DENSE_D[4]
-                + k(6, i) * DENSE_D[5])
+            let ydiff = yn[i] - y[i];
+            let bspl = k0[i] * h - ydiff;
+            c2[i] = bspl;
+            c3[i] = -k6[i] * h + ydiff - bspl;
+            c4[i] = (k0[i] * d[0]
+                + k2[i] * d[1]
+                + k3[i] * d[2]
+                + k4[i] * d[3]
+                + k5[i] * d[4]
+                + k6[i] * d[5])
                 * h;
         }
     }
 
-    /// Hairer's starting step (HNW I §II.4, (4.14)) from `Y` and `k[0]`, capped at `h_max`;
+    /// Hairer's starting step (HNW I §II.4, (4.14)) from `y` and `k[0]`, capped at `h_max`;
     /// one derivative evaluation (in the stage-2 slot, overwritten by the first step).
     fn first_step(&mut self, f: &mut dyn FnMut(&[f64], &mut [f64]), ctl: &Control) -> f64 {
-        let n = self.n;
         let (mut d0, mut d1) = (0.0_f64, 0.0_f64);
-        {
-            let b = &self.buf;
-            for i in 0..n {
-                let yi = b[Y * n + i];
-                let sc = ctl.atol + yi.abs() * ctl.rtol;
-                d0 += (yi / sc) * (yi / sc);
-                let fi = b[K * n + i];
-                d1 += (fi / sc) * (fi / sc);
-            }
+        for (&yi, &fi) in self.y.iter().zip(&self.k[0]) {
+            let sc = ctl.atol + yi.abs() * ctl.rtol;
+            d0 += (yi / sc) * (yi / sc);
+            d1 += (fi / sc) * (fi / sc);
         }
         let tol = 1.0e-10;
         let mut h0 = if d0 < tol || d1 < tol {
@@ -344,22 +331,14 @@ impl Stepper {
             0.01 * (d0 / d1).sqrt()
         };
         h0 = h0.min(ctl.h_max).abs();
-        {
-            let (head, tail) = self.buf.split_at_mut(ARG * n);
-            let arg = &mut tail[..n];
-            for i in 0..n {
-                arg[i] = head[Y * n + i] + head[K * n + i] * h0;
-            }
-            f(arg, &mut head[(K + 1) * n..(K + 2) * n]);
+        for ((a, &yi), &fi) in self.y_next.iter_mut().zip(&self.y).zip(&self.k[0]) {
+            *a = yi + fi * h0;
         }
+        f(&self.y_next, &mut self.k[1]);
         let mut d2 = 0.0_f64;
-        {
-            let b = &self.buf;
-            for i in 0..n {
-                let (f0, f1, yi) = (b[K * n + i], b[(K + 1) * n + i], b[Y * n + i]);
-                let sc = ctl.atol + yi.abs() * ctl.rtol;
-                d2 += ((f1 - f0) / sc) * ((f1 - f0) / sc);
-            }
+        for ((&f0, &f1), &yi) in self.k[0].iter().zip(&self.k[1]).zip(&self.y) {
+            let sc = ctl.atol + yi.abs() * ctl.rtol;
+            d2 += ((f1 - f0) / sc) * ((f1 - f0) / sc);
         }
         d2 = d2.sqrt() / h0;
         let h1 = if d1.sqrt().max(d2.abs()) <= 1.0e-15 {

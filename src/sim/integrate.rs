@@ -318,7 +318,79 @@ pub fn integrate(
     let mut seg = obs.seg;
     seg.counts = counts;
     seg.filtered = filtered;
+    #[cfg(feature = "compare-integrators")]
+    capture::record(eq, t0, y0, &seg, opt, &ctl);
     Ok(seg)
+}
+
+/// The segments a run integrates, kept for replaying them through other integrators
+/// (examples/bench_integrators.rs; feature `compare-integrators`, not in the normal build).
+#[cfg(feature = "compare-integrators")]
+pub mod capture {
+    use super::{Control, Segment, SegmentEquations, StepOptions};
+    use std::cell::RefCell;
+
+    /// One integrated segment as the stepper was asked to take it.
+    #[derive(Debug, Clone)]
+    pub struct SegmentProblem {
+        pub eq: SegmentEquations,
+        pub t0: f64,
+        pub y0: Vec<f64>,
+        /// Where the segment ended (its end time, or where a guard or band stopped it).
+        pub t_end: f64,
+        /// The run's tolerances for an RMS norm over the `n_ode` ODE states (the other entries
+        /// of the state, the relay measurement, have zero derivative in `eq`).
+        pub rtol: f64,
+        pub atol: f64,
+        pub n_ode: usize,
+        pub h_max: f64,
+        /// The first step tried (0: estimated).
+        pub first_step: f64,
+        /// Accepted steps, rejected steps and derivative evaluations the run's stepper took.
+        pub accepted: usize,
+        pub rejected: usize,
+        pub evaluations: usize,
+    }
+
+    thread_local! {
+        static KEPT: RefCell<Option<Vec<SegmentProblem>>> = const { RefCell::new(None) };
+    }
+
+    pub(super) fn record(
+        eq: &SegmentEquations,
+        t0: f64,
+        y0: &[f64],
+        seg: &Segment,
+        opt: &StepOptions,
+        ctl: &Control,
+    ) {
+        KEPT.with(|k| {
+            if let Some(v) = k.borrow_mut().as_mut() {
+                v.push(SegmentProblem {
+                    eq: eq.clone(),
+                    t0,
+                    y0: y0.to_vec(),
+                    t_end: seg.times[seg.times.len() - 1],
+                    rtol: opt.rtol,
+                    atol: opt.atol,
+                    n_ode: y0.len() - eq.n_outside_ode(),
+                    h_max: ctl.h_max,
+                    first_step: ctl.first_step,
+                    accepted: seg.counts.accepted,
+                    rejected: seg.counts.rejected,
+                    evaluations: seg.counts.evaluations,
+                });
+            }
+        });
+    }
+
+    /// Run `f` on this thread and return the segments it integrated.
+    pub fn segments_of<R>(f: impl FnOnce() -> R) -> (R, Vec<SegmentProblem>) {
+        KEPT.with(|k| *k.borrow_mut() = Some(Vec::new()));
+        let r = f();
+        let v = KEPT.with(|k| k.borrow_mut().take()).unwrap_or_default();
+        (r, v)
+    }
 }
 
 /// The stepper's failure in the words of a run's status.
