@@ -145,6 +145,11 @@ impl Stepper {
         }
     }
 
+    /// Number of state entries this work space is for.
+    pub fn width(&self) -> usize {
+        self.n
+    }
+
     /// Integrate `f` from `t0` (state `y0`, derivative `dy0 = f(y0)`) to `t_end`, calling
     /// `accepted` after every accepted step; it returns true to stop there.
     #[allow(clippy::too_many_arguments)]

@@ -17,6 +17,7 @@
 use super::dopri::{dense_value, Accepted, Control, Counts, Failure, Stepper, DENSE_D};
 use super::rhs::{Filtered, SegmentEquations};
 use crate::relay::measurement::{self, INPUT_DEGREE};
+use std::cell::RefCell;
 
 /// A state component watched against a level.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -99,38 +100,36 @@ struct Observer<'a> {
     bands: &'a [Band],
     filtered: &'a [Filtered],
     max_kept: usize,
-    /// The state and slope at the step start and end, filtered components included.
-    prev_y: Vec<f64>,
-    prev_dy: Vec<f64>,
-    cur_y: Vec<f64>,
-    cur_dy: Vec<f64>,
     seg: Segment,
 }
 
 impl Observer<'_> {
     fn accepted(&mut self, st: &Accepted<'_>) -> bool {
+        let n = self.n;
+        let seg = &mut self.seg;
         // The step as the stored times give it (θ of `step_of`); the stepper's own `st.h` may
         // differ from it in the last bit and is the unit of the ODE states' extension only.
-        let h = st.t1 - self.seg.times[self.seg.times.len() - 1];
-        let (y, dy) = (st.y1, st.k[6]);
-        self.cur_y.copy_from_slice(y);
-        self.cur_dy.copy_from_slice(dy);
+        let h = st.t1 - seg.times[seg.times.len() - 1];
+        // The new point is stored first and its filtered components filled in place; the
+        // previous point (the step's start) is the row before it.
+        let at = seg.states.len();
+        seg.states.extend_from_slice(st.y1);
+        seg.slopes.extend_from_slice(st.k[6]);
+        let (before, y) = seg.states.split_at_mut(at);
+        let (before_d, dy) = seg.slopes.split_at_mut(at);
+        let (py, pdy) = (&before[at - n..], &before_d[at - n..]);
         for f in self.filtered {
             let i = f.input;
             let k36 = [st.k[2][i], st.k[3][i], st.k[4][i], st.k[5][i]];
-            let (pi, pd) = (self.prev_y[i], self.prev_dy[i]);
-            let b = step_polynomial(h, pi, pd, y[i], dy[i], &k36);
-            self.seg.polys.extend_from_slice(&b);
-            let (m0, r0) = (self.prev_y[f.measured], self.prev_y[f.rocof]);
-            let (m, r) = measurement::advance(&f.lags, &b, h, 1.0, m0, r0);
+            let b = step_polynomial(h, py[i], pdy[i], y[i], dy[i], &k36);
+            seg.polys.extend_from_slice(&b);
+            let (m, r) = measurement::advance(&f.lags, &b, h, 1.0, py[f.measured], py[f.rocof]);
             let dm = measurement::measured_derivative(y[i], dy[i], m, f.lags.lag_s);
-            self.cur_y[f.measured] = m;
-            self.cur_y[f.rocof] = r;
-            self.cur_dy[f.measured] = dm;
-            self.cur_dy[f.rocof] = measurement::rocof_derivative(dm, r, f.lags.window_s);
+            y[f.measured] = m;
+            y[f.rocof] = r;
+            dy[f.measured] = dm;
+            dy[f.rocof] = measurement::rocof_derivative(dm, r, f.lags.window_s);
         }
-        let (y, dy) = (&self.cur_y, &self.cur_dy);
-        let (py, pdy) = (&self.prev_y, &self.prev_dy);
         let crosses = |i: usize, level: f64| crosses_level(level, h, py[i], pdy[i], y[i], dy[i]);
         let hit = self.guards.iter().any(|g| crosses(g.index, g.level));
         let left = !hit
@@ -138,16 +137,11 @@ impl Observer<'_> {
                 .bands
                 .iter()
                 .any(|b| crosses(b.index, b.lo) || crosses(b.index, b.hi));
-        let seg = &mut self.seg;
         seg.times.push(st.t1);
         seg.steps.push(st.h);
-        seg.states.extend_from_slice(y);
-        seg.slopes.extend_from_slice(dy);
         for c in st.dense {
             seg.dense.extend_from_slice(c);
         }
-        self.prev_y.copy_from_slice(y);
-        self.prev_dy.copy_from_slice(dy);
         seg.guard_hit |= hit;
         seg.band_left |= left;
         hit || left || seg.kept_values() > self.max_kept
@@ -275,10 +269,6 @@ pub fn integrate(
         bands,
         filtered: &filtered,
         max_kept: opt.max_kept_values,
-        prev_y: y0.to_vec(),
-        prev_dy: dy0,
-        cur_y: vec![0.0; n],
-        cur_dy: vec![0.0; n],
         seg,
     };
     let h_max = opt.max_step_s.min(t_end - t0).max(1e-9);
@@ -308,13 +298,12 @@ pub fn integrate(
         max_attempts: MAX_ATTEMPTS,
     };
     let mut rhs = |y: &[f64], dy: &mut [f64]| eq.derivatives(y, dy);
-    let mut stepper = Stepper::new(n);
-    let counts = stepper
-        .integrate(&mut rhs, t0, y0, &k0, t_end, &ctl, &mut |st| {
+    let counts = with_stepper(n, |stepper| {
+        stepper.integrate(&mut rhs, t0, y0, &k0, t_end, &ctl, &mut |st| {
             obs.accepted(st)
         })
-        .map_err(in_words)?;
-    let _ = obs.n;
+    })
+    .map_err(in_words)?;
     let mut seg = obs.seg;
     seg.counts = counts;
     seg.filtered = filtered;
@@ -391,6 +380,22 @@ pub mod capture {
         let v = KEPT.with(|k| k.borrow_mut().take()).unwrap_or_default();
         (r, v)
     }
+}
+
+thread_local! {
+    /// The stepper's work space, kept for the next segment on the same thread.
+    static STEPPER: RefCell<Option<Stepper>> = const { RefCell::new(None) };
+}
+
+/// Run `f` with a stepper for `n` states, reusing this thread's work space.
+fn with_stepper<R>(n: usize, f: impl FnOnce(&mut Stepper) -> R) -> R {
+    let mut stepper = STEPPER
+        .with(|s| s.borrow_mut().take())
+        .filter(|s| s.width() == n)
+        .unwrap_or_else(|| Stepper::new(n));
+    let r = f(&mut stepper);
+    STEPPER.with(|s| *s.borrow_mut() = Some(stepper));
+    r
 }
 
 /// The stepper's failure in the words of a run's status.
