@@ -161,6 +161,14 @@ fn crosses_level(level: f64, h: f64, y0: f64, d0: f64, y1: f64, d1: f64) -> bool
     if d0 * d1 >= 0.0 {
         return false;
     }
+    // The cubic stays within its end values widened by (4/27)·h·(|d0| + |d1|) (the largest
+    // magnitude of the Hermite slope basis functions on [0, 1] is 4/27, at θ = 1/3 and 2/3);
+    // widened again for rounding, a level outside that range cannot be reached.
+    let reach = (4.0 / 27.0) * h.abs() * (d0.abs() + d1.abs()) * (1.0 + 1e-6)
+        + 1e-12 * (y0.abs() + y1.abs() + level.abs());
+    if level < y0.min(y1) - reach || level > y0.max(y1) + reach {
+        return false;
+    }
     hermite_extrema(h, y0, d0, y1, d1)
         .into_iter()
         .flatten()
