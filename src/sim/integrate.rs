@@ -510,8 +510,12 @@ impl Segment {
             return;
         }
         let (k, theta) = self.dense_step(t);
-        for (i, o) in out.iter_mut().enumerate() {
-            *o = self.dense_component(k, theta, i);
+        let n = self.n;
+        let (ya, yb) = (self.state(k - 1), self.state(k));
+        let c = &self.dense[3 * n * (k - 1)..3 * n * k];
+        let (c2, c3, c4) = (&c[..n], &c[n..2 * n], &c[2 * n..]);
+        for i in 0..n {
+            out[i] = dense_value(theta, ya[i], yb[i], c2[i], c3[i], c4[i]);
         }
         let y0 = self.state(0);
         for f in &self.filtered {
