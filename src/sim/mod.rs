@@ -5,6 +5,7 @@
 //! iteration orders). Physics lives in [`crate::dynamics`], relay logic in [`crate::relay`];
 //! this module composes them ([`rhs`]) and owns time.
 
+pub mod dopri;
 mod engine;
 pub mod event;
 pub mod integrate;

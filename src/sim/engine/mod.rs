@@ -332,6 +332,7 @@ impl<'a> Engine<'a> {
                     Some((p, h)) if *p == seq => *h,
                     _ => 0.0,
                 },
+                max_kept_values: self.cfg.max_kept_values.saturating_sub(self.kept_values),
             };
             let bands = if quiet {
                 self.bands(&watched)
