@@ -566,7 +566,8 @@ fn finite_problems(run: &Run) -> Vec<String> {
         StopReason::Collapse { at_s, .. }
         | StopReason::Overspeed { at_s, .. }
         | StopReason::Blackout { at_s, .. }
-        | StopReason::NumericalFault { at_s, .. } => chk("stop.at_s", *at_s),
+        | StopReason::NumericalFault { at_s, .. }
+        | StopReason::CertainFailure { at_s, .. } => chk("stop.at_s", *at_s),
     }
     for (k, i) in run.islands.iter().enumerate() {
         for (n, v) in [

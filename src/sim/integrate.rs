@@ -1,25 +1,23 @@
-//! The integration seam: the only file that knows ode_solvers.
+//! The integration seam: the only file that knows the stepper (`super::dopri`).
 //!
-//! One call integrates one segment (no discrete change inside) with Dopri5 and continuous output,
-//! with the step capped at `max_step_s`. After every accepted step `solout` checks each guard
-//! (a state component against a level) for a change of side at the step end, or a hidden
-//! excursion inside the step judged from the cubic Hermite interpolant of the step's end values
-//! and slopes; on a hit it stops, and [`Segment::locate`] finds the crossing by bisection on the
-//! dense output. The same test against the edges of each watched band ([`Band`]) ends a segment
-//! integrated with a relaxed step cap as soon as the state comes near a level.
+//! One call integrates one segment (no discrete change inside) with Dormand–Prince 5(4) and its
+//! continuous extension, with the step capped at `max_step_s`. After every accepted step the
+//! callback advances the relay measurement over the step from the step's own stages, then checks
+//! each guard (a state component against a level) for a change of side at the step end, or a
+//! hidden excursion inside the step judged from the cubic Hermite interpolant of the step's end
+//! values and slopes; on a hit it stops, and [`Segment::locate`] finds the crossing by bisection
+//! on the dense output. The same test against the edges of each watched band ([`Band`]) ends a
+//! segment integrated with a relaxed step cap as soon as the state comes near a level.
 //!
-//! The state is a fixed-size `SVector` of the smallest of 16, 32, 64 or 128 entries that holds
-//! it (monomorphised, so no stage allocates); entries past the plant's own are padding with zero
-//! derivative, and the tolerances are scaled by √(n/N) so that the solver's RMS error norm, and
-//! with it every step size, is the one of the unpadded system. Larger plants use a `DVector`.
+//! The segment keeps, per accepted step, the state, slope, step size and three coefficients of
+//! the continuous extension per state entry (the other two are the end states), and per filtered
+//! pair the input quartic the measurement reads.
 //! Must not: know relays, islands or events (it sees a derivative function and levels).
 
+use super::dopri::{dense_value, Accepted, Control, Counts, Failure, Stepper, DENSE_D};
 use super::rhs::{Filtered, SegmentEquations};
 use crate::relay::measurement::{self, INPUT_DEGREE};
-use ode_solvers::continuous_output_model::ContinuousOutputModel;
-use ode_solvers::dop_shared::{OutputType, System};
-use ode_solvers::{DVector, Dopri5, SVector};
-use std::cell::{Cell, RefCell};
+use std::cell::RefCell;
 
 /// A state component watched against a level.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -39,17 +37,9 @@ pub struct Band {
 /// Number of coefficients of a step's input polynomial.
 const NB: usize = INPUT_DEGREE + 1;
 
-/// Dormand–Prince 5(4) dense-output weights d1, d3…d7 (Hairer, Nørsett & Wanner, *Solving
-/// Ordinary Differential Equations I*, 2nd ed., §II.6, the continuous extension of DOPRI5;
-/// the same values ode_solvers uses).
-const DENSE_D: [f64; 6] = [
-    -12715105075.0 / 11282082432.0,
-    87487479700.0 / 32700410799.0,
-    -10690763975.0 / 1880347072.0,
-    701980252875.0 / 199316789632.0,
-    -1453857185.0 / 822651844.0,
-    69997945.0 / 29380423.0,
-];
+/// Steps (accepted or rejected) one segment may try: bounded time for any accepted input (the
+/// run's memory ceiling, `SimConfig::max_kept_values`, bounds the accepted ones first).
+const MAX_ATTEMPTS: usize = 1_000_000;
 
 /// The input polynomial of a step, `w(t0 + θh) = Σ b[k]·θ^k`, from the values and slopes at
 /// both ends and the derivatives of stages 3–6 (`k36`): DOPRI5's continuous extension
@@ -73,6 +63,9 @@ pub struct StepOptions {
     /// The first step to try (capped at `max_step_s`); 0 lets the solver estimate one
     /// (Hairer, Nørsett & Wanner, *Solving ODEs I*, §II.4, two derivative evaluations).
     pub first_step_s: f64,
+    /// The segment stops (as if at its end) once it keeps more values than this
+    /// ([`Segment::kept_values`]): the caller's memory ceiling, checked before it is exceeded.
+    pub max_kept_values: usize,
 }
 
 /// One integrated segment.
@@ -80,11 +73,15 @@ pub struct Segment {
     n: usize,
     /// Accepted step ends including the start point.
     pub times: Vec<f64>,
+    /// The size of each accepted step as the stepper took it (`times[k] − times[k−1]` up to
+    /// rounding), the unit of θ in its continuous extension.
+    steps: Vec<f64>,
     /// Flat: `n` values per point.
     states: Vec<f64>,
     /// dy/dt at each point, flat like `states`.
     slopes: Vec<f64>,
-    dense: Dense,
+    /// Per accepted step: coefficients 2–4 of the continuous extension, `3n` values.
+    dense: Vec<f64>,
     filtered: Vec<Filtered>,
     /// Per accepted step, per filtered pair: the input polynomial of the step (`NB` values).
     polys: Vec<f64>,
@@ -92,103 +89,47 @@ pub struct Segment {
     pub guard_hit: bool,
     /// The solver stopped early because a watched component left its band.
     pub band_left: bool,
+    /// Steps and derivative evaluations the segment took.
+    pub counts: Counts,
 }
 
-enum Dense {
-    S16(ContinuousOutputModel<f64, SVector<f64, 16>>),
-    S32(ContinuousOutputModel<f64, SVector<f64, 32>>),
-    S64(ContinuousOutputModel<f64, SVector<f64, 64>>),
-    S128(ContinuousOutputModel<f64, SVector<f64, 128>>),
-    Dyn(ContinuousOutputModel<f64, DVector<f64>>),
-}
-
-/// What `solout` keeps; filled while the solver owns the system.
+/// What the stepper's callback keeps after every accepted step.
 struct Observer<'a> {
     n: usize,
     guards: &'a [StateGuard],
     bands: &'a [Band],
-    prev_t: f64,
-    prev_y: Vec<f64>,
-    prev_dy: Vec<f64>,
-    /// The solver's state and slope at the step end with the filtered components filled in.
-    cur_y: Vec<f64>,
-    cur_dy: Vec<f64>,
     filtered: &'a [Filtered],
-    polys: &'a mut Vec<f64>,
-    /// The input components' derivatives at the solver's last five evaluations (a ring).
-    stage_ring: &'a RefCell<StageRing>,
-    /// The last evaluations were not the stages of the accepted step (never expected).
-    stages_unread: &'a Cell<bool>,
-    times: &'a mut Vec<f64>,
-    states: &'a mut Vec<f64>,
-    slopes: &'a mut Vec<f64>,
-    guard_hit: &'a Cell<bool>,
-    band_left: &'a Cell<bool>,
-}
-
-/// The input components' derivatives at the solver's most recent evaluations. A Dormand–Prince
-/// step evaluates its stages 2–7 in order, stage 7 at the step end, and then reports the step;
-/// so when a step is accepted the last five evaluations are its stages 3–7, which with the
-/// start slope are what the continuous extension needs.
-struct StageRing {
-    n: usize,
-    /// 5 × n values, slot `calls % 5` written last.
-    values: Vec<f64>,
-    calls: usize,
-}
-
-impl StageRing {
-    fn record(&mut self, filtered: &[Filtered], dy: &[f64]) {
-        let slot = self.calls % 5;
-        for (j, f) in filtered.iter().enumerate() {
-            self.values[slot * self.n + j] = dy[f.input];
-        }
-        self.calls += 1;
-    }
-
-    /// Stages 3, 4, 5, 6 and 7 of filtered pair `j`, oldest first.
-    fn stages(&self, j: usize) -> [f64; 5] {
-        let mut out = [0.0; 5];
-        for (i, o) in out.iter_mut().enumerate() {
-            let slot = (self.calls + i) % 5;
-            *o = self.values[slot * self.n + j];
-        }
-        out
-    }
-}
-
-struct Plant<'a> {
-    eq: &'a SegmentEquations,
-    obs: Observer<'a>,
+    max_kept: usize,
+    seg: Segment,
 }
 
 impl Observer<'_> {
-    fn accepted(&mut self, t: f64, y: &[f64], dy: &[f64]) -> bool {
-        let h = t - self.prev_t;
-        self.cur_y.copy_from_slice(&y[..self.n]);
-        self.cur_dy.copy_from_slice(&dy[..self.n]);
-        {
-            let ring = self.stage_ring.borrow();
-            for (j, f) in self.filtered.iter().enumerate() {
-                let k = ring.stages(j);
-                let k7 = dy[f.input];
-                if k[4] != k7 || ring.calls < 5 {
-                    self.stages_unread.set(true);
-                }
-                let (pi, pd) = (self.prev_y[f.input], self.prev_dy[f.input]);
-                let b = step_polynomial(h, pi, pd, y[f.input], k7, &[k[0], k[1], k[2], k[3]]);
-                self.polys.extend_from_slice(&b);
-                let (m0, r0) = (self.prev_y[f.measured], self.prev_y[f.rocof]);
-                let (m, r) = measurement::advance(&f.lags, &b, h, 1.0, m0, r0);
-                let dm = measurement::measured_derivative(y[f.input], k7, m, f.lags.lag_s);
-                self.cur_y[f.measured] = m;
-                self.cur_y[f.rocof] = r;
-                self.cur_dy[f.measured] = dm;
-                self.cur_dy[f.rocof] = measurement::rocof_derivative(dm, r, f.lags.window_s);
-            }
+    fn accepted(&mut self, st: &Accepted<'_>) -> bool {
+        let n = self.n;
+        let seg = &mut self.seg;
+        // The step as the stored times give it (θ of `step_of`); the stepper's own `st.h` may
+        // differ from it in the last bit and is the unit of the ODE states' extension only.
+        let h = st.t1 - seg.times[seg.times.len() - 1];
+        // The new point is stored first and its filtered components filled in place; the
+        // previous point (the step's start) is the row before it.
+        let at = seg.states.len();
+        seg.states.extend_from_slice(st.y1);
+        seg.slopes.extend_from_slice(st.k[6]);
+        let (before, y) = seg.states.split_at_mut(at);
+        let (before_d, dy) = seg.slopes.split_at_mut(at);
+        let (py, pdy) = (&before[at - n..], &before_d[at - n..]);
+        for f in self.filtered {
+            let i = f.input;
+            let k36 = [st.k[2][i], st.k[3][i], st.k[4][i], st.k[5][i]];
+            let b = step_polynomial(h, py[i], pdy[i], y[i], dy[i], &k36);
+            seg.polys.extend_from_slice(&b);
+            let (m, r) = measurement::advance(&f.lags, &b, h, 1.0, py[f.measured], py[f.rocof]);
+            let dm = measurement::measured_derivative(y[i], dy[i], m, f.lags.lag_s);
+            y[f.measured] = m;
+            y[f.rocof] = r;
+            dy[f.measured] = dm;
+            dy[f.rocof] = measurement::rocof_derivative(dm, r, f.lags.window_s);
         }
-        let (y, dy) = (&self.cur_y, &self.cur_dy);
-        let (py, pdy) = (&self.prev_y, &self.prev_dy);
         let crosses = |i: usize, level: f64| crosses_level(level, h, py[i], pdy[i], y[i], dy[i]);
         let hit = self.guards.iter().any(|g| crosses(g.index, g.level));
         let left = !hit
@@ -196,48 +137,16 @@ impl Observer<'_> {
                 .bands
                 .iter()
                 .any(|b| crosses(b.index, b.lo) || crosses(b.index, b.hi));
-        self.prev_t = t;
-        self.prev_y.copy_from_slice(y);
-        self.prev_dy.copy_from_slice(dy);
-        self.times.push(t);
-        self.states.extend_from_slice(y);
-        self.slopes.extend_from_slice(dy);
-        if hit {
-            self.guard_hit.set(true);
+        seg.times.push(st.t1);
+        seg.steps.push(st.h);
+        for c in st.dense {
+            seg.dense.extend_from_slice(c);
         }
-        if left {
-            self.band_left.set(true);
-        }
-        hit || left
+        seg.guard_hit |= hit;
+        seg.band_left |= left;
+        hit || left || seg.kept_values() > self.max_kept
     }
 }
-
-macro_rules! system_for {
-    ($v:ty) => {
-        impl System<f64, $v> for Plant<'_> {
-            fn system(&self, _t: f64, y: &$v, dy: &mut $v) {
-                let n = self.obs.n;
-                self.eq
-                    .derivatives(&y.as_slice()[..n], &mut dy.as_mut_slice()[..n]);
-                if !self.obs.filtered.is_empty() {
-                    self.obs
-                        .stage_ring
-                        .borrow_mut()
-                        .record(self.obs.filtered, dy.as_slice());
-                }
-            }
-
-            fn solout(&mut self, t: f64, y: &$v, dy: &$v) -> bool {
-                self.obs.accepted(t, y.as_slice(), dy.as_slice())
-            }
-        }
-    };
-}
-system_for!(SVector<f64, 16>);
-system_for!(SVector<f64, 32>);
-system_for!(SVector<f64, 64>);
-system_for!(SVector<f64, 128>);
-system_for!(DVector<f64>);
 
 /// Whether a guard changes side over a step, judged from the end values and the Hermite cubic.
 pub fn crosses_in_step(g: &StateGuard, h: f64, y0: f64, d0: f64, y1: f64, d1: f64) -> bool {
@@ -250,6 +159,14 @@ fn crosses_level(level: f64, h: f64, y0: f64, d0: f64, y1: f64, d1: f64) -> bool
         return true;
     }
     if d0 * d1 >= 0.0 {
+        return false;
+    }
+    // The cubic stays within its end values widened by (4/27)·h·(|d0| + |d1|) (the largest
+    // magnitude of the Hermite slope basis functions on [0, 1] is 4/27, at θ = 1/3 and 2/3);
+    // widened again for rounding, a level outside that range cannot be reached.
+    let reach = (4.0 / 27.0) * h.abs() * (d0.abs() + d1.abs()) * (1.0 + 1e-6)
+        + 1e-12 * (y0.abs() + y1.abs() + level.abs());
+    if level < y0.min(y1) - reach || level > y0.max(y1) + reach {
         return false;
     }
     hermite_extrema(h, y0, d0, y1, d1)
@@ -322,8 +239,10 @@ pub fn integrate(
     opt: &StepOptions,
 ) -> Result<Segment, String> {
     let n = y0.len();
-    let mut dy0 = vec![0.0; n];
-    eq.derivatives(y0, &mut dy0);
+    // The solver's start slope: the filtered components have zero derivative in the equations.
+    let mut k0 = vec![0.0; n];
+    eq.derivatives(y0, &mut k0);
+    let mut dy0 = k0.clone();
     let filtered = eq.filtered();
     for f in &filtered {
         // The slopes the filters have at the start (the equations give them zero).
@@ -336,148 +255,169 @@ pub fn integrate(
         dy0[f.measured] = dm;
         dy0[f.rocof] = measurement::rocof_derivative(dm, y0[f.rocof], f.lags.window_s);
     }
-    let stage_ring = RefCell::new(StageRing {
-        n: filtered.len(),
-        values: vec![0.0; 5 * filtered.len()],
-        calls: 0,
-    });
-    let stages_unread = Cell::new(false);
-    let mut polys = Vec::with_capacity(64 * NB * filtered.len());
-    let guard_hit = Cell::new(false);
-    let band_left = Cell::new(false);
-    let mut times = Vec::with_capacity(64);
-    let mut states = Vec::with_capacity(64 * n);
-    let mut slopes = Vec::with_capacity(64 * n);
-    times.push(t0);
-    states.extend_from_slice(y0);
-    slopes.extend_from_slice(&dy0);
-    let obs = Observer {
+    let mut seg = Segment {
+        n,
+        times: Vec::with_capacity(64),
+        steps: Vec::with_capacity(64),
+        states: Vec::with_capacity(64 * n),
+        slopes: Vec::with_capacity(64 * n),
+        dense: Vec::with_capacity(3 * 64 * n),
+        polys: Vec::with_capacity(64 * NB * filtered.len()),
+        filtered: Vec::new(),
+        guard_hit: false,
+        band_left: false,
+        counts: Counts::default(),
+    };
+    seg.times.push(t0);
+    seg.states.extend_from_slice(y0);
+    seg.slopes.extend_from_slice(&dy0);
+    let mut obs = Observer {
         n,
         guards,
         bands,
-        prev_t: t0,
-        prev_y: y0.to_vec(),
-        prev_dy: dy0,
-        cur_y: vec![0.0; n],
-        cur_dy: vec![0.0; n],
         filtered: &filtered,
-        polys: &mut polys,
-        stage_ring: &stage_ring,
-        stages_unread: &stages_unread,
-        times: &mut times,
-        states: &mut states,
-        slopes: &mut slopes,
-        guard_hit: &guard_hit,
-        band_left: &band_left,
+        max_kept: opt.max_kept_values,
+        seg,
     };
-    let sys = Plant { eq, obs };
     let h_max = opt.max_step_s.min(t_end - t0).max(1e-9);
-    // The error norm counts the ODE states only (not the filtered components nor padding).
+    // The error norm is the RMS over the ODE states (not the filtered components). It is formed
+    // as ode_solvers 0.6 formed it over the state padded to the width 16, 32, 64 or 128 (or n
+    // past 128) with both tolerances scaled by √(n_ode/width), so that every step size, and
+    // with it every result, is bit for bit the one nadir gave with that solver.
     let n_ode = n - eq.n_outside_ode();
-    macro_rules! solve {
-        ($size:literal, $variant:ident, $runner:ident) => {{
-            let mut y = SVector::<f64, $size>::zeros();
-            y.as_mut_slice()[..n].copy_from_slice(y0);
-            Dense::$variant($runner(sys, t0, t_end, h_max, y, opt, n_ode, $size)?)
-        }};
-    }
-    let dense = match n {
-        0..=16 => solve!(16, S16, run16),
-        17..=32 => solve!(32, S32, run32),
-        33..=64 => solve!(64, S64, run64),
-        65..=128 => solve!(128, S128, run128),
-        _ => {
-            let y = DVector::from_column_slice(y0);
-            Dense::Dyn(run_dyn(sys, t0, t_end, h_max, y, opt, n_ode, n)?)
-        }
+    let width = match n {
+        0..=16 => 16,
+        17..=32 => 32,
+        33..=64 => 64,
+        65..=128 => 128,
+        _ => n,
     };
-    if stages_unread.get() {
-        return Err(
-            "the integrator's stages could not be read for the relay measurement \
-                    (an internal error; please report it with the input files)"
-                .to_string(),
-        );
-    }
-    Ok(Segment {
-        n,
-        times,
-        states,
-        slopes,
-        dense,
-        filtered,
-        polys,
-        guard_hit: guard_hit.get(),
-        band_left: band_left.get(),
+    let scale = if width > n_ode && n_ode > 0 {
+        (n_ode as f64 / width as f64).sqrt()
+    } else {
+        1.0
+    };
+    let ctl = Control {
+        rtol: opt.rtol * scale,
+        atol: opt.atol * scale,
+        norm_width: width,
+        h_max,
+        first_step: opt.first_step_s.clamp(0.0, h_max),
+        max_attempts: MAX_ATTEMPTS,
+    };
+    let mut rhs = |y: &[f64], dy: &mut [f64]| eq.derivatives(y, dy);
+    let counts = with_stepper(n, |stepper| {
+        stepper.integrate(&mut rhs, t0, y0, &k0, t_end, &ctl, &mut |st| {
+            obs.accepted(st)
+        })
     })
+    .map_err(in_words)?;
+    let mut seg = obs.seg;
+    seg.counts = counts;
+    seg.filtered = filtered;
+    #[cfg(feature = "compare-integrators")]
+    capture::record(eq, t0, y0, &seg, opt, &ctl);
+    Ok(seg)
 }
 
-macro_rules! dopri5_runner {
-    ($name:ident, $v:ty) => {
-        #[allow(clippy::too_many_arguments)]
-        fn $name(
-            sys: Plant<'_>,
-            t0: f64,
-            t_end: f64,
-            h_max: f64,
-            y: $v,
-            opt: &StepOptions,
-            n: usize,
-            padded: usize,
-        ) -> Result<ContinuousOutputModel<f64, $v>, String> {
-            // Padding and filtered entries have zero error; scaling both tolerances by √(n/N)
-            // makes the RMS norm over N entries equal the one over the n ODE states.
-            let scale = if padded > n && n > 0 {
-                (n as f64 / padded as f64).sqrt()
-            } else {
-                1.0
-            };
-            let mut solver = Dopri5::from_param(
-                sys,
-                t0,
-                t_end,
-                h_max,
-                y,
-                opt.rtol * scale,
-                opt.atol * scale,
-                0.9,
-                0.04,
-                0.2,
-                10.0,
-                h_max,
-                opt.first_step_s.clamp(0.0, h_max),
-                1_000_000,
-                u32::MAX,
-                OutputType::Continuous,
-            );
-            let mut dense = ContinuousOutputModel::new();
-            solver
-                .integrate_with_continuous_output_model(&mut dense)
-                .map_err(in_words)?;
-            Ok(dense)
-        }
-    };
+/// The segments a run integrates, kept for replaying them through other integrators
+/// (examples/bench_integrators.rs; feature `compare-integrators`, not in the normal build).
+#[cfg(feature = "compare-integrators")]
+pub mod capture {
+    use super::{Control, Segment, SegmentEquations, StepOptions};
+    use std::cell::RefCell;
+
+    /// One integrated segment as the stepper was asked to take it.
+    #[derive(Debug, Clone)]
+    pub struct SegmentProblem {
+        pub eq: SegmentEquations,
+        pub t0: f64,
+        pub y0: Vec<f64>,
+        /// Where the segment ended (its end time, or where a guard or band stopped it).
+        pub t_end: f64,
+        /// The run's tolerances for an RMS norm over the `n_ode` ODE states (the other entries
+        /// of the state, the relay measurement, have zero derivative in `eq`).
+        pub rtol: f64,
+        pub atol: f64,
+        pub n_ode: usize,
+        pub h_max: f64,
+        /// The first step tried (0: estimated).
+        pub first_step: f64,
+        /// Accepted steps, rejected steps and derivative evaluations the run's stepper took.
+        pub accepted: usize,
+        pub rejected: usize,
+        pub evaluations: usize,
+    }
+
+    thread_local! {
+        static KEPT: RefCell<Option<Vec<SegmentProblem>>> = const { RefCell::new(None) };
+    }
+
+    pub(super) fn record(
+        eq: &SegmentEquations,
+        t0: f64,
+        y0: &[f64],
+        seg: &Segment,
+        opt: &StepOptions,
+        ctl: &Control,
+    ) {
+        KEPT.with(|k| {
+            if let Some(v) = k.borrow_mut().as_mut() {
+                v.push(SegmentProblem {
+                    eq: eq.clone(),
+                    t0,
+                    y0: y0.to_vec(),
+                    t_end: seg.times[seg.times.len() - 1],
+                    rtol: opt.rtol,
+                    atol: opt.atol,
+                    n_ode: y0.len() - eq.n_outside_ode(),
+                    h_max: ctl.h_max,
+                    first_step: ctl.first_step,
+                    accepted: seg.counts.accepted,
+                    rejected: seg.counts.rejected,
+                    evaluations: seg.counts.evaluations,
+                });
+            }
+        });
+    }
+
+    /// Run `f` on this thread and return the segments it integrated.
+    pub fn segments_of<R>(f: impl FnOnce() -> R) -> (R, Vec<SegmentProblem>) {
+        KEPT.with(|k| *k.borrow_mut() = Some(Vec::new()));
+        let r = f();
+        let v = KEPT.with(|k| k.borrow_mut().take()).unwrap_or_default();
+        (r, v)
+    }
 }
 
-/// The solver's error in the words of a run's status.
-fn in_words(e: ode_solvers::dop_shared::IntegrationError) -> String {
-    use ode_solvers::dop_shared::IntegrationError as E;
+thread_local! {
+    /// The stepper's work space, kept for the next segment on the same thread.
+    static STEPPER: RefCell<Option<Stepper>> = const { RefCell::new(None) };
+}
+
+/// Run `f` with a stepper for `n` states, reusing this thread's work space.
+fn with_stepper<R>(n: usize, f: impl FnOnce(&mut Stepper) -> R) -> R {
+    let mut stepper = STEPPER
+        .with(|s| s.borrow_mut().take())
+        .filter(|s| s.width() == n)
+        .unwrap_or_else(|| Stepper::new(n));
+    let r = f(&mut stepper);
+    STEPPER.with(|s| *s.borrow_mut() = Some(stepper));
+    r
+}
+
+/// The stepper's failure in the words of a run's status.
+fn in_words(e: Failure) -> String {
     match e {
-        E::MaxNumStepReached { x, n_step } => format!(
-            "the integrator reached its limit of {n_step} steps in one stretch at {x:.3} s \
+        Failure::Budget { at, attempts } => format!(
+            "the integrator reached its limit of {attempts} steps in one stretch at {at:.3} s \
              (the equations change too fast for it; see docs/models.md, lags)"
         ),
-        E::StepSizeUnderflow { x } => {
-            format!("the integrator's step became too small at {x:.3} s")
+        Failure::Underflow { at } => {
+            format!("the integrator's step became too small at {at:.3} s")
         }
-        E::StiffnessDetected { x } => format!("the equations became stiff at {x:.3} s"),
     }
 }
-
-dopri5_runner!(run16, SVector<f64, 16>);
-dopri5_runner!(run32, SVector<f64, 32>);
-dopri5_runner!(run64, SVector<f64, 64>);
-dopri5_runner!(run128, SVector<f64, 128>);
-dopri5_runner!(run_dyn, DVector<f64>);
 
 impl Segment {
     /// Values the segment keeps for reading later, against a run's memory ceiling: the state at
@@ -569,24 +509,18 @@ impl Segment {
             out.copy_from_slice(self.last_state());
             return;
         }
+        let (k, theta) = self.dense_step(t);
         let n = self.n;
-        let done = match &self.dense {
-            Dense::S16(d) => d
-                .evaluate(t)
-                .map(|v| out.copy_from_slice(&v.as_slice()[..n])),
-            Dense::S32(d) => d
-                .evaluate(t)
-                .map(|v| out.copy_from_slice(&v.as_slice()[..n])),
-            Dense::S64(d) => d
-                .evaluate(t)
-                .map(|v| out.copy_from_slice(&v.as_slice()[..n])),
-            Dense::S128(d) => d
-                .evaluate(t)
-                .map(|v| out.copy_from_slice(&v.as_slice()[..n])),
-            Dense::Dyn(d) => d.evaluate(t).map(|v| out.copy_from_slice(v.as_slice())),
-        };
-        if done.is_none() {
-            out.copy_from_slice(self.last_state());
+        let (ya, yb) = (self.state(k - 1), self.state(k));
+        let c = &self.dense[3 * n * (k - 1)..3 * n * k];
+        let (c2, c3, c4) = (&c[..n], &c[n..2 * n], &c[2 * n..]);
+        for i in 0..n {
+            out[i] = dense_value(theta, ya[i], yb[i], c2[i], c3[i], c4[i]);
+        }
+        let y0 = self.state(0);
+        for f in &self.filtered {
+            out[f.measured] = y0[f.measured];
+            out[f.rocof] = y0[f.rocof];
         }
     }
 
@@ -624,14 +558,30 @@ impl Segment {
             let (m, r) = self.filtered_in_step(j, k, theta);
             return if f.measured == i { m } else { r };
         }
-        let v = match &self.dense {
-            Dense::S16(d) => d.evaluate(t).map(|v| v[i]),
-            Dense::S32(d) => d.evaluate(t).map(|v| v[i]),
-            Dense::S64(d) => d.evaluate(t).map(|v| v[i]),
-            Dense::S128(d) => d.evaluate(t).map(|v| v[i]),
-            Dense::Dyn(d) => d.evaluate(t).map(|v| v[i]),
-        };
-        v.unwrap_or_else(|| self.last_state()[i])
+        let (k, theta) = self.dense_step(t);
+        self.dense_component(k, theta, i)
+    }
+
+    /// For `t` strictly inside the segment: the step it lies in (1-based, ending at
+    /// `times[k]`; a step end belongs to the step it ends) and θ in the unit the stepper used.
+    fn dense_step(&self, t: f64) -> (usize, f64) {
+        let last = self.times.len() - 1;
+        let k = self.times.partition_point(|&tk| tk < t).clamp(1, last);
+        (k, (t - self.times[k - 1]) / self.steps[k - 1])
+    }
+
+    /// Component `i` of the continuous extension of step `k` at `theta`.
+    fn dense_component(&self, k: usize, theta: f64, i: usize) -> f64 {
+        let n = self.n;
+        let c = &self.dense[3 * n * (k - 1)..3 * n * k];
+        dense_value(
+            theta,
+            self.states[(k - 1) * n + i],
+            self.states[k * n + i],
+            c[i],
+            c[n + i],
+            c[2 * n + i],
+        )
     }
 
     /// The earliest guard crossing inside the last step, as the first time on the new side

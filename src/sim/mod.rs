@@ -5,6 +5,7 @@
 //! iteration orders). Physics lives in [`crate::dynamics`], relay logic in [`crate::relay`];
 //! this module composes them ([`rhs`]) and owns time.
 
+pub mod dopri;
 mod engine;
 pub mod event;
 pub mod integrate;
@@ -45,6 +46,11 @@ pub struct SimConfig {
     /// only whether a run holds sets it to the criteria's minimum frequency: a run that goes
     /// below it fails whatever follows, so the rest need not be simulated.
     pub stop_below_hz: Option<f64>,
+    /// Limits the run stops at, with [`StopReason::CertainFailure`], as soon as it is certain to
+    /// break one of them whatever follows (`None`: run to the end). For a search that asks only
+    /// whether a run holds; the run's path up to the stop is the one it would have had anyway
+    /// (the check reads the recorded path after each integrated segment, it does not split one).
+    pub stop_when_failing: Option<FailLimits>,
     /// Level for [`Run::recovered_above_at_s`]; `None` means 0.99 of nominal.
     pub recover_above_hz: Option<f64>,
     /// Crossing-location tolerance, seconds (1e-6).
@@ -58,6 +64,21 @@ pub struct SimConfig {
     /// ceiling. A run that needs more stops
     /// with `NumericalFault` saying so, instead of growing without bound.
     pub max_kept_values: usize,
+}
+
+/// Limits of [`SimConfig::stop_when_failing`]: a run that is certain to break one fails its
+/// criteria whatever follows.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct FailLimits {
+    /// Largest |f(t) − f(t − W)|/W (W = [`SimConfig::rocof_window_s`]) on the sample grid,
+    /// Hz/s: certain to be broken once one grid point already recorded exceeds it, since the
+    /// reported ROCOF is the largest over all of them.
+    pub max_rocof_hz_per_s: f64,
+    /// Time by which the frequency must be back above the recovery level
+    /// ([`SimConfig::recover_above_hz`]) to stay, seconds: certain to be missed once any section
+    /// is below the level at a step end after it (its return, if any, comes later still; a
+    /// section that never returns, or whose island stops, fails the run too).
+    pub recovered_by_s: f64,
 }
 
 impl SimConfig {
@@ -93,6 +114,7 @@ impl Default for SimConfig {
             rocof_window_s: 0.5,
             recover_above_hz: None,
             stop_below_hz: None,
+            stop_when_failing: None,
             locate_tol_s: 1e-6,
             max_events: 1000,
             max_kept_values: 5_000_000,
@@ -121,6 +143,12 @@ pub enum StopReason {
     NumericalFault {
         at_s: f64,
         detail: String,
+    },
+    /// Stopped at a limit of [`SimConfig::stop_when_failing`] once certain to break it
+    /// (`rocof` or `recover`): the run fails whatever follows, so the rest was not simulated.
+    CertainFailure {
+        at_s: f64,
+        criterion: &'static str,
     },
 }
 
@@ -156,6 +184,9 @@ impl StopReason {
             StopReason::NumericalFault { at_s, detail } => {
                 Some(format!("the simulation stopped at {at_s:.3} s: {detail}"))
             }
+            StopReason::CertainFailure { at_s, criterion } => Some(format!(
+                "stopped at {at_s:.2} s, certain to fail its {criterion} criterion whatever follows"
+            )),
         }
     }
 }

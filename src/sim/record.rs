@@ -16,10 +16,12 @@
 use super::integrate::Segment;
 use super::rhs::speed_index;
 use super::trajectory::{Kept, Recorded, Trajectory};
-use std::collections::VecDeque;
-
-/// Grid points are tested for skipping in blocks of this many.
+use super::FailLimits;
+use std::cell::RefCell;
+/// Grid points are tested for skipping in blocks of this many, and blocks in groups of
+/// `GROUP` first (a group passed over is not looked at block by block).
 const BLOCK: usize = 10;
+const GROUP: usize = 10;
 
 pub struct Recorder {
     pub nominal_hz: f64,
@@ -35,6 +37,21 @@ pub struct Recorder {
     ever_below: Vec<bool>,
     /// Per section: last time it came back above the recovery level.
     pub last_up_s: Vec<Option<f64>>,
+    /// Per section, grid samples already evaluated (NaN where not), handed to [`Samples`].
+    grid_cache: RefCell<Vec<Vec<f64>>>,
+    watch: Option<Watch>,
+}
+
+/// The limits a run stops at once certain to break one ([`crate::sim::SimConfig::stop_when_failing`]),
+/// checked on the recorded path after each segment.
+struct Watch {
+    limits: FailLimits,
+    /// The ROCOF window, seconds (as the run's summary takes it: at least one sample interval).
+    window: f64,
+    /// Per section: the first block of grid points not yet checked against the ROCOF limit.
+    next_block: Vec<usize>,
+    /// When and why the run became certain to fail.
+    failed: Option<(f64, &'static str)>,
 }
 
 /// Grid samples evaluated on demand.
@@ -43,6 +60,9 @@ pub struct Samples<'a> {
     /// Number of grid points.
     pub len: usize,
     cache: Vec<Vec<f64>>,
+    /// Per section, for the window they were computed with: each group's bound (see
+    /// [`Samples::group_bounds`]).
+    bounds: Vec<Option<(f64, Vec<f64>)>>,
 }
 
 impl Recorder {
@@ -62,7 +82,119 @@ impl Recorder {
             below: vec![false; n_sections],
             ever_below: vec![false; n_sections],
             last_up_s: vec![None; n_sections],
+            grid_cache: RefCell::new(vec![Vec::new(); n_sections]),
+            watch: None,
         }
+    }
+
+    /// Watch the recorded path for a certain failure of `limits` (none: nothing watched);
+    /// `rocof_window_s` is the run's ROCOF window.
+    pub fn watching(mut self, limits: Option<FailLimits>, rocof_window_s: f64) -> Self {
+        self.watch = limits.map(|limits| Watch {
+            limits,
+            window: rocof_window_s.max(self.sample_interval_s),
+            next_block: vec![0; self.n_sections],
+            failed: None,
+        });
+        self
+    }
+
+    /// When and why the run became certain to fail a watched limit (see [`Recorder::watching`]):
+    /// the time of the segment end at which it was found, and the criterion.
+    pub fn certain_failure(&self) -> Option<(f64, &'static str)> {
+        self.watch.as_ref().and_then(|w| w.failed)
+    }
+
+    /// Frequency of section `s` at grid point `k`, Hz, on the recorded path (cached).
+    fn grid_hz(&self, s: usize, k: usize) -> f64 {
+        let mut cache = self.grid_cache.borrow_mut();
+        let c = &mut cache[s];
+        if c.len() <= k {
+            c.resize(k + 1, f64::NAN);
+        }
+        if c[k].is_nan() {
+            let t = k as f64 * self.sample_interval_s;
+            c[k] = self.hz(self.path.component_at(t, speed_index(s)));
+        }
+        c[k]
+    }
+
+    /// After a segment ending at `t_stop`: whether a grid point of an unfrozen section recorded
+    /// so far has a windowed ROCOF above the watched limit. Grid points up to `t_stop` are final
+    /// (later segments do not change the path before them), and the value is computed as
+    /// [`Samples::windowed_rocof`] computes it, so the run's reported ROCOF is at least as large.
+    /// Blocks whose covering knot range divided by W does not exceed the limit are passed over.
+    fn watch_rocof(&mut self, frozen: &[bool], t_stop: f64) {
+        let Some(watch) = &self.watch else { return };
+        if watch.failed.is_some() {
+            return;
+        }
+        let (limit, window) = (watch.limits.max_rocof_hz_per_s, watch.window);
+        let dt = self.sample_interval_s;
+        let w = window / dt;
+        let time = |k: usize| k as f64 * dt;
+        let mut next_block = watch.next_block.clone();
+        let mut failed = None;
+        'sections: for s in 0..self.n_sections {
+            if frozen[s] {
+                continue;
+            }
+            // The blocks recorded in full since the last check, bounded together first: most
+            // segments end far from the limit and are passed over in one look at their knots.
+            let b0 = next_block[s];
+            let n_final = ((t_stop / dt).floor().max(0.0) as usize).saturating_add(1);
+            let mut b_end = n_final / BLOCK;
+            while b_end > b0 && time(b_end * BLOCK - 1) > t_stop {
+                b_end -= 1;
+            }
+            while time((b_end + 1) * BLOCK - 1) <= t_stop {
+                b_end += 1;
+            }
+            if b_end <= b0 {
+                continue;
+            }
+            let t_lo = time(back_index(b0 * BLOCK, w).0);
+            let t_hi = time(b_end * BLOCK - 1);
+            if knot_range(&self.path.knots[s], t_lo, t_hi) / window <= limit {
+                next_block[s] = b_end;
+                continue;
+            }
+            loop {
+                let b = next_block[s];
+                let (first, last) = (b * BLOCK, b * BLOCK + BLOCK - 1);
+                if time(last) > t_stop {
+                    break;
+                }
+                next_block[s] = b + 1;
+                let bound = knot_range(
+                    &self.path.knots[s],
+                    time(back_index(first, w).0),
+                    time(last),
+                );
+                if bound / window <= limit {
+                    continue;
+                }
+                for i in first..=last {
+                    if time(i) < window - 1e-12 {
+                        continue;
+                    }
+                    let (lo, frac) = back_index(i, w);
+                    // `lo + 1 ≤ i`: recorded as well.
+                    let back = if frac != 0.0 {
+                        self.grid_hz(s, lo) * (1.0 - frac) + self.grid_hz(s, lo + 1) * frac
+                    } else {
+                        self.grid_hz(s, lo)
+                    };
+                    if ((self.grid_hz(s, i) - back) / window).abs() > limit {
+                        failed = Some((t_stop, "rocof"));
+                        break 'sections;
+                    }
+                }
+            }
+        }
+        let watch = self.watch.as_mut().expect("watched");
+        watch.next_block = next_block;
+        watch.failed = watch.failed.or(failed);
     }
 
     fn hz(&self, dw: f64) -> f64 {
@@ -124,6 +256,11 @@ impl Recorder {
                     self.path.knots[s].push((tb, hz));
                 }
                 let below_b = yb[iw] < self.recover_pu;
+                if let Some(watch) = &mut self.watch {
+                    if below_b && tb > watch.limits.recovered_by_s && watch.failed.is_none() {
+                        watch.failed = Some((t_stop, "recover"));
+                    }
+                }
                 if below_b != self.below[s] {
                     if !below_b {
                         let mut lo = ta;
@@ -154,6 +291,7 @@ impl Recorder {
             y_to: y_stop.to_vec(),
             shed_mw,
         });
+        self.watch_rocof(frozen, t_stop);
     }
 
     pub fn ends_below(&self, section: usize) -> bool {
@@ -188,15 +326,12 @@ impl Recorder {
 
     /// The sample grid up to `t_end` (points `k·dt` with `k·dt ≤ t_end`).
     pub fn samples(&self, t_end: f64) -> Samples<'_> {
-        let dt = self.sample_interval_s;
-        let mut len = 1;
-        while (len as f64) * dt <= t_end + 1e-12 {
-            len += 1;
-        }
+        let len = super::trajectory::grid_len(self.sample_interval_s, t_end);
         Samples {
             rec: self,
             len,
-            cache: vec![Vec::new(); self.n_sections],
+            cache: self.grid_cache.take(),
+            bounds: vec![None; self.n_sections],
         }
     }
 
@@ -213,8 +348,8 @@ impl Samples<'_> {
 
     /// Frequency of section `s` at grid point `k`, Hz.
     pub fn hz(&mut self, s: usize, k: usize) -> f64 {
-        if self.cache[s].is_empty() {
-            self.cache[s] = vec![f64::NAN; self.len];
+        if self.cache[s].len() < self.len {
+            self.cache[s].resize(self.len, f64::NAN);
         }
         let v = self.cache[s][k];
         if !v.is_nan() {
@@ -226,23 +361,41 @@ impl Samples<'_> {
         v
     }
 
+    /// The range of section `s`'s knot values that cover the windows of grid points
+    /// `first..=last`, from the first point's window start to the last point, in Hz. Between two
+    /// knots the frequency is monotone, so every |f(t) − f(t − W)| of those points, interpolated
+    /// window start included, is at most this range. Infinite when a knot is not a number or
+    /// there are none (nothing is bounded then).
+    fn window_range(&self, s: usize, w: f64, first: usize, last: usize) -> f64 {
+        let t_lo = self.time(back_index(first, w).0);
+        knot_range(&self.rec.path.knots[s], t_lo, self.time(last))
+    }
+
+    /// Section `s`'s group bounds for window `window` (group `g` holds the grid points
+    /// `g·GROUP·BLOCK …`; see [`Samples::window_range`]), computed once per section.
+    fn group_bounds(&mut self, s: usize, window: f64) -> Vec<f64> {
+        if !matches!(&self.bounds[s], Some((w, _)) if *w == window) {
+            let w = window / self.rec.sample_interval_s;
+            let span = GROUP * BLOCK;
+            let out = (0..self.len.div_ceil(span))
+                .map(|g| self.window_range(s, w, g * span, ((g + 1) * span).min(self.len) - 1))
+                .collect();
+            self.bounds[s] = Some((window, out));
+        }
+        self.bounds[s].as_ref().expect("computed above").1.clone()
+    }
+
     /// Max over grid points `t` with `W ≤ t`, `from < t ≤ to` of |f(t) − f(t − W)|/W on section
     /// `s`, `f(t − W)` interpolated linearly between grid samples.
+    ///
+    /// Only the grid points that can matter are evaluated. Groups of blocks are visited with the
+    /// group whose bound ([`Samples::window_range`]) is the largest first, then in time order;
+    /// inside a group, blocks the same way; a group or block whose bound divided by W does not
+    /// exceed the largest value found so far is passed over. It cannot hold a larger value, so
+    /// the result is the maximum over every grid point.
     pub fn windowed_rocof(&mut self, s: usize, window: f64, from: f64, to: f64) -> f64 {
         let dt = self.rec.sample_interval_s;
         let w = window / dt;
-        let back_index = |i: usize| {
-            let p = (i as f64 - w).max(0.0);
-            let lo = p.floor() as usize;
-            (lo, p - lo as f64)
-        };
-        let included = |t: f64| !(t < window - 1e-12 || t <= from || t > to + 1e-12);
-        let knots = &self.rec.path.knots[s];
-        let mut best: f64 = 0.0;
-        // Sliding max/min of knot values over knot index windows whose ends only move forward.
-        let mut maxq: VecDeque<usize> = VecDeque::new();
-        let mut minq: VecDeque<usize> = VecDeque::new();
-        let mut pushed = 0;
         // Grid points that count: the first one past `from` and not before `window`, up to `to`.
         // Both found from an estimate corrected on the same tests (the lower bounds hold from
         // some grid point on, the upper one up to some point), not by a scan of the grid.
@@ -274,51 +427,39 @@ impl Samples<'_> {
         while upper > 0 && !below_upper(upper - 1) {
             upper -= 1;
         }
-        let (i_min, i_end) = if lower < upper {
-            (lower, upper)
-        } else {
-            (self.len, self.len)
-        };
-        debug_assert!((i_min..i_end).all(|i| included(self.time(i))));
-        let mut block_start = i_min;
-        while block_start < i_end {
-            let block_end = (block_start + BLOCK).min(i_end);
-            let (first, last) = (block_start, block_end - 1);
-            let t_lo = self.time(back_index(first).0);
-            let t_hi = self.time(last);
-            let skip = if knots.is_empty() {
-                false
-            } else {
-                // Knots covering [t_lo, t_hi]: the last one at or before t_lo up to the first one
-                // at or after t_hi (clamped to the ends of the list).
-                let j_lo = knots.partition_point(|k| k.0 <= t_lo).saturating_sub(1);
-                let j_hi = knots.partition_point(|k| k.0 < t_hi).min(knots.len() - 1);
-                while pushed <= j_hi {
-                    let v = knots[pushed].1;
-                    while maxq.back().is_some_and(|&b| knots[b].1 <= v) {
-                        maxq.pop_back();
-                    }
-                    maxq.push_back(pushed);
-                    while minq.back().is_some_and(|&b| knots[b].1 >= v) {
-                        minq.pop_back();
-                    }
-                    minq.push_back(pushed);
-                    pushed += 1;
+        if lower >= upper {
+            return 0.0;
+        }
+        let (i_min, i_end) = (lower, upper);
+        debug_assert!((i_min..i_end).all(|i| {
+            let t = self.time(i);
+            !(t < window - 1e-12 || t <= from || t > to + 1e-12)
+        }));
+        let span = GROUP * BLOCK;
+        let (g_first, g_last) = (i_min / span, (i_end - 1) / span);
+        let groups = self.group_bounds(s, window);
+        let seed = largest_first(g_first..=g_last, |g| groups[g]);
+        let mut best: f64 = 0.0;
+        for g in seed {
+            if groups[g] / window <= best {
+                continue;
+            }
+            let b_first = (g * GROUP).max(i_min / BLOCK);
+            let b_last = ((g + 1) * GROUP - 1).min((i_end - 1) / BLOCK);
+            let mut blocks = [0.0; GROUP];
+            for b in b_first..=b_last {
+                let first = (b * BLOCK).max(i_min);
+                let last = ((b + 1) * BLOCK).min(i_end) - 1;
+                blocks[b - b_first] = self.window_range(s, w, first, last);
+            }
+            for b in largest_first(b_first..=b_last, |b| blocks[b - b_first]) {
+                if blocks[b - b_first] / window <= best {
+                    continue;
                 }
-                while maxq.front().is_some_and(|&f| f < j_lo) {
-                    maxq.pop_front();
-                }
-                while minq.front().is_some_and(|&f| f < j_lo) {
-                    minq.pop_front();
-                }
-                match (maxq.front(), minq.front()) {
-                    (Some(&a), Some(&b)) => (knots[a].1 - knots[b].1) / window <= best,
-                    _ => false,
-                }
-            };
-            if !skip {
+                let first = (b * BLOCK).max(i_min);
+                let last = ((b + 1) * BLOCK).min(i_end) - 1;
                 for i in first..=last {
-                    let (lo, frac) = back_index(i);
+                    let (lo, frac) = back_index(i, w);
                     let back = if lo + 1 < self.len && frac != 0.0 {
                         self.hz(s, lo) * (1.0 - frac) + self.hz(s, lo + 1) * frac
                     } else {
@@ -327,10 +468,58 @@ impl Samples<'_> {
                     best = best.max(((self.hz(s, i) - back) / window).abs());
                 }
             }
-            block_start = block_end;
         }
         best
     }
+}
+
+/// Grid point `i`'s window start `t − W` as (grid point at or before it, fraction to the next
+/// one), `w = W / dt`.
+fn back_index(i: usize, w: f64) -> (usize, f64) {
+    let p = (i as f64 - w).max(0.0);
+    let lo = p.floor() as usize;
+    (lo, p - lo as f64)
+}
+
+/// The range of the knot values covering [t_lo, t_hi] (the last knot at or before `t_lo` up to
+/// the first at or after `t_hi`, clamped to the ends of the list), Hz: between two knots the
+/// frequency is monotone, so no value in [t_lo, t_hi] differs from another by more. Infinite
+/// when a knot is not a number or there are none (nothing is bounded then).
+fn knot_range(knots: &[(f64, f64)], t_lo: f64, t_hi: f64) -> f64 {
+    if knots.is_empty() {
+        return f64::INFINITY;
+    }
+    let j_lo = knots.partition_point(|k| k.0 <= t_lo).saturating_sub(1);
+    let j_hi = knots
+        .partition_point(|k| k.0 < t_hi)
+        .min(knots.len() - 1)
+        .max(j_lo);
+    let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
+    let mut nan = false;
+    for k in &knots[j_lo..=j_hi] {
+        lo = lo.min(k.1);
+        hi = hi.max(k.1);
+        nan |= k.1.is_nan();
+    }
+    let range = hi - lo;
+    if nan || !range.is_finite() {
+        f64::INFINITY
+    } else {
+        range
+    }
+}
+
+/// The indices of `range`, the one with the largest `bound` first (the earliest of equals), then
+/// the others in order.
+fn largest_first(
+    range: std::ops::RangeInclusive<usize>,
+    bound: impl Fn(usize) -> f64,
+) -> impl Iterator<Item = usize> {
+    let top = range
+        .clone()
+        .max_by(|&a, &b| bound(a).total_cmp(&bound(b)).then(b.cmp(&a)));
+    top.into_iter()
+        .chain(range.filter(move |&i| Some(i) != top))
 }
 
 /// The extremum of component `i` inside the step (a, b), whose end values and slopes are given:

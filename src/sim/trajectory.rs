@@ -109,13 +109,27 @@ impl PartialEq for Trajectory {
     }
 }
 
+/// The number of grid points `k·dt` with `k·dt ≤ t_end` (`1e-12` of slack), at least one: found
+/// from the estimate `t_end / dt` and corrected on the same test (which holds up to some `k` and
+/// not after it), not by counting up from zero.
+pub(super) fn grid_len(dt: f64, t_end: f64) -> usize {
+    let end = t_end + 1e-12;
+    if !(end >= dt) {
+        return 1;
+    }
+    let mut len = ((end / dt).floor() as usize).saturating_add(1).max(1);
+    while len > 1 && ((len - 1) as f64) * dt > end {
+        len -= 1;
+    }
+    while (len as f64) * dt <= end {
+        len += 1;
+    }
+    len
+}
+
 impl Trajectory {
     pub(super) fn new(path: Recorded, t_end: f64) -> Trajectory {
-        let dt = path.sample_interval_s;
-        let mut len = 1;
-        while (len as f64) * dt <= t_end + 1e-12 {
-            len += 1;
-        }
+        let len = grid_len(path.sample_interval_s, t_end);
         Trajectory {
             path: Arc::new(path),
             len,
@@ -159,14 +173,54 @@ impl Trajectory {
         k
     }
 
+    /// The number of grid points `k` with `grid_time(k) ≤ t` (grid times grow with `k`, so the
+    /// test holds up to some point and not after it): found from the estimate `t / dt` and
+    /// corrected on the same test, not by a scan of the grid.
+    fn grid_count_upto(&self, t: f64) -> usize {
+        let dt = self.path.sample_interval_s;
+        let mut k = if t.is_nan() {
+            0
+        } else {
+            ((t / dt).floor().max(0.0) as usize).min(self.len)
+        };
+        while k < self.len && self.grid_time(k) <= t {
+            k += 1;
+        }
+        while k > 0 && self.grid_time(k - 1) > t {
+            k -= 1;
+        }
+        k
+    }
+
     /// Grid points of each knot interval of `section`, in time order: `(first, last, v_a, v_b)`
     /// with the grid points `first..=last` inside the interval (each grid point in exactly one:
     /// the first interval whose end it does not pass) and the knot values at its ends.
     fn intervals(&self, section: usize) -> impl Iterator<Item = (usize, usize, f64, f64)> + '_ {
+        self.intervals_from(section, 0)
+    }
+
+    /// [`Trajectory::intervals`] from the first interval holding a grid point at or after `k`
+    /// on (the intervals wholly before it are passed over by a search of the knots, not walked).
+    fn intervals_from(
+        &self,
+        section: usize,
+        k: usize,
+    ) -> impl Iterator<Item = (usize, usize, f64, f64)> + '_ {
         let knots = &self.path.knots[section];
-        let mut next = 0usize;
+        // An interval holds a grid point at or after `k` when its end knot is not before it.
+        let t_k = self.grid_time(k);
+        let j0 = knots.partition_point(|kn| kn.0 < t_k);
+        // Before the pair that ends at knot `j0`, every grid point up to knot `j0 − 1` is taken.
+        let (skip, mut next) = if j0 >= 2 {
+            (j0 - 1, self.grid_count_upto(knots[j0 - 1].0))
+        } else {
+            (0, 0)
+        };
         let tail = knots.last().map(|k| (k.0, k.1));
-        let pairs = knots.windows(2).map(|w| (w[1].0, w[0].1, w[1].1));
+        let pairs = knots
+            .windows(2)
+            .skip(skip)
+            .map(|w| (w[1].0, w[0].1, w[1].1));
         // After the last knot the frequency is held (the run ended or the island was frozen).
         let held = tail.map(|(_, v)| (f64::INFINITY, v, v));
         pairs.chain(held).filter_map(move |(t_b, va, vb)| {
@@ -174,9 +228,7 @@ impl Trajectory {
                 return None;
             }
             let first = next;
-            while next < self.len && self.grid_time(next) <= t_b {
-                next += 1;
-            }
+            next = first.max(self.grid_count_upto(t_b));
             (next > first).then(|| (first, next - 1, va, vb))
         })
     }
@@ -185,7 +237,22 @@ impl Trajectory {
     /// (`t + 1e-9 ≥ from`), as the sampled trace would give them; `None` when no grid point is
     /// that late.
     pub fn grid_range_from(&self, from: f64) -> Option<(f64, f64)> {
-        let k_from = (0..self.len).find(|&k| self.grid_time(k) + 1e-9 >= from)?;
+        // The first grid point with `t + 1e-9 ≥ from` (the test holds from some point on).
+        let dt = self.path.sample_interval_s;
+        let mut k_from = if from.is_nan() {
+            self.len
+        } else {
+            ((from / dt).floor().max(0.0) as usize).min(self.len)
+        };
+        while k_from > 0 && self.grid_time(k_from - 1) + 1e-9 >= from {
+            k_from -= 1;
+        }
+        while k_from < self.len && self.grid_time(k_from) + 1e-9 < from {
+            k_from += 1;
+        }
+        if k_from >= self.len {
+            return None;
+        }
         let mut range: Option<(f64, f64)> = None;
         let mut take = |f: f64| {
             range = Some(match range {
@@ -194,7 +261,7 @@ impl Trajectory {
             });
         };
         for s in 0..self.path.knots.len() {
-            for (first, last, _, _) in self.intervals(s) {
+            for (first, last, _, _) in self.intervals_from(s, k_from) {
                 let first = first.max(k_from);
                 if first > last {
                     continue;
@@ -209,23 +276,47 @@ impl Trajectory {
         range
     }
 
-    /// Whether each grid point's frequency on `section` satisfies `inside`, a test of the form
-    /// `low ≤ f < high` (either bound may be infinite): evaluated on the dense output only in
-    /// the knot intervals whose end values are not both inside or both on one side outside.
-    pub fn grid_in_band(&self, section: usize, low: f64, high: f64) -> Vec<bool> {
+    /// Time `section` spends in the band `low ≤ f < high` (either bound may be infinite) on the
+    /// sample grid, until `until`: every grid interval `[t_k, t_{k+1}]` counts in full (cut at
+    /// `until`) when the frequency at its start is in the band, summed in time order. The dense
+    /// output is evaluated only in the knot intervals whose end values are not both inside or
+    /// both on one side outside, and not at all when every knot is on one side outside.
+    pub fn grid_time_in_band(&self, section: usize, low: f64, high: f64, until: f64) -> f64 {
+        let knots = &self.path.knots[section];
+        if knots.iter().all(|k| k.1 < low) || knots.iter().all(|k| k.1 >= high) {
+            return 0.0;
+        }
         let inside = |f: f64| f >= low && f < high;
-        let mut out = vec![false; self.len];
-        for (first, last, va, vb) in self.intervals(section) {
+        let mut time_s = 0.0;
+        // Grid point `k` (not the last) counts the interval to the next one.
+        let mut count = |k: usize| -> bool {
+            if k + 1 >= self.len {
+                return false;
+            }
+            let (t0, t1) = (self.grid_time(k), self.grid_time(k + 1).min(until));
+            if t1 <= t0 {
+                return t0 < until;
+            }
+            time_s += t1 - t0;
+            true
+        };
+        'walk: for (first, last, va, vb) in self.intervals(section) {
             let same_side = (va < low && vb < low) || (va >= high && vb >= high);
             if inside(va) && inside(vb) {
-                out[first..=last].iter_mut().for_each(|b| *b = true);
+                for k in first..=last {
+                    if !count(k) {
+                        break 'walk;
+                    }
+                }
             } else if !same_side {
-                for (k, b) in out.iter_mut().enumerate().take(last + 1).skip(first) {
-                    *b = inside(self.grid_hz(section, k));
+                for k in first..=last {
+                    if inside(self.grid_hz(section, k)) && !count(k) {
+                        break 'walk;
+                    }
                 }
             }
         }
-        out
+        time_s
     }
 
     /// The first grid time at or after `from` at which any of `sections` is below `hz`, as the

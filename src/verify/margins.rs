@@ -9,13 +9,14 @@
 //!
 //! Voltage dips and bus-tie openings have no single ΔP; their disturbance margin is not applicable.
 //!
-//! The searches start from the row's own run. A probe is simulated with
-//! [`SimConfig::stop_below_hz`] at the criteria's minimum frequency: once a separated island falls
-//! below it the probe fails whatever follows, so its run stops there.
+//! The searches start from the row's own run. A probe stops as soon as it is certain to fail
+//! whatever follows (a separated island below the minimum frequency, a recorded windowed ROCOF
+//! above the limit, a section below the recovery level after the recovery deadline; see
+//! `probe_config`), so a failing probe is not simulated to its end.
 
 use super::matrix::passes;
 use crate::model::{Action, BreakerRef, Case, CaseEvent, Criteria, Plant, Scheme};
-use crate::sim::{self, Run, SimConfig};
+use crate::sim::{self, FailLimits, Run, SimConfig};
 use serde::Serialize;
 
 /// Largest disturbance factor searched.
@@ -92,15 +93,10 @@ pub fn search_from(
             model_error_pct: Margin::FailsAsIs,
         };
     }
-    // A probe stops as soon as a separated island falls below the minimum frequency: it fails
-    // then whatever follows, and only pass or fail is asked of it.
-    let probe = SimConfig {
-        stop_below_hz: Some(plant.criteria.min_hz),
-        ..*config
-    };
     let disturbance_factor = if has_scalable_event(case) {
         bisect(1.0, MAX_DISTURBANCE_FACTOR, FACTOR_RESOLUTION, |k| {
             let grown = grow_disturbance(plant, case, op, k);
+            let probe = probe_config(plant, &grown, config);
             passes(
                 plant,
                 &grown,
@@ -112,6 +108,7 @@ pub fn search_from(
     };
     let model_error_pct = bisect(0.0, MAX_MODEL_ERROR_PCT, ERROR_RESOLUTION_PCT, |pct| {
         let weaker = weaken_model(plant, pct);
+        let probe = probe_config(&weaker, case, config);
         passes(
             &weaker,
             case,
@@ -121,6 +118,26 @@ pub fn search_from(
     Margins {
         disturbance_factor,
         model_error_pct,
+    }
+}
+
+/// The settings of a probe of `case` on `plant`, of which only pass or fail is asked: it stops as
+/// soon as it is certain to fail whatever follows, i.e. when a separated island falls below the
+/// minimum frequency ([`SimConfig::stop_below_hz`]), when a recorded grid point's windowed ROCOF
+/// exceeds the limit, or when a section is below the recovery level after the recovery deadline
+/// ([`SimConfig::stop_when_failing`]). Each of these makes [`passes`] false on the full run as
+/// well, so a probe's verdict is the one the full run would get.
+fn probe_config(plant: &Plant, case: &Case, config: &SimConfig) -> SimConfig {
+    let c = &plant.criteria;
+    let (_, last_event_s) = case.disturbance_span();
+    SimConfig {
+        stop_below_hz: Some(c.min_hz),
+        stop_when_failing: Some(FailLimits {
+            max_rocof_hz_per_s: c.max_rocof_hz_per_s,
+            // The deadline `judge` holds the recovery to.
+            recovered_by_s: last_event_s + c.recover_within_s,
+        }),
+        ..*config
     }
 }
 

@@ -66,7 +66,9 @@ impl BandTime {
 
 /// Time each generator running at `op` spent in each of its declared bands (or the defaults),
 /// while connected; bands with no time are left out. Read on the sample grid from the run's
-/// trajectory (the dense output is evaluated only where a band edge lies between two knots).
+/// trajectory ([`crate::sim::Trajectory::grid_time_in_band`]: the dense output is evaluated only
+/// where a band edge lies between two knots, and a band no knot of the section reaches costs
+/// nothing).
 pub fn band_times(plant: &Plant, op: usize, run: &Run) -> Vec<BandTime> {
     let defaults = default_bands(plant.nominal_hz);
     let path = &run.trajectory;
@@ -87,18 +89,7 @@ pub fn band_times(plant: &Plant, op: usize, run: &Run) -> Vec<BandTime> {
             &gen.off_frequency_limits
         };
         for band in bands {
-            let mut time_s = 0.0;
-            let inside = path.grid_in_band(gen.section, band.low_hz, band.high_hz);
-            for k in 1..path.grid_len() {
-                let (t0, t1) = (path.grid_time(k - 1), path.grid_time(k).min(tripped_at));
-                if t1 <= t0 {
-                    continue;
-                }
-                // Each interval counts with the frequency at its start.
-                if inside[k - 1] {
-                    time_s += t1 - t0;
-                }
-            }
+            let time_s = path.grid_time_in_band(gen.section, band.low_hz, band.high_hz, tripped_at);
             if time_s > 0.0 {
                 out.push(BandTime {
                     generator: gen.id.clone(),

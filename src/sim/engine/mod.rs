@@ -234,7 +234,8 @@ impl<'a> Engine<'a> {
             dropped_mw: 0.0,
             t: 0.0,
             y: vec![0.0; offset],
-            rec: Recorder::new(f0, n_sec, cfg.sample_interval_s.max(1e-4), recover),
+            rec: Recorder::new(f0, n_sec, cfg.sample_interval_s.max(1e-4), recover)
+                .watching(cfg.stop_when_failing, cfg.rocof_window_s),
             tight_step_s: tight_step(plant, scheme, cfg.max_step_s.max(1e-4)),
             first_failure: None,
             fault: None,
@@ -331,6 +332,7 @@ impl<'a> Engine<'a> {
                     Some((p, h)) if *p == seq => *h,
                     _ => 0.0,
                 },
+                max_kept_values: self.cfg.max_kept_values.saturating_sub(self.kept_values),
             };
             let bands = if quiet {
                 self.bands(&watched)
@@ -398,6 +400,12 @@ impl<'a> Engine<'a> {
             previous = Some((seq, h_last));
             self.t = t_stop;
             self.y = y_stop;
+            if let Some((at_s, criterion)) = self.rec.certain_failure() {
+                // Asked only whether the run holds, and it cannot: the rest is not simulated.
+                self.first_failure
+                    .get_or_insert(StopReason::CertainFailure { at_s, criterion });
+                return;
+            }
             if crossed {
                 self.handle(self.t, Event::Crossing);
                 self.n_events += 1;
