@@ -10,7 +10,8 @@
 //! (`Trajectory::grid_hz`), and must agree exactly. The runs are the examples' cases at every
 //! operating point, as written and with the disturbance grown or the model weakened as the
 //! margin searches do, so runs that hold, that fail late and that recover after a dip are all
-//! met.
+//! met. Last, the ROCOF and the band time of an island whose frequency has a closed form
+//! (Kundur 1994, §11.1) are checked against it.
 
 use nadir::input::{parse_cases, parse_plant, parse_scheme};
 use nadir::model::{CaseSet, Plant, Scheme};
@@ -206,4 +207,64 @@ fn the_settling_range_is_the_lowest_and_highest_sample_from_its_start() {
         }
     });
     assert!(worst <= 1e-6, "settling range off by {worst} Hz");
+}
+
+/// One machine with fixed output (no governor) and one 100 MW load with frequency exponent 1:
+/// load damping D = 100 MW per pu exactly, stored energy E = H·S = 5 s × 120 MVA = 600 MW·s.
+/// After a constant-power load step ΔP = 3 MW at t = 0, Kundur (Power System Stability and
+/// Control, 1994, §11.1, with 1/R = 0) gives Δω(t) = −(ΔP/D)(1 − e^{−t/T}), T = 2E/D = 12 s.
+const LINEAR_ISLAND: &str = r#"
+plant: { name: hand-computable island, nominal_hz: 50 }
+generators:
+  - { id: g, section: main, rating_mva: 120, inertia_s: 5.0, output_mw: 100, min_mw: 0, max_mw: 120,
+      governor: { model: fixed } }
+loads:
+  - { id: l, section: main, p_mw: 100, rank: 1, freq_exp: 1.0 }
+criteria:
+  min_hz: 47.5
+  recover: { above_hz: 47.6, within_s: 10 }
+  settle: { within_s: 20, low_hz: 47.0, high_hz: 51.0 }
+"#;
+
+const STEP: &str = r#"
+cases:
+  - { id: step, duration_s: 30, events: [ { at_s: 0.0, load_step: { section: main, mw: 3.0 } } ] }
+"#;
+
+#[test]
+fn rocof_and_band_time_of_a_linear_island_match_the_closed_form() {
+    let plant = parse_plant(LINEAR_ISLAND, "plant.yaml").expect("plant");
+    let cases = parse_cases(STEP, "cases.yaml", &plant).expect("cases");
+    // A stage the frequency never reaches (it settles towards 48.5 Hz).
+    let scheme = parse_scheme(
+        "stages:\n  - { id: uf-1, pickup_hz: 47.0, delay_s: 0.1, sheds: [l] }\n",
+        "scheme.yaml",
+        &plant,
+    )
+    .expect("scheme");
+    let cfg = sim_config_for(&plant, &SimConfig::default());
+    let run = simulate(&plant, &cases.cases[0], 0, &scheme, &cfg);
+    let (f0, dp, d, t) = (50.0_f64, 3.0, 100.0, 12.0);
+    let f = |s: f64| f0 * (1.0 - dp / d * (1.0 - (-s / t).exp()));
+    // The frequency falls ever more slowly, so the steepest 0.5 s window is the first one,
+    // [0, 0.5] s, both ends on the 0.01 s grid: (f(0) − f(0.5))/0.5 = 0.12243 Hz/s.
+    let rocof = (f(0.0) - f(0.5)) / 0.5;
+    assert!(
+        (run.max_rocof_hz_per_s - rocof).abs() <= 1e-5 * rocof,
+        "ROCOF {} Hz/s, closed form {rocof} Hz/s",
+        run.max_rocof_hz_per_s
+    );
+    // It reaches 49.0 Hz when (ΔP/D)(1 − e^{−t/T}) = 0.02, at t = T·ln 3 = 13.183 s, and stays
+    // in the 48.5–49.0 Hz band (Regulation (EU) 2016/631 Table 2, the default bands) to the end
+    // at 30 s, approaching 48.5 Hz from above: 30 − 13.183 = 16.817 s, counted on the 0.01 s
+    // grid from the first sample below 49.0 Hz (13.19 s): 16.81 s.
+    let bands = band_times(&plant, 0, &run);
+    assert_eq!(bands.len(), 1, "{bands:?}");
+    assert_eq!((bands[0].band.low_hz, bands[0].band.high_hz), (48.5, 49.0));
+    let exact = 30.0 - t * 3f64.ln();
+    assert!(
+        bands[0].time_s <= exact && exact - bands[0].time_s < 0.01,
+        "{} s in the band, closed form {exact} s",
+        bands[0].time_s
+    );
 }
