@@ -4,9 +4,10 @@
 //! no case operates costs nothing. Also the table proposed when no case needs shedding at all:
 //! the backstop alone.
 
+use super::context::Context;
 use super::evaluate::Verdict;
 use super::layout::{self, Layout};
-use super::sizing::{Context, Sized};
+use super::sizing::Sized;
 use crate::model::{Measurement, Scheme, StageTrigger};
 
 /// What became of the loads no stage sheds.

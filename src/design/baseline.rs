@@ -4,10 +4,11 @@
 //! operating point) — with the step chosen, from a scan, as the one that holds every row with the least shed. It is
 //! proposed only when it also breaks none of the plant's rules (`Context::rules_clean`).
 
+use super::context::Context;
 use super::evaluate::RowEval;
 use super::evaluate::Verdict;
 use super::layout::{self, Layout};
-use super::sizing::{Context, Sized};
+use super::sizing::Sized;
 use crate::model::Scheme;
 use rayon::prelude::*;
 

@@ -10,9 +10,10 @@
 //! ([`sizing::size`] with a cost on every change), and when that fails too, the reasons of both are
 //! kept for the output and the table is designed afresh.
 
+use super::context::{Context, Memo};
 use super::evaluate::{RowEval, Verdict};
 use super::layout;
-use super::sizing::{self, Context, Memo, NotSized, Sized};
+use super::sizing::{self, NotSized, Sized};
 use super::FromOutcome;
 use crate::model::{Scheme, StageTrigger};
 

@@ -4,7 +4,8 @@
 
 use super::backstop::Backstop;
 use super::bound::{self, Bound};
-use super::sizing::{Context, Sized};
+use super::context::Context;
+use super::sizing::Sized;
 use super::{BaselineSummary, FromOutcome, Headroom, Proposal, RowShed, Source};
 use crate::model::{Scheme, StageTrigger};
 use rayon::prelude::*;

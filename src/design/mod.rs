@@ -14,10 +14,12 @@ pub mod assign;
 pub mod backstop;
 pub mod baseline;
 pub mod bound;
+pub mod context;
 pub mod evaluate;
 mod existing;
 mod finish;
 pub mod layout;
+mod requirement;
 mod search;
 pub mod sizing;
 mod why;
@@ -27,13 +29,14 @@ pub use search::{starting_layouts, EXHAUSTIVE_LAYOUTS};
 use crate::model::{BreakerRef, CaseSet, Plant, Scheme};
 use backstop::Backstop;
 use bound::{Bound, Shortfall};
+use context::Context;
 use evaluate::design_sim_config;
 use existing::keep_existing;
 use finish::{drop_idle_last_stages, finish};
 use rayon::prelude::*;
 use search::{armable, search};
 use serde::Serialize;
-use sizing::{Context, Sized};
+use sizing::Sized;
 
 /// The design's result.
 #[derive(Debug, Clone, Serialize)]
@@ -64,7 +67,7 @@ pub struct Proposal {
     pub replays: usize,
     /// What the assignment solves took; the output warns when any exhausted its node budget.
     #[serde(skip)]
-    pub solver: sizing::SolverSummary,
+    pub solver: context::SolverSummary,
 }
 
 /// Per operating point: how much sheddable load the table holds against the most any studied

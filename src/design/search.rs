@@ -3,8 +3,9 @@
 //! trim of the best few tables. Layouts are sized in parallel and ranked in a fixed order, so
 //! the result does not depend on timing or thread count.
 
+use super::context::Context;
 use super::layout::{self, Layout};
-use super::sizing::{self, Context, Sized};
+use super::sizing::{self, Sized};
 use super::Progress;
 use crate::model::{Action, BreakerRef, DesignLimits, LongDelayGrid, StageTrigger};
 use rayon::prelude::*;

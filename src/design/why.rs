@@ -20,8 +20,8 @@
 //!
 //! A few replays per row above its bound (rows in parallel, collected in order: deterministic).
 
+use super::context::Context;
 use super::evaluate::{evaluate, RowEval, Verdict};
-use super::sizing::Context;
 use crate::model::{Plant, Scheme};
 use crate::report::figures::fixed;
 use rayon::prelude::*;
